@@ -1,0 +1,353 @@
+"""Validation of catalogue documents: JSON Schema first, then units and physical sense.
+
+Pure (no database). Every problem names the file, the record (part number, or ``#index`` when
+the record has none) and the field as a JSON pointer into the file, e.g.
+``/parts/3/dynamics/slew_rise/min``. All problems of a file are collected, not only the first.
+
+A valid part record is also turned into its *canonical* form: the same structure with every
+quantity parsed to an SI float and every spec written as an object ``{min?, typ?, max?, at?}``.
+Two records with equal canonical forms mean the same ("50 uA" and 5e-05).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass, field
+from functools import lru_cache
+from pathlib import Path
+from typing import Any
+
+from jsonschema import Draft202012Validator
+from jsonschema.exceptions import ValidationError
+
+from partsel.catalogue.files import collect_files, read_document
+from partsel.catalogue.schema import Schema, build_schema
+from partsel.errors import InputError, Problem, json_pointer
+from partsel.params import SIDES, Topology
+from partsel.units import parse_quantity
+
+Path_ = list[str | int]
+
+
+@dataclass(frozen=True)
+class CatalogueDocument:
+    """One validated catalogue file.
+
+    ``makers`` and ``parts`` are the records as given (for storing and dumping them back);
+    ``canonical_parts`` are the same parts with SI floats (see module docstring).
+    """
+
+    file: str
+    makers: list[dict[str, Any]] = field(default_factory=list)
+    parts: list[dict[str, Any]] = field(default_factory=list)
+    canonical_parts: list[dict[str, Any]] = field(default_factory=list)
+
+
+@lru_cache(maxsize=1)
+def _schema() -> Schema:
+    return build_schema()
+
+
+@lru_cache(maxsize=1)
+def _validator() -> Draft202012Validator:
+    return Draft202012Validator(_schema())
+
+
+def part_label(record: Any, index: int) -> str:
+    """Record label used in problems: the part number, or ``#index`` without one."""
+    if isinstance(record, dict):
+        pn = record.get("part_number")
+        if isinstance(pn, str) and pn.strip():
+            return pn
+    return f"#{index}"
+
+
+def _given(value: Any) -> str:
+    return repr(value) if isinstance(value, str) else f"{value:g}"
+
+
+class _Walker:
+    """Walks a record along the schema: parses quantities, checks signs and spec order."""
+
+    def __init__(self, problems: list[Problem], file: str | None, record: str | None) -> None:
+        self.defs: dict[str, Schema] = _schema()["$defs"]
+        self.problems = problems
+        self.file = file
+        self.record = record
+
+    def problem(self, message: str, path: Path_) -> None:
+        self.problems.append(Problem(message, self.file, self.record, json_pointer(*path)))
+
+    def resolve(self, schema: Schema) -> Schema:
+        ref = schema.get("$ref")
+        if ref is None:
+            return schema
+        base = self.defs[ref.rsplit("/", 1)[-1]]
+        return {**base, **{k: v for k, v in schema.items() if k != "$ref"}}
+
+    def walk(self, schema: Schema, value: Any, path: Path_, nonneg: bool = False) -> Any:
+        schema = self.resolve(schema)
+        nonneg = nonneg or bool(schema.get("x-nonnegative", False))
+        if schema.get("x-kind") == "spec":
+            return self.spec(schema, value, path, nonneg)
+        dim = schema.get("x-dimension")
+        if dim is not None:
+            if isinstance(value, str) and value in schema.get("x-words", ()):
+                return value
+            return self.quantity(dim, value, path, nonneg)
+        props = schema.get("properties")
+        if isinstance(value, dict) and props is not None:
+            return {
+                k: self.walk(props[k], v, [*path, k]) if k in props else v for k, v in value.items()
+            }
+        items = schema.get("items")
+        if isinstance(value, list) and items is not None:
+            return [self.walk(items, v, [*path, i]) for i, v in enumerate(value)]
+        return value
+
+    def quantity(self, dim: str, value: Any, path: Path_, nonneg: bool) -> float:
+        try:
+            out = parse_quantity(
+                value, dim, field=json_pointer(*path), file=self.file, record=self.record
+            )
+        except InputError as exc:
+            self.problems.extend(exc.problems)
+            return math.nan
+        if nonneg and out < 0:
+            self.problem(f"must not be negative (got {_given(value)})", path)
+        return out
+
+    def spec(self, schema: Schema, value: Any, path: Path_, nonneg: bool) -> dict[str, Any]:
+        if not isinstance(value, dict):
+            return {"typ": self.quantity(schema["x-dimension"], value, path, nonneg)}
+        props = schema["properties"]
+        out: dict[str, Any] = {}
+        for side in SIDES:
+            if side in value:
+                out[side] = self.walk(props[side], value[side], [*path, side], nonneg)
+        if "at" in value:
+            out["at"] = self.walk(props["at"], value["at"], [*path, "at"])
+        present = [s for s in SIDES if s in out]
+        for i, lo in enumerate(present):
+            for hi in present[i + 1 :]:
+                if out[lo] > out[hi]:
+                    self.problem(
+                        f"{lo} ({_given(value[lo])}) is greater than {hi} "
+                        f"({_given(value[hi])}); min <= typ <= max must hold",
+                        [*path, lo],
+                    )
+                    return out
+        return out
+
+
+def _side(spec: Any, *sides: str) -> float:
+    """First present side of a canonical spec (NaN when none)."""
+    if isinstance(spec, dict):
+        for s in sides:
+            v = spec.get(s)
+            if isinstance(v, float) and not math.isnan(v):
+                return v
+    return math.nan
+
+
+def _record_checks(canon: dict[str, Any], base: Path_, w: _Walker) -> None:
+    """Checks across fields of one canonical part record."""
+    supply = canon.get("supply", {}).get("range", {})
+    if supply.get("min", math.nan) >= supply.get("max", math.nan):
+        w.problem("supply minimum must be below the maximum", [*base, "supply", "range", "min"])
+    temp = canon.get("temperature", {})
+    if temp.get("min", math.nan) >= temp.get("max", math.nan):
+        w.problem("temperature minimum must be below the maximum", [*base, "temperature", "min"])
+    if canon.get("junction_max", math.inf) < temp.get("max", -math.inf):
+        w.problem("junction_max is below the rated ambient maximum", [*base, "junction_max"])
+    out = canon.get("output", {})
+    if out.get("topology") == Topology.CLASS_B_PULLDOWN and "dead_band" not in out:
+        w.problem(
+            "dead_band is required for topology class-b-pulldown", [*base, "output", "dead_band"]
+        )
+    for rail, limit in (("swing_pos", "source_limit"), ("swing_neg", "sink_limit")):
+        curve = out.get(rail)
+        if isinstance(curve, list):
+            currents = [p.get("current", math.nan) for p in curve]
+            for k in range(1, len(currents)):
+                if not currents[k] > currents[k - 1]:
+                    w.problem(
+                        "current must increase from point to point",
+                        [*base, "output", rail, k, "current"],
+                    )
+        elif isinstance(curve, dict) and math.isnan(_side(out.get(limit), "typ", "min", "max")):
+            w.problem(
+                f"a saturation/resistance curve needs output/{limit} to place its second point",
+                [*base, "output", rail],
+            )
+
+
+def canonical_part(
+    record: dict[str, Any],
+    *,
+    file: str | None = None,
+    record_label: str | None = None,
+    pointer: Path_ | None = None,
+) -> tuple[dict[str, Any], list[Problem]]:
+    """Canonical form of one schema-valid part record, and the problems found on the way.
+
+    ``pointer`` is the record's location in its file (default ``[]``), prefixed to every
+    problem's field pointer.
+    """
+    base: Path_ = list(pointer or [])
+    problems: list[Problem] = []
+    w = _Walker(problems, file, record_label)
+    canon = w.walk(_schema()["$defs"]["part"], record, base)
+    _record_checks(canon, base, w)
+    return canon, problems
+
+
+def _schema_problems(err: ValidationError, file: str, data: Any) -> list[Problem]:
+    path: Path_ = list(err.absolute_path)
+    record = None
+    if len(path) >= 2 and path[0] in ("parts", "makers") and isinstance(path[1], int):
+        item = data[path[0]][path[1]]
+        if path[0] == "parts":
+            record = part_label(item, path[1])
+        elif isinstance(item, dict) and isinstance(item.get("name"), str):
+            record = item["name"]
+        else:
+            record = f"#{path[1]}"
+    if err.validator == "required" and isinstance(err.instance, dict):
+        return [
+            Problem("required field is missing", file, record, json_pointer(*path, name))
+            for name in err.validator_value
+            if name not in err.instance
+        ]
+    if err.validator == "additionalProperties" and isinstance(err.instance, dict):
+        known = err.schema.get("properties", {})
+        return [
+            Problem(f"unknown field {name!r}", file, record, json_pointer(*path, name))
+            for name in err.instance
+            if name not in known
+        ]
+    message = err.schema.get("x-message") if err.validator in ("anyOf", "oneOf") else None
+    return [Problem(message or err.message, file, record, json_pointer(*path))]
+
+
+def validate_document(data: Any, *, file: str) -> tuple[CatalogueDocument | None, list[Problem]]:
+    """Validate one parsed catalogue file; return the document (None if invalid) and problems."""
+    if data is None:
+        return None, [Problem("file is empty", file)]
+    if not isinstance(data, dict):
+        return None, [Problem("the top level must be an object with 'parts' and/or 'makers'", file)]
+    problems: list[Problem] = []
+    bad_records: set[tuple[str, int]] = set()
+    errors = sorted(_validator().iter_errors(data), key=lambda e: list(map(str, e.path)))
+    for err in errors:
+        problems.extend(_schema_problems(err, file, data))
+        p = list(err.absolute_path)
+        if len(p) >= 2 and isinstance(p[1], int):
+            bad_records.add((str(p[0]), p[1]))
+    makers = data.get("makers") if isinstance(data.get("makers"), list) else []
+    parts = data.get("parts") if isinstance(data.get("parts"), list) else []
+    for i, maker in enumerate(makers):
+        if ("makers", i) in bad_records:
+            continue
+        for k, rule in enumerate(maker.get("suffix_rules", [])):
+            try:
+                re.compile(rule)
+            except re.error as exc:
+                problems.append(
+                    Problem(
+                        f"not a valid regular expression: {exc}",
+                        file,
+                        maker["name"],
+                        json_pointer("makers", i, "suffix_rules", k),
+                    )
+                )
+    canon_parts: list[dict[str, Any]] = []
+    for i, part in enumerate(parts):
+        if ("parts", i) in bad_records:
+            continue
+        canon, probs = canonical_part(
+            part, file=file, record_label=part_label(part, i), pointer=["parts", i]
+        )
+        problems.extend(probs)
+        canon_parts.append(canon)
+    if problems:
+        return None, problems
+    return CatalogueDocument(file, list(makers), list(parts), canon_parts), []
+
+
+def _cross_file_problems(docs: Sequence[CatalogueDocument]) -> list[Problem]:
+    """Duplicate part numbers (case-insensitive) and conflicting maker records across files."""
+    problems: list[Problem] = []
+    seen: dict[str, tuple[str, int]] = {}
+    makers: dict[str, tuple[str, int, dict[str, Any]]] = {}
+    for doc in docs:
+        for i, part in enumerate(doc.parts):
+            key = part["part_number"].strip().casefold()
+            if key in seen:
+                f0, i0 = seen[key]
+                problems.append(
+                    Problem(
+                        f"duplicate part number {part['part_number']!r} (part numbers are "
+                        f"case-insensitive; first at {f0} /parts/{i0})",
+                        doc.file,
+                        part["part_number"],
+                        json_pointer("parts", i, "part_number"),
+                    )
+                )
+            else:
+                seen[key] = (doc.file, i)
+        for i, maker in enumerate(doc.makers):
+            key = maker["name"].strip().casefold()
+            prev = makers.get(key)
+            if prev is None:
+                makers[key] = (doc.file, i, maker)
+            elif prev[2].get("suffix_rules", []) != maker.get("suffix_rules", []):
+                problems.append(
+                    Problem(
+                        f"maker {maker['name']!r} is given again with other suffix_rules "
+                        f"(first at {prev[0]} /makers/{prev[1]})",
+                        doc.file,
+                        maker["name"],
+                        json_pointer("makers", i, "suffix_rules"),
+                    )
+                )
+    return problems
+
+
+def validate_documents(items: Iterable[tuple[str, Any]]) -> list[CatalogueDocument]:
+    """Validate parsed documents ``(file, data)`` together; raise InputError with every problem.
+
+    Besides each file's own checks, part numbers must be unique across all files.
+    """
+    problems: list[Problem] = []
+    docs: list[CatalogueDocument] = []
+    for file, data in items:
+        doc, probs = validate_document(data, file=file)
+        problems.extend(probs)
+        if doc is not None:
+            docs.append(doc)
+    problems.extend(_cross_file_problems(docs))
+    if problems:
+        raise InputError(problems=problems)
+    return docs
+
+
+def read_and_validate(paths: Iterable[str | Path]) -> list[CatalogueDocument]:
+    """Read catalogue files and folders, validate them all; raise InputError with every problem."""
+    files = collect_files(paths)
+    problems: list[Problem] = []
+    items: list[tuple[str, Any]] = []
+    for f in files:
+        try:
+            items.append((str(f), read_document(f)))
+        except InputError as exc:
+            problems.extend(exc.problems)
+    try:
+        docs = validate_documents(items)
+    except InputError as exc:
+        problems.extend(exc.problems)
+    if problems:
+        raise InputError(problems=problems)
+    return docs
