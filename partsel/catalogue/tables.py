@@ -1,0 +1,91 @@
+"""SQLModel tables of the catalogue: ``part`` (one wide row per part) and ``maker``.
+
+The ``part`` table holds the flat columns of :mod:`partsel.catalogue.columns` (so a frame is one
+query), the record as given (``record_json``, so a dump gives it back), a hash of its canonical
+form (to tell changed from unchanged on load), a version counter and the time of the last change.
+The schema itself is created and migrated by Alembic (``partsel/catalogue/migrations``); a test
+checks that the migrations and these classes agree.
+"""
+
+from __future__ import annotations
+
+import types
+from datetime import datetime
+from typing import Any
+
+import sqlalchemy as sa
+from sqlmodel import JSON, Field, SQLModel
+
+from partsel.catalogue.columns import FLAT_COLUMNS, ColumnKind
+
+#: Flat columns that every valid record fills (the rest may be NULL).
+REQUIRED_FLAT: frozenset[str] = frozenset({
+    "part_number", "maker", "channels", "lifecycle", "topology", "packages", "temp_min_c",
+    "temp_max_c", "junction_max_c", "supply_min_v", "supply_max_v", "rail_to_rail_input",
+})  # fmt: skip
+
+_SA_TYPE: dict[ColumnKind, type[sa.types.TypeEngine[Any]]] = {
+    "str": sa.String,
+    "int": sa.Integer,
+    "float": sa.Float,
+    "bool": sa.Boolean,
+}
+_PY_TYPE: dict[ColumnKind, type] = {"str": str, "int": int, "float": float, "bool": bool}
+
+
+class Maker(SQLModel, table=True):
+    """A maker and the suffix rules used to match BOM part numbers to its parts."""
+
+    __tablename__ = "maker"
+
+    id: int | None = Field(default=None, primary_key=True)
+    name: str = Field(sa_type=sa.String, nullable=False)
+    name_key: str = Field(
+        sa_type=sa.String, nullable=False, unique=True, index=True, description="casefolded name"
+    )
+    suffix_rules: list[str] = Field(default_factory=list, sa_type=JSON, nullable=False)
+
+
+def _part_body(ns: dict[str, Any]) -> None:
+    ann: dict[str, Any] = {
+        "id": int | None,
+        "part_key": str,
+        "record_json": str,
+        "content_hash": str,
+        "version": int,
+        "updated_at": datetime,
+    }
+    ns["__tablename__"] = "part"
+    ns["__doc__"] = "One part: flat columns, the record as given, version and update time."
+    ns["id"] = Field(default=None, primary_key=True)
+    ns["part_key"] = Field(
+        sa_type=sa.String,
+        nullable=False,
+        unique=True,
+        index=True,
+        description="casefolded part number",
+    )
+    ns["record_json"] = Field(sa_type=sa.Text, nullable=False)
+    ns["content_hash"] = Field(sa_type=sa.String, nullable=False)
+    ns["version"] = Field(default=1, nullable=False)
+    ns["updated_at"] = Field(sa_type=sa.DateTime(timezone=True), nullable=False)
+    for col in FLAT_COLUMNS:
+        required = col.name in REQUIRED_FLAT
+        py = _PY_TYPE[col.kind]
+        ann[col.name] = py if required else py | None
+        ns[col.name] = Field(
+            default=None,
+            nullable=not required,
+            sa_type=_SA_TYPE[col.kind],
+            description=col.description,
+        )
+    ns["__annotations__"] = ann
+
+
+#: The part table's model class, built from the flat column list.
+Part: type[SQLModel] = types.new_class("Part", (SQLModel,), {"table": True}, _part_body)
+
+#: Core table objects (bulk work goes through SQLAlchemy Core for speed).
+part_table: sa.Table = Part.__table__  # type: ignore[attr-defined]
+maker_table: sa.Table = Maker.__table__  # type: ignore[attr-defined]
+metadata: sa.MetaData = SQLModel.metadata
