@@ -18,6 +18,7 @@ validators ignore and :mod:`partsel.catalogue.validate` reads:
 from __future__ import annotations
 
 import json
+from functools import lru_cache
 from pathlib import Path
 from typing import Any
 
@@ -377,6 +378,12 @@ def build_schema() -> Schema:
         "additionalProperties": False,
         "$defs": defs,
     }
+
+
+@lru_cache(maxsize=1)
+def catalogue_schema() -> Schema:
+    """The generated schema, built once and shared (callers must not modify it)."""
+    return build_schema()
 
 
 def schema_text() -> str:

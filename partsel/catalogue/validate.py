@@ -23,7 +23,7 @@ from jsonschema import Draft202012Validator
 from jsonschema.exceptions import ValidationError
 
 from partsel.catalogue.files import collect_files, read_document
-from partsel.catalogue.schema import Schema, build_schema
+from partsel.catalogue.schema import Schema, catalogue_schema
 from partsel.errors import InputError, Problem, json_pointer
 from partsel.params import SIDES, Topology
 from partsel.units import parse_quantity
@@ -46,13 +46,8 @@ class CatalogueDocument:
 
 
 @lru_cache(maxsize=1)
-def _schema() -> Schema:
-    return build_schema()
-
-
-@lru_cache(maxsize=1)
 def _validator() -> Draft202012Validator:
-    return Draft202012Validator(_schema())
+    return Draft202012Validator(catalogue_schema())
 
 
 def part_label(record: Any, index: int) -> str:
@@ -72,7 +67,7 @@ class _Walker:
     """Walks a record along the schema: parses quantities, checks signs and spec order."""
 
     def __init__(self, problems: list[Problem], file: str | None, record: str | None) -> None:
-        self.defs: dict[str, Schema] = _schema()["$defs"]
+        self.defs: dict[str, Schema] = catalogue_schema()["$defs"]
         self.problems = problems
         self.file = file
         self.record = record
@@ -199,7 +194,7 @@ def canonical_part(
     base: Path_ = list(pointer or [])
     problems: list[Problem] = []
     w = _Walker(problems, file, record_label)
-    canon = w.walk(_schema()["$defs"]["part"], record, base)
+    canon = w.walk(catalogue_schema()["$defs"]["part"], record, base)
     _record_checks(canon, base, w)
     return canon, problems
 

@@ -1,0 +1,1 @@
+"""partsel's command line (Typer). The app is :data:`partsel.cli.main.app`."""

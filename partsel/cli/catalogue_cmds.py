@@ -1,0 +1,364 @@
+"""Catalogue commands: check, load, list, show, export, export-csv, import-sheet."""
+
+from __future__ import annotations
+
+import difflib
+import math
+import sys
+from enum import StrEnum
+from pathlib import Path
+from typing import Annotated, Any
+
+import pandas as pd
+import typer
+from rich.table import Column, Table
+
+from partsel.catalogue import (
+    export_catalogue,
+    get_part,
+    load_documents,
+    load_paths,
+    part_numbers,
+    parts_frame,
+    read_and_validate,
+    swing_points,
+)
+from partsel.catalogue.columns import FLAT_COLUMN_NAMES
+from partsel.catalogue.sheet import sheet_documents
+from partsel.catalogue.store import LoadReport, StoredPart
+from partsel.catalogue.validate import canonical_part
+from partsel.cli.common import (
+    ExitCode,
+    JsonFlag,
+    bad_input_exits,
+    echo_json,
+    engine,
+    err_console,
+    fail_bad_input,
+    message,
+    out_console,
+)
+from partsel.errors import InputError
+from partsel.params import PARAMS, SIDES, Lifecycle, Topology
+from partsel.units import UNIT_LABEL, format_si
+
+Paths = Annotated[list[Path], typer.Argument(help="Catalogue files or folders (YAML/JSON).")]
+DryRun = Annotated[bool, typer.Option("--dry-run", help="Check and report; store nothing.")]
+
+
+class ExportFormat(StrEnum):
+    """File format of ``export``."""
+
+    YAML = "yaml"
+    JSON = "json"
+
+
+#: Units shown to people where the SI unit reads badly (V/s for slew rates).
+_DISPLAY: dict[str, tuple[str, float]] = {"slew": ("V/us", 1e-6)}
+
+
+def _fmt(value: float, dimension: str) -> str:
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return "—"
+    if dimension == "temperature":
+        return f"{value:g} °C"
+    if dimension in _DISPLAY:
+        unit, scale = _DISPLAY[dimension]
+        return f"{value * scale:.3g} {unit}"
+    return format_si(value, UNIT_LABEL[dimension])
+
+
+def check(paths: Paths, json_out: JsonFlag = False) -> None:
+    """Validate catalogue files and folders without touching the database."""
+    with bad_input_exits(json_out=json_out):
+        docs = read_and_validate(paths)
+    n_parts = sum(len(d.parts) for d in docs)
+    n_makers = sum(len(d.makers) for d in docs)
+    message(f"ok: {n_parts} parts and {n_makers} makers in {len(docs)} files")
+    if json_out:
+        echo_json([])
+
+
+def _report(report: LoadReport, json_out: bool) -> None:
+    if json_out:
+        echo_json(
+            {
+                **report.counts(),
+                "dry_run": report.dry_run,
+                "parts": {
+                    "added": report.added,
+                    "changed": report.changed,
+                    "unchanged": report.unchanged,
+                },
+            }
+        )
+        return
+    c = report.counts()
+    verb = "would be" if report.dry_run else ""
+    typer.echo(
+        f"parts: {c['added']} added, {c['changed']} changed, "
+        f"{c['unchanged']} unchanged; makers: {c['makers_added']} added, "
+        f"{c['makers_changed']} changed" + (f" ({verb} stored: dry run)" if report.dry_run else "")
+    )
+
+
+def load(
+    ctx: typer.Context, paths: Paths, dry_run: DryRun = False, json_out: JsonFlag = False
+) -> None:
+    """Validate catalogue files, then add or update their parts (all or nothing)."""
+    eng = engine(ctx)
+    with bad_input_exits(json_out=json_out):
+        report = load_paths(eng, paths, dry_run=dry_run)
+    _report(report, json_out)
+
+
+def _matches(
+    df: pd.DataFrame,
+    maker: str | None,
+    topology: Topology | None,
+    lifecycle: Lifecycle | None,
+    search: str | None,
+) -> pd.DataFrame:
+    keep = pd.Series(True, index=df.index)
+    if maker:
+        keep &= df["maker"].str.casefold() == maker.strip().casefold()
+    if topology:
+        keep &= df["topology"] == topology.value
+    if lifecycle:
+        keep &= df["lifecycle"] == lifecycle.value
+    if search:
+        text = search.casefold()
+        hit = pd.Series(False, index=df.index)
+        for col in ("part_number", "maker", "family", "description"):
+            hit |= df[col].fillna("").str.casefold().str.contains(text, regex=False)
+        keep &= hit
+    return df[keep]
+
+
+def _records(df: pd.DataFrame) -> list[dict[str, Any]]:
+    return [
+        {k: (v.item() if hasattr(v, "item") else v) for k, v in row.items()}
+        for row in df.to_dict("records")
+    ]
+
+
+def list_parts(
+    ctx: typer.Context,
+    maker: Annotated[str | None, typer.Option(help="Only this maker (any case).")] = None,
+    topology: Annotated[Topology | None, typer.Option(help="Only this output topology.")] = None,
+    lifecycle: Annotated[Lifecycle | None, typer.Option(help="Only this lifecycle.")] = None,
+    search: Annotated[
+        str | None,
+        typer.Option(help="Text in part number, maker, family or description (any case)."),
+    ] = None,
+    json_out: JsonFlag = False,
+) -> None:
+    """List stored parts (a table; --json: an array of flat rows in SI units)."""
+    df = _matches(parts_frame(engine(ctx)), maker, topology, lifecycle, search)
+    if json_out:
+        echo_json(_records(df))
+        return
+    if df.empty:
+        message("no parts match")
+        return
+    table = Table(
+        "Maker",
+        "Ch",
+        "Topology",
+        "Lifecycle",
+        "Supply",
+        "GBW typ",
+        "SR rise typ",
+        "Iq/ch typ",
+        "Price",
+    )
+    table.columns.insert(0, Column("Part", no_wrap=True))
+    for r in df.itertuples(index=False):
+        price = "—" if math.isnan(r.price) else f"{r.price:.2f} {r.currency}"
+        table.add_row(
+            r.part_number,
+            r.maker,
+            str(r.channels),
+            r.topology,
+            r.lifecycle,
+            f"{r.supply_min_v:g}–{r.supply_max_v:g} V",
+            _fmt(r.gbw_typ, "frequency"),
+            _fmt(r.slew_rise_typ, "slew"),
+            _fmt(r.supply_current_typ, "current"),
+            price,
+        )
+    out_console().print(table)
+    message(f"{len(df)} parts")
+
+
+def _lookup(ctx: typer.Context, part: str) -> StoredPart:
+    eng = engine(ctx)
+    stored = get_part(eng, part)
+    if stored is None:
+        close = difflib.get_close_matches(part.upper(), part_numbers(eng), n=3)
+        hint = f"; did you mean {', '.join(close)}?" if close else ""
+        fail_bad_input(InputError(f"no part {part!r} in the catalogue{hint}", record=part))
+    return stored
+
+
+def _conditions(spec: Any) -> str:
+    at = spec.get("at") if isinstance(spec, dict) else None
+    return ", ".join(f"{k} {v}" for k, v in at.items()) if isinstance(at, dict) else ""
+
+
+def _show_text(stored: StoredPart) -> None:
+    rec, flat = stored.record, stored.flat
+    con = out_console()
+    con.print(
+        f"[bold]{rec['part_number']}[/bold]  {rec['maker']}"
+        + (f" — {rec['family']}" if rec.get("family") else "")
+    )
+    if rec.get("description"):
+        con.print(rec["description"])
+    price = (
+        "—"
+        if math.isnan(flat["price"])
+        else f"{flat['price']:.2f} {flat['currency']}"
+        + (f" at {rec['price']['quantity']}" if "quantity" in rec["price"] else "")
+    )
+    info = Table.grid(padding=(0, 2))
+    for key, val in (
+        ("channels", str(flat["channels"])),
+        ("lifecycle", flat["lifecycle"]),
+        ("topology", flat["topology"]),
+        (
+            "packages",
+            ", ".join(
+                f"{p['code']} ({p['pinout']}"
+                + (f", θJA {p['theta_ja']}" if "theta_ja" in p else "")
+                + ")"
+                for p in rec["packages"]
+            ),
+        ),
+        (
+            "temperature",
+            f"{_fmt(flat['temp_min_c'], 'temperature')} … "
+            f"{_fmt(flat['temp_max_c'], 'temperature')}, junction max "
+            f"{_fmt(flat['junction_max_c'], 'temperature')}",
+        ),
+        ("supply", f"{flat['supply_min_v']:g} … {flat['supply_max_v']:g} V total"),
+        ("rail-to-rail input", "yes" if flat["rail_to_rail_input"] else "no"),
+        (
+            "min stable gain",
+            "—" if math.isnan(flat["min_stable_gain"]) else f"{flat['min_stable_gain']:g} V/V",
+        ),
+        ("price", price),
+        ("stored", f"version {stored.version}, {stored.updated_at:%Y-%m-%d %H:%M}"),
+    ):
+        info.add_row(key, val)
+    con.print(info)
+    table = Table("Parameter", "min", "typ", "max", "conditions", title="Parameters")
+    for p in PARAMS:
+        given: Any = rec
+        for name in p.path:
+            given = given.get(name) if isinstance(given, dict) else None
+        cells = [_fmt(flat[f"{p.key}_{s}"], p.dimension) for s in SIDES]
+        if given is None and all(c == "—" for c in cells):
+            continue
+        table.add_row(p.key.replace("_", " "), *cells, _conditions(given))
+    con.print(table)
+    canon, _ = canonical_part(rec)
+    out = canon.get("output", {})
+    for rail, against in (("swing_pos", "source"), ("swing_neg", "sink")):
+        pts = swing_points(out, rail)
+        if not pts:
+            continue
+        t = Table(
+            f"{against} current",
+            "min",
+            "typ",
+            "max",
+            title=f"Headroom to {'V+' if rail == 'swing_pos' else 'V-'}",
+        )
+        for i_a, head in pts:
+            t.add_row(_fmt(i_a, "current"), *(_fmt(head[s], "voltage") for s in SIDES))
+        con.print(t)
+    if rec.get("notes"):
+        con.print(f"notes: {rec['notes']}")
+
+
+def show(
+    ctx: typer.Context,
+    part: Annotated[str, typer.Argument(help="Part number.")],
+    json_out: JsonFlag = False,
+) -> None:
+    """Show one part in full (--json: the record as given, its flat SI row, version)."""
+    stored = _lookup(ctx, part)
+    if json_out:
+        echo_json(
+            {
+                "record": stored.record,
+                "flat": stored.flat,
+                "version": stored.version,
+                "updated_at": stored.updated_at,
+            }
+        )
+        return
+    _show_text(stored)
+
+
+def export(
+    ctx: typer.Context,
+    directory: Annotated[Path, typer.Argument(help="Folder to write into.", file_okay=False)],
+    fmt: Annotated[ExportFormat, typer.Option("--format", help="File format.")] = (
+        ExportFormat.YAML
+    ),
+) -> None:
+    """Write the catalogue as loadable files, one per maker."""
+    files = export_catalogue(engine(ctx), directory, fmt.value)
+    message(f"wrote {len(files)} files to {directory}")
+
+
+def export_csv(
+    ctx: typer.Context,
+    file: Annotated[
+        Path,
+        typer.Argument(help="CSV file to write ('-': stdout).", dir_okay=False, allow_dash=True),
+    ],
+) -> None:
+    """Write the flat SI columns of every part as CSV (one row per part)."""
+    df = parts_frame(engine(ctx))
+    if str(file) == "-":
+        df.to_csv(sys.stdout, index=False, columns=list(FLAT_COLUMN_NAMES))
+        return
+    df.to_csv(file, index=False, columns=list(FLAT_COLUMN_NAMES))
+    message(f"wrote {len(df)} parts to {file}")
+
+
+def import_sheet(
+    ctx: typer.Context,
+    sheet: Annotated[Path, typer.Argument(help="CSV or XLSX file, one part per row.")],
+    mapping: Annotated[
+        Path,
+        typer.Option(
+            "--map",
+            help="Mapping file (YAML/JSON): sheet columns to record fields, units, defaults.",
+        ),
+    ],
+    dry_run: DryRun = False,
+    json_out: JsonFlag = False,
+) -> None:
+    """Turn spreadsheet rows into part records, check them and add or update them."""
+    with bad_input_exits(json_out=json_out):
+        docs = sheet_documents(sheet, mapping)
+        report = load_documents(engine(ctx), docs, dry_run=dry_run)
+    _report(report, json_out)
+
+
+def register(app: typer.Typer) -> None:
+    """Add the catalogue commands to ``app``."""
+    app.command("check")(check)
+    app.command("load")(load)
+    app.command("list")(list_parts)
+    app.command("show")(show)
+    app.command("export")(export)
+    app.command("export-csv")(export_csv)
+    app.command("import-sheet")(import_sheet)
+
+
+__all__ = ["ExitCode", "err_console", "register"]

@@ -1,0 +1,141 @@
+"""Helpers shared by partsel's command modules: exit codes, consoles, JSON output, state.
+
+Data goes to stdout, messages to stderr. Bad input ends a command with
+:attr:`ExitCode.BAD_INPUT` after listing every problem (file, record, field pointer).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from collections.abc import Iterator
+from contextlib import contextmanager
+from dataclasses import dataclass, field
+from enum import IntEnum
+from typing import Annotated, Any, NoReturn
+
+import typer
+from rich.console import Console
+from sqlalchemy.engine import Engine
+
+from partsel.errors import InputError, Problem
+
+
+class ExitCode(IntEnum):
+    """Process exit codes of every partsel command."""
+
+    OK = 0
+    """Success, nothing to report."""
+    FINDINGS = 1
+    """The command ran and found something (e.g. a part fails a requirement)."""
+    BAD_INPUT = 2
+    """Bad input or usage: nothing was changed."""
+
+
+JsonFlag = Annotated[bool, typer.Option("--json", help="Print JSON on stdout instead of text.")]
+
+
+@dataclass
+class AppState:
+    """What the main callback hands to every command (``ctx.obj``).
+
+    ``db_url`` is the ``--db`` option or ``$PARTSEL_DB`` (None: the default file). The engine
+    is opened on first use only, so commands that need no database never touch one.
+    """
+
+    db_url: str | None = None
+    _engine: Engine | None = field(default=None, repr=False)
+
+    def engine(self) -> Engine:
+        """The catalogue engine (opened, migrated and, the first time, filled on first call)."""
+        if self._engine is None:
+            from partsel.catalogue import open_catalogue
+
+            with bad_input_exits():
+                self._engine = open_catalogue(self.db_url)
+        return self._engine
+
+    def close(self) -> None:
+        """Dispose of the engine, if one was opened."""
+        if self._engine is not None:
+            self._engine.dispose()
+            self._engine = None
+
+
+def state(ctx: typer.Context) -> AppState:
+    """The :class:`AppState` of this invocation (set by the main callback)."""
+    obj = ctx.find_root().obj
+    if not isinstance(obj, AppState):
+        obj = AppState()
+        ctx.find_root().obj = obj
+    return obj
+
+
+def engine(ctx: typer.Context) -> Engine:
+    """The catalogue engine selected by ``--db`` / ``$PARTSEL_DB`` / the default file."""
+    return state(ctx).engine()
+
+
+def err_console() -> Console:
+    """Console for messages (stderr)."""
+    return Console(stderr=True, highlight=False)
+
+
+def out_console() -> Console:
+    """Console for data meant for people (stdout)."""
+    return Console(highlight=False)
+
+
+def message(text: str) -> None:
+    """One plain message line on stderr."""
+    typer.echo(text, err=True)
+
+
+def _json_safe(value: Any) -> Any:
+    if isinstance(value, float):
+        return None if math.isnan(value) or math.isinf(value) else value
+    if isinstance(value, dict):
+        return {str(k): _json_safe(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_json_safe(v) for v in value]
+    if hasattr(value, "item") and callable(value.item):  # numpy scalars
+        return _json_safe(value.item())
+    if hasattr(value, "isoformat"):
+        return value.isoformat()
+    return value
+
+
+def echo_json(data: Any) -> None:
+    """Write ``data`` as JSON on stdout (NaN becomes null; an empty result is ``[]``)."""
+    sys.stdout.write(
+        json.dumps(_json_safe(data), indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+    )
+
+
+def problems_json(problems: list[Problem]) -> list[dict[str, Any]]:
+    """Problems as JSON objects ``{file, record, pointer, message}``."""
+    return [
+        {"file": p.file, "record": p.record, "pointer": p.pointer, "message": p.message}
+        for p in problems
+    ]
+
+
+def fail_bad_input(exc: InputError, *, json_out: bool = False) -> NoReturn:
+    """List every problem on stderr (and as JSON on stdout with ``json_out``); exit 2."""
+    for p in exc.problems:
+        message(f"error: {p}")
+    n = len(exc.problems)
+    message(f"{n} problem{'s' if n != 1 else ''}; nothing was changed.")
+    if json_out:
+        echo_json(problems_json(exc.problems))
+    raise typer.Exit(ExitCode.BAD_INPUT)
+
+
+@contextmanager
+def bad_input_exits(*, json_out: bool = False) -> Iterator[None]:
+    """Turn an :class:`~partsel.errors.InputError` raised inside into exit code 2."""
+    try:
+        yield
+    except InputError as exc:
+        fail_bad_input(exc, json_out=json_out)

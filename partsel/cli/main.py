@@ -1,0 +1,61 @@
+"""The ``partsel`` command: main callback (``--db``) and the registered command modules.
+
+Each command module has a ``register(app)`` function that adds its commands; add a module to
+:data:`COMMAND_MODULES` to register it. Commands get the database through
+``partsel.cli.common.engine(ctx)``.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+import typer
+
+from partsel.cli import catalogue_cmds
+from partsel.cli.common import AppState, ExitCode
+
+app = typer.Typer(
+    name="partsel",
+    help="Choose op-amps for single-supply designs: catalogue, prediction and ranking.",
+    add_completion=False,
+    pretty_exceptions_show_locals=False,
+)
+
+#: Command modules; each has ``register(app: typer.Typer) -> None``.
+COMMAND_MODULES = (catalogue_cmds,)
+
+
+@app.callback(invoke_without_command=True)
+def main(
+    ctx: typer.Context,
+    db: Annotated[
+        str | None,
+        typer.Option(
+            "--db",
+            metavar="URL",
+            envvar="PARTSEL_DB",
+            help="Catalogue database URL (SQLAlchemy), e.g. sqlite:///parts.sqlite. "
+            "Default: catalogue.sqlite in the user data folder.",
+        ),
+    ] = None,
+) -> None:
+    """Choose op-amps for single-supply designs."""
+    st = AppState(db_url=db)
+    ctx.obj = st
+    ctx.call_on_close(st.close)
+    if ctx.invoked_subcommand is None:
+        typer.echo(ctx.get_help())
+        raise typer.Exit(ExitCode.OK)
+
+
+for _module in COMMAND_MODULES:
+    _module.register(app)
+
+
+def run() -> None:
+    """Entry point of the ``partsel`` script."""
+    app()
+
+
+if __name__ == "__main__":
+    run()
