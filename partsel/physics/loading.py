@@ -27,9 +27,13 @@ class Resistive:
     i_s: float  #: sum of g_k * V_k over the branches, A
 
 
-def resistive_branches(design: Design, *, ac_level_v: float | None = None,
-                       r_to_neg_ohm: float | None = None,
-                       r_to_pos_ohm: float | None = None) -> Resistive:
+def resistive_branches(
+    design: Design,
+    *,
+    ac_level_v: float | None = None,
+    r_to_neg_ohm: float | None = None,
+    r_to_pos_ohm: float | None = None,
+) -> Resistive:
     """Norton form of the resistive branches (AC-coupled ``R_L`` counted only if
     ``ac_level_v`` gives the coupling capacitor's far-end level, i.e. ``V_ref + v_cap``).
 
@@ -60,12 +64,18 @@ def resistive_branches(design: Design, *, ac_level_v: float | None = None,
     return Resistive(g, i)
 
 
-def admittance(design: Design, omega: float, *, r_to_neg_ohm: float | None = None,
-               r_to_pos_ohm: float | None = None) -> complex:
+def admittance(
+    design: Design,
+    omega: float,
+    *,
+    r_to_neg_ohm: float | None = None,
+    r_to_pos_ohm: float | None = None,
+) -> complex:
     """Small-signal admittance of the whole load network at angular frequency ``omega``, S."""
     ld = design.load
-    y = complex(resistive_branches(design, r_to_neg_ohm=r_to_neg_ohm,
-                                   r_to_pos_ohm=r_to_pos_ohm).g_s)
+    y = complex(
+        resistive_branches(design, r_to_neg_ohm=r_to_neg_ohm, r_to_pos_ohm=r_to_pos_ohm).g_s
+    )
     if ld.r_load_ohm is not None and ld.coupling == "ac":
         cc = ld.c_couple_f or 0.0
         if cc > 0 and omega > 0:
@@ -74,15 +84,21 @@ def admittance(design: Design, omega: float, *, r_to_neg_ohm: float | None = Non
     return y
 
 
-def dc_current(design: Design, *, r_to_neg_ohm: float | None = None,
-               r_to_pos_ohm: float | None = None) -> float:
+def dc_current(
+    design: Design, *, r_to_neg_ohm: float | None = None, r_to_pos_ohm: float | None = None
+) -> float:
     """Mean output current at the ideal output bias, A (the AC-coupled branch carries none)."""
     rb = resistive_branches(design, r_to_neg_ohm=r_to_neg_ohm, r_to_pos_ohm=r_to_pos_ohm)
     return rb.g_s * design.out_bias_v - rb.i_s
 
 
-def ideal_current(design: Design, t_s: np.ndarray, *, r_to_neg_ohm: float | None = None,
-                  r_to_pos_ohm: float | None = None) -> np.ndarray:
+def ideal_current(
+    design: Design,
+    t_s: np.ndarray,
+    *,
+    r_to_neg_ohm: float | None = None,
+    r_to_pos_ohm: float | None = None,
+) -> np.ndarray:
     """Output current (A) in periodic steady state when the output follows the ideal sine."""
     a = design.signal_gain * design.signal.amplitude_v
     w = design.omega
@@ -92,8 +108,9 @@ def ideal_current(design: Design, t_s: np.ndarray, *, r_to_neg_ohm: float | None
     return i0 + np.imag(y * a * np.exp(1j * w * np.asarray(t_s, dtype=float)))
 
 
-def thevenin_level(design: Design, *, r_to_neg_ohm: float | None = None,
-                   r_to_pos_ohm: float | None = None) -> tuple[float, float]:
+def thevenin_level(
+    design: Design, *, r_to_neg_ohm: float | None = None, r_to_pos_ohm: float | None = None
+) -> tuple[float, float]:
     """Level (V) and conductance (S) the resistive network pulls an unloaded output to,
     with an AC-coupling capacitor holding the ideal output bias (the flat level of a
     handover is ``level - I_stage / conductance``)."""
@@ -101,8 +118,9 @@ def thevenin_level(design: Design, *, r_to_neg_ohm: float | None = None,
     ac = None
     if ld.r_load_ohm is not None and ld.coupling == "ac":
         ac = design.out_bias_v
-    rb = resistive_branches(design, ac_level_v=ac, r_to_neg_ohm=r_to_neg_ohm,
-                            r_to_pos_ohm=r_to_pos_ohm)
+    rb = resistive_branches(
+        design, ac_level_v=ac, r_to_neg_ohm=r_to_neg_ohm, r_to_pos_ohm=r_to_pos_ohm
+    )
     if rb.g_s <= 0:
         return float("nan"), 0.0
     return rb.i_s / rb.g_s, rb.g_s

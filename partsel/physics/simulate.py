@@ -111,6 +111,7 @@ def simulate(
 
     def stage_neg_curve(h: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
         return pwl_with_slope(h, stage.swing_neg_v, stage.swing_neg_i_a)
+
     sup = design.supply
     vpos, vneg = sup.v_pos_v, sup.v_neg_v
     f = design.signal.frequency_hz
@@ -193,12 +194,14 @@ def simulate(
             x = np.clip(base + dt * rate, drive_lo, drive_hi) - vo
             avail_pos = np.maximum(kp - sp * vo, 0.0)
             avail_neg = np.maximum(kn + sn * (vo - vneg), 0.0)
-            i_src = np.minimum(np.minimum(i_src0 * np.exp(np.minimum(x * inv_vs, 60.0)),
-                                          lim_src), avail_pos)
+            i_src = np.minimum(
+                np.minimum(i_src0 * np.exp(np.minimum(x * inv_vs, 60.0)), lim_src), avail_pos
+            )
             i_pd = np.minimum(pd_const + pd_slope * vo, avail_neg)
             e_snk = np.exp(np.minimum((-x - db) * inv_vs, 60.0))
-            i_snk = np.minimum(np.minimum(i_snk0 * e_snk, lim_snk),
-                               np.maximum(avail_neg - i_pd, 0.0))
+            i_snk = np.minimum(
+                np.minimum(i_snk0 * e_snk, lim_snk), np.maximum(avail_neg - i_pd, 0.0)
+            )
             return i_src - i_snk - i_pd - (g_tot * vo - i_const)
 
         # Bracket around the linear extrapolation of the last two steps.
@@ -253,11 +256,14 @@ def simulate(
             x = vd - v
             avail_pos = np.maximum(kp - sp * v, 0.0)
             avail_neg = np.maximum(kn + sn * (v - vneg), 0.0)
-            i_src = np.minimum(np.minimum(i_src0 * np.exp(np.minimum(x * inv_vs, 60.0)),
-                                          lim_src), avail_pos)
+            i_src = np.minimum(
+                np.minimum(i_src0 * np.exp(np.minimum(x * inv_vs, 60.0)), lim_src), avail_pos
+            )
             i_pd = np.minimum(pd_const + pd_slope * v, avail_neg)
-            i_snk = np.minimum(np.minimum(i_snk0 * np.exp(np.minimum((-x - db) * inv_vs, 60.0)),
-                                          lim_snk), np.maximum(avail_neg - i_pd, 0.0))
+            i_snk = np.minimum(
+                np.minimum(i_snk0 * np.exp(np.minimum((-x - db) * inv_vs, 60.0)), lim_snk),
+                np.maximum(avail_neg - i_pd, 0.0),
+            )
             rec["v"][j] = v
             rec["vd"][j] = vd
             rec["io"][j] = i_src - i_snk - i_pd
@@ -275,8 +281,7 @@ def simulate(
                 dv = start - shoot_prev[0]
                 with np.errstate(divide="ignore", invalid="ignore"):
                     slope = (mean_i - shoot_prev[1]) / dv
-                slope = np.where((np.abs(dv) > 1e-12) & (slope < -0.02 / r_l), slope,
-                                 -1.0 / r_l)
+                slope = np.where((np.abs(dv) > 1e-12) & (slope < -0.02 / r_l), slope, -1.0 / r_l)
             shoot_prev = (start, mean_i)
             v_cap = start - mean_i / slope
             i_cap_sum[:] = 0.0
@@ -307,9 +312,12 @@ def simulate(
         io = rec["io"]
         sign_change = (io.max(axis=1) > 0) & (io.min(axis=1) < 0)
     handover = np.where(pulldown, cut.any(axis=1), sign_change)
-    first = np.argmax(np.where(pulldown[:, None], cut, np.diff(np.sign(io), axis=1,
-                                                               prepend=np.sign(io[:, :1])) != 0),
-                      axis=1)
+    first = np.argmax(
+        np.where(
+            pulldown[:, None], cut, np.diff(np.sign(io), axis=1, prepend=np.sign(io[:, :1])) != 0
+        ),
+        axis=1,
+    )
     level = np.where(handover, v_out[np.arange(p), first], np.nan)
     when = np.where(handover, t_rec[first], np.nan)
     return SimResult(

@@ -29,7 +29,7 @@ from typing import Literal
 
 import numpy as np
 
-from partsel.params import MAX_SWING_POINTS, PARAMS, SIDES, Topology
+from partsel.params import MAX_SWING_POINTS, PARAMS, Topology
 
 Basis = Literal["typical", "worst-case"]
 
@@ -55,8 +55,9 @@ V_X_CMOS = 1.0 / 12.0
 V_EARLY_PULLDOWN = 50.0
 
 
-def _resolve(cols: Mapping[str, np.ndarray], key: str, basis: Basis, worse: str,
-             n: int) -> tuple[np.ndarray, np.ndarray]:
+def _resolve(
+    cols: Mapping[str, np.ndarray], key: str, basis: Basis, worse: str, n: int
+) -> tuple[np.ndarray, np.ndarray]:
     """Pick one value per part for ``key`` on ``basis``; return (values, side-used labels)."""
 
     def get(side: str) -> np.ndarray:
@@ -69,8 +70,9 @@ def _resolve(cols: Mapping[str, np.ndarray], key: str, basis: Basis, worse: str,
     if basis == "typical":
         order = [("typ", vtyp), ("mid", 0.5 * (vmin + vmax)), ("min", vmin), ("max", vmax)]
     else:
-        first, second = (("min", vmin), ("max", vmax)) if worse == "low" else (
-            ("max", vmax), ("min", vmin))
+        first, second = (
+            (("min", vmin), ("max", vmax)) if worse == "low" else (("max", vmax), ("min", vmin))
+        )
         order = [first, ("typ", vtyp), second]
     out = np.full(n, np.nan)
     used = np.full(n, "none", dtype=object)
@@ -117,8 +119,7 @@ class StageParams:
         return int(self.topology.shape[0])
 
     @classmethod
-    def from_columns(cls, cols: Mapping[str, np.ndarray], basis: Basis = "typical"
-                     ) -> StageParams:
+    def from_columns(cls, cols: Mapping[str, np.ndarray], basis: Basis = "typical") -> StageParams:
         """Build from flat catalogue columns (a pandas frame or a dict of arrays).
 
         Columns follow :mod:`partsel.params`: ``{key}_{min,typ,max}``, ``topology`` (strings
@@ -176,8 +177,9 @@ class StageParams:
             sink_limit_a=vals["sink_limit"],
             gbw_hz=vals["gbw"],
             slew_rise_v_per_s=vals["slew_rise"],
-            slew_fall_v_per_s=np.where(np.isnan(vals["slew_fall"]), vals["slew_rise"],
-                                       vals["slew_fall"]),
+            slew_fall_v_per_s=np.where(
+                np.isnan(vals["slew_fall"]), vals["slew_rise"], vals["slew_fall"]
+            ),
             supply_current_a=vals["supply_current"],
             cm_headroom_neg_v=vals["cm_headroom_neg"],
             cm_headroom_pos_v=vals["cm_headroom_pos"],
@@ -258,8 +260,7 @@ def pwl(x: np.ndarray, xp: np.ndarray, fp: np.ndarray) -> np.ndarray:
     return pwl_with_slope(x, xp, fp)[0]
 
 
-def pwl_with_slope(x: np.ndarray, xp: np.ndarray, fp: np.ndarray
-                   ) -> tuple[np.ndarray, np.ndarray]:
+def pwl_with_slope(x: np.ndarray, xp: np.ndarray, fp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Piecewise-linear interpolation per part with linear extrapolation at both ends.
 
     ``xp``/``fp`` have shape (P, K), increasing along K, NaN-padded at the end (at least one
@@ -269,22 +270,20 @@ def pwl_with_slope(x: np.ndarray, xp: np.ndarray, fp: np.ndarray
     x = np.asarray(x, dtype=float)
     squeeze = x.ndim == 1
     xx = x[:, None] if squeeze else x
-    valid = ~np.isnan(xp)
-    npts = valid.sum(axis=1)
-    xp_f = np.where(valid, xp, np.inf)
-    # Segment index: number of points at or below x, minus one, within [0, npts - 2].
-    seg = (xp_f[:, None, :] <= xx[:, :, None]).sum(axis=2) - 1
-    seg = np.clip(seg, 0, np.maximum(npts - 2, 0)[:, None])
-    x0 = np.take_along_axis(xp, seg, axis=1)
-    f0 = np.take_along_axis(fp, seg, axis=1)
-    seg1 = np.minimum(seg + 1, np.maximum(npts - 1, 0)[:, None])
-    x1 = np.take_along_axis(xp, seg1, axis=1)
-    f1 = np.take_along_axis(fp, seg1, axis=1)
-    dx = x1 - x0
+    dx = xp[:, 1:] - xp[:, :-1]
     with np.errstate(invalid="ignore", divide="ignore"):
-        slope = np.where(dx > 0, (f1 - f0) / dx, 0.0)
-    out = f0 + slope * (xx - x0)
-    out = np.where((npts == 0)[:, None], np.nan, out)
+        seg_slope = np.where(dx > 0, (fp[:, 1:] - fp[:, :-1]) / dx, 0.0)
+    seg_ok = ~np.isnan(dx)
+    s0 = np.where(seg_ok[:, 0], seg_slope[:, 0], 0.0)[:, None]
+    out = fp[:, :1] + s0 * (xx - xp[:, :1])
+    slope = np.broadcast_to(s0, out.shape)
+    for k in range(1, xp.shape[1] - 1):
+        if not seg_ok[:, k].any():
+            break
+        m = seg_ok[:, k, None] & (xx >= xp[:, k, None])
+        sk = seg_slope[:, k, None]
+        out = np.where(m, fp[:, k, None] + sk * (xx - xp[:, k, None]), out)
+        slope = np.where(m, sk, slope)
     if squeeze:
         return out[:, 0], slope[:, 0]
     return out, slope

@@ -1,0 +1,263 @@
+"""Closed-form predictions for many parts in one design (vectorised, no time stepping).
+
+* conduction analysis: the output current of the ideal waveform, whether and where the stage
+  hands over between source and sink device (class B with pull-down: where the load must sink
+  more than the pull-down current; class A: where it must sink more than the bias current);
+* the glitch estimate: handover time across the dead band with the integrator and slew limit,
+  and the output glitch amplitude;
+* the other checks: swing margins at the current flowing, input common-mode margins, slew rate
+  and full-power bandwidth, closed-loop bandwidth and gain error, capacitive load, supply
+  range, stability at the noise gain, supply current, dissipation and junction temperature.
+
+References
+----------
+Design notes sections 3, 4 and 6. Full-power bandwidth ``f_FP = SR / (2 pi V_peak)`` and
+closed-loop bandwidth ``f_CL = GBW / noise gain`` for a single-pole amplifier are the usual
+op-amp application formulas. Junction temperature ``T_j = T_a + P theta_JA``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from partsel.physics.circuit import Design
+from partsel.physics.loading import admittance, dc_current, ideal_current, thevenin_level
+from partsel.physics.simulate import MARGINAL_FRACTION
+from partsel.physics.stage import CLASS_A, Basis, StageParams
+
+#: Samples per period used for the swing / dissipation checks over the ideal waveform.
+GRID = 256
+
+
+@dataclass(frozen=True)
+class ClosedForm:
+    """Closed-form results per part (arrays of shape (P,)); SI units."""
+
+    basis: Basis
+    # conduction
+    i_out_min_a: np.ndarray
+    i_out_max_a: np.ndarray
+    min_source_a: np.ndarray  #: smallest source-device current over the period
+    handover: np.ndarray  #: the stage changes conduction mode (class A/B: source cuts off)
+    marginal: np.ndarray  #: stays in source mode, but with less than half its stage current
+    crossover_biased: np.ndarray  #: class AB / CMOS: output current changes sign
+    flat_level_v: np.ndarray  #: level the load holds the output at during the handover
+    handover_out_v: np.ndarray  #: ideal output level at the handover instant (falling edge)
+    handover_phase_rad: np.ndarray  #: phase of the falling-edge handover (0 = rising zero)
+    slope_v_per_s: np.ndarray  #: |output slope| at the steeper of the two handovers
+    handover_time_s: np.ndarray  #: time to cross the dead band (tau)
+    glitch_v: np.ndarray  #: output glitch, deviation from the ideal waveform
+    thd_estimate: np.ndarray  #: THD_F estimate from the glitch shape (ratio); see notes
+    # swing / input / dynamics
+    swing_pos_margin_v: np.ndarray
+    swing_neg_margin_v: np.ndarray
+    cm_low_margin_v: np.ndarray
+    cm_high_margin_v: np.ndarray
+    slew_required_v_per_s: float
+    slew_margin_ratio: np.ndarray  #: available / required slew rate
+    full_power_bw_hz: np.ndarray
+    closed_loop_bw_hz: np.ndarray
+    gain_error: np.ndarray  #: relative magnitude error at the signal frequency (<= 0)
+    phase_error_rad: np.ndarray
+    cap_load_ratio: np.ndarray  #: load capacitance / stated limit (> 1: flag)
+    stable_at_gain: np.ndarray  #: noise gain >= minimum stable gain
+    supply_in_range: np.ndarray
+    source_peak_a: np.ndarray
+    sink_peak_a: np.ndarray
+    source_limit_ok: np.ndarray
+    sink_limit_ok: np.ndarray
+    # power
+    supply_current_a: np.ndarray  #: whole package, mean, from the positive rail
+    dissipation_w: np.ndarray  #: whole package
+    t_junction_c: np.ndarray  #: at the highest ambient
+    t_junction_margin_c: np.ndarray
+
+
+def _glitch_time(
+    dead_band_v: np.ndarray, slope: np.ndarray, wt_beta: np.ndarray, slew: np.ndarray
+) -> np.ndarray:
+    """Time for the drive node to cross the dead band, s.
+
+    The error grows as ``beta * s * t`` while the output is stuck, so the drive moves at
+    ``min(omega_t * beta * s * t, SR)`` (design notes section 4): ``tau = sqrt(2 dV / (omega_t
+    beta s))`` until the slew limit is reached, and the rest of ``dV`` is crossed at ``SR``.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        k = wt_beta * slope
+        tau_lin = np.sqrt(2.0 * dead_band_v / k)
+        t1 = slew / k
+        covered = 0.5 * slew * t1
+        tau = np.where(covered >= dead_band_v, tau_lin, t1 + (dead_band_v - covered) / slew)
+    return np.where(dead_band_v > 0, tau, 0.0)
+
+
+def _window(a: int, b: int, n: int, pad: int = 3, most: int = 24) -> np.ndarray:
+    """Grid indices from ``a`` to ``b`` the short way round a period, padded, at most ``most``."""
+    d = (b - a) % n
+    if d > n // 2:
+        a, d = b, n - d
+    idx = (a - pad + np.arange(d + 2 * pad + 1)) % n
+    if idx.size > most:
+        idx = idx[np.linspace(0, idx.size - 1, most).round().astype(int)]
+    return idx
+
+
+def ideal_grid(design: Design, n: int = GRID) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """One period of the ideal waveform: times (s), output (V) and output current (A)."""
+    t = np.arange(n) / (n * design.signal.frequency_hz)
+    return t, design.v_ideal(t), ideal_current(design, t)
+
+
+def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
+    """Closed-form predictions of every part of ``stage`` in ``design``."""
+    p = stage.n
+    sup = design.supply
+    vpos, vneg = sup.v_pos_v, sup.v_neg_v
+    w = design.omega
+    a = design.signal_gain * design.signal.amplitude_v  # signed output amplitude
+    amp = abs(a)
+    v0 = design.out_bias_v
+    i_stage = stage.stage_current_a
+    pulldown = stage.has_pulldown
+    wt = 2.0 * np.pi * stage.gbw_hz
+    wt_beta = wt * design.beta
+
+    # --- conduction: i(t) = I0 + B sin(wt + phi) -----------------------------------------
+    y = admittance(design, w)
+    i0 = dc_current(design)
+    b = abs(y) * amp
+    phi = math.atan2(y.imag, y.real) + (math.pi if a < 0 else 0.0)
+    i_min, i_max = i0 - b, i0 + b
+    with np.errstate(invalid="ignore"):
+        handover = pulldown & (i_min < -i_stage)
+        min_src = np.where(
+            pulldown, i_min + i_stage, 0.5 * (i_min + np.sqrt(i_min**2 + 4.0 * i_stage**2))
+        )
+        marginal = pulldown & ~handover & (min_src < MARGINAL_FRACTION * i_stage)
+    crossover_biased = ~pulldown & (i_min < 0) & (i_max > 0)
+    level, g_th = thevenin_level(design)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        flat = (
+            np.where(g_th > 0, level - i_stage / g_th, np.nan) if g_th > 0 else np.full(p, np.nan)
+        )
+        # Handover where B sin(theta) = -I_stage - I0 (class A/B) or = -I0 (biased).
+        thr = np.where(pulldown, -i_stage - i0, -i0)
+        k = np.clip(thr / b, -1.0, 1.0) if b > 0 else np.full(p, np.nan)
+    theta_fall = np.pi - np.arcsin(k)
+    theta_rise = 2.0 * np.pi + np.arcsin(k)
+    s_fall = np.abs(a * w * np.cos(theta_fall - phi))
+    s_rise = np.abs(a * w * np.cos(theta_rise - phi))
+    active = handover | crossover_biased
+    out_at = np.where(active, v0 + a * np.sin(theta_fall - phi), np.nan)
+    phase = np.where(active, np.mod(theta_fall - phi, 2 * np.pi), np.nan)
+    sr_f = stage.slew_fall_v_per_s
+    sr_r = stage.slew_rise_v_per_s
+    tau_f = _glitch_time(stage.dead_band_v, s_fall, wt_beta, sr_f)
+    tau_r = _glitch_time(stage.dead_band_v, s_rise, wt_beta, sr_r)
+    g_fall, g_rise = s_fall * tau_f, s_rise * tau_r
+    glitch = np.maximum(g_fall, g_rise)
+    tau = np.where(g_fall >= g_rise, tau_f, tau_r)
+    slope = np.where(g_fall >= g_rise, s_fall, s_rise)
+    is_a = stage.topology == CLASS_A
+    # Class A: the output flattens at the flat level instead of crossing a dead band.
+    clip_depth = np.maximum(flat - (v0 - amp), 0.0)
+    glitch = np.where(is_a, clip_depth, glitch)
+    glitch = np.where(handover, glitch, 0.0)
+    tau = np.where(handover & ~is_a, tau, 0.0)
+    f = design.signal.frequency_hz
+    # Two triangular error pulses of height g and base 2 tau per period:
+    # RMS = g sqrt(4 tau f / 3); THD_F estimate = RMS / (amp / sqrt 2).
+    with np.errstate(divide="ignore", invalid="ignore"):
+        thd_est = np.where(amp > 0, glitch * np.sqrt(4.0 * tau * f / 3.0) / (amp / np.sqrt(2)), 0.0)
+        # Class A clipping: flat-topped loss of the trough; clipped sine estimate.
+        clip_frac = np.clip(clip_depth / np.where(amp > 0, 2 * amp, np.inf), 0, 1)
+        thd_est = np.where(is_a & handover, 1.5 * clip_frac, thd_est)
+
+    # --- currents and swing over the ideal waveform ----------------------------------------
+    t, v, i = ideal_grid(design)
+    head_pos = vpos - v
+    head_neg = v - vneg
+    # The tightest instant lies between the output peak and the current peak: evaluate the
+    # headroom curves only there (keeps the cost O(P) for large catalogues).
+    ip = _window(np.argmin(head_pos), np.argmax(i), t.size)
+    ineg = _window(np.argmin(head_neg), np.argmin(i), t.size)
+    src_p = np.maximum(i[ip][None, :] + np.where(pulldown, i_stage, 0.0)[:, None], 0.0)
+    swing_pos = np.min(head_pos[ip][None, :] - stage.headroom_pos(src_p), axis=1)
+    snk_n = np.broadcast_to(np.maximum(-i[ineg], 0.0), (p, ineg.size))
+    swing_neg = np.min(head_neg[ineg][None, :] - stage.headroom_neg(snk_n), axis=1)
+    src_peak = np.maximum(i_max + np.where(pulldown, i_stage, 0.0), 0.0)
+    snk_peak = np.full(p, max(-i_min, 0.0))
+
+    # --- input common mode -------------------------------------------------------------------
+    vplus = design.v_plus(t)
+    cm_low = float(vplus.min()) - (vneg + stage.cm_headroom_neg_v)
+    cm_high = (vpos - stage.cm_headroom_pos_v) - float(vplus.max())
+
+    # --- dynamics ---------------------------------------------------------------------------
+    slew_req = amp * w
+    sr = np.minimum(sr_r, sr_f)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slew_ratio = np.where(slew_req > 0, sr / slew_req, np.inf)
+        fpbw = np.where(amp > 0, sr / (2.0 * np.pi * amp), np.inf)
+    gn = design.noise_gain
+    f_cl = stage.gbw_hz / gn
+    # Single-pole loop: A_cl / A_ideal = 1 / (1 + j f / f_cl).
+    ratio = 1.0 / (1.0 + 1j * f / f_cl)
+    gain_err = np.abs(ratio) - 1.0
+    phase_err = np.angle(ratio)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        cap_ratio = design.load.c_load_f / stage.cap_load_limit_f
+    stable = gn >= stage.min_stable_gain * (1 - 1e-9)
+    total = sup.total_v
+    in_range = (stage.supply_min_v <= total + 1e-9) & (total <= stage.supply_max_v + 1e-9)
+
+    # --- power -------------------------------------------------------------------------------
+    chans = np.maximum(stage.channels, design.channels_used)
+    used = float(design.channels_used)
+    src_load = np.maximum(i, 0.0)
+    snk_load = np.maximum(-i, 0.0)
+    i_supply = stage.supply_current_a * chans + used * float(src_load.mean())
+    p_out_stage = used * float(np.mean(src_load * (vpos - v) + snk_load * (v - vneg)))
+    p_diss = stage.supply_current_a * chans * total + p_out_stage
+    t_j = design.t_ambient_max_c + p_diss * stage.theta_ja_k_per_w
+
+    return ClosedForm(
+        basis=stage.basis,
+        i_out_min_a=np.full(p, i_min),
+        i_out_max_a=np.full(p, i_max),
+        min_source_a=min_src,
+        handover=handover,
+        marginal=marginal,
+        crossover_biased=crossover_biased,
+        flat_level_v=np.where(handover, flat, np.nan),
+        handover_out_v=out_at,
+        handover_phase_rad=phase,
+        slope_v_per_s=np.where(active, slope, np.nan),
+        handover_time_s=tau,
+        glitch_v=glitch,
+        thd_estimate=np.where(handover, thd_est, 0.0),
+        swing_pos_margin_v=swing_pos,
+        swing_neg_margin_v=swing_neg,
+        cm_low_margin_v=cm_low,
+        cm_high_margin_v=cm_high,
+        slew_required_v_per_s=slew_req,
+        slew_margin_ratio=slew_ratio,
+        full_power_bw_hz=fpbw,
+        closed_loop_bw_hz=f_cl,
+        gain_error=gain_err,
+        phase_error_rad=phase_err,
+        cap_load_ratio=cap_ratio,
+        stable_at_gain=stable,
+        supply_in_range=in_range,
+        source_peak_a=src_peak,
+        sink_peak_a=snk_peak,
+        source_limit_ok=src_peak <= stage.source_limit_a,
+        sink_limit_ok=snk_peak <= stage.sink_limit_a,
+        supply_current_a=i_supply,
+        dissipation_w=p_diss,
+        t_junction_c=t_j,
+        t_junction_margin_c=stage.junction_max_c - t_j,
+    )
