@@ -95,7 +95,7 @@ def size_fix(
     eseries.series_values(series)  # raises a clear ValueError for an unknown series
     tol = eseries.SERIES_TOLERANCE[series] if tolerance is None else float(tolerance)
     vpos, vneg = design.supply.v_pos_v, design.supply.v_neg_v
-    t, v, i = ideal_grid(design, n_grid)
+    _, v, i = ideal_grid(design, n_grid)
     i_st = stage.stage_current_a[:, None]
     pulldown = stage.has_pulldown
     # Needed where the source device would fall below the margin (class A/B).

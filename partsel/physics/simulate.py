@@ -75,7 +75,7 @@ def default_steps(stage: StageParams, design: Design) -> int:
         tau = tau[(db > 0) & np.isfinite(tau)]
         if tau.size:
             period = 1.0 / design.signal.frequency_hz
-            n = max(n, int(math.ceil(10.0 * period / float(tau.min()))))
+            n = max(n, math.ceil(10.0 * period / float(tau.min())))
     return int(min(n, 16384))
 
 
