@@ -63,10 +63,11 @@ def read_document(path: Path) -> Any:
     return parse_text(text, file=str(path), suffix=path.suffix)
 
 
-def collect_files(paths: Iterable[str | Path]) -> list[Path]:
+def find_files(paths: Iterable[str | Path]) -> tuple[list[Path], list[Problem]]:
     """Expand files and folders (searched recursively for YAML/JSON files) into a file list.
 
-    Raises InputError listing every path that does not exist or holds no catalogue file.
+    Returns the files and a problem for every path that does not exist or holds no
+    catalogue file.
     """
     out: list[Path] = []
     problems: list[Problem] = []
@@ -83,6 +84,12 @@ def collect_files(paths: Iterable[str | Path]) -> list[Path]:
             out.append(p)
         else:
             problems.append(Problem("no such file or folder", str(p)))
+    return out, problems
+
+
+def collect_files(paths: Iterable[str | Path]) -> list[Path]:
+    """Like :func:`find_files`, but raise InputError listing every bad path."""
+    out, problems = find_files(paths)
     if problems:
         raise InputError(problems=problems)
     return out

@@ -22,7 +22,7 @@ from typing import Any
 from jsonschema import Draft202012Validator
 from jsonschema.exceptions import ValidationError
 
-from partsel.catalogue.files import collect_files, read_document
+from partsel.catalogue.files import find_files, read_document
 from partsel.catalogue.schema import Schema, catalogue_schema
 from partsel.errors import InputError, Problem, json_pointer
 from partsel.params import SIDES, Topology
@@ -147,17 +147,25 @@ def _side(spec: Any, *sides: str) -> float:
     return math.nan
 
 
+def _dict(value: Any) -> dict[str, Any]:
+    return value if isinstance(value, dict) else {}
+
+
+def _num(value: Any) -> float:
+    return value if isinstance(value, float) else math.nan
+
+
 def _record_checks(canon: dict[str, Any], base: Path_, w: _Walker) -> None:
-    """Checks across fields of one canonical part record."""
-    supply = canon.get("supply", {}).get("range", {})
+    """Checks across fields of one canonical part record (tolerates schema-invalid parts)."""
+    supply = {k: _num(v) for k, v in _dict(_dict(canon.get("supply")).get("range")).items()}
     if supply.get("min", math.nan) >= supply.get("max", math.nan):
         w.problem("supply minimum must be below the maximum", [*base, "supply", "range", "min"])
-    temp = canon.get("temperature", {})
+    temp = {k: _num(v) for k, v in _dict(canon.get("temperature")).items()}
     if temp.get("min", math.nan) >= temp.get("max", math.nan):
         w.problem("temperature minimum must be below the maximum", [*base, "temperature", "min"])
-    if canon.get("junction_max", math.inf) < temp.get("max", -math.inf):
+    if _num(canon.get("junction_max")) < temp.get("max", math.nan):
         w.problem("junction_max is below the rated ambient maximum", [*base, "junction_max"])
-    out = canon.get("output", {})
+    out = _dict(canon.get("output"))
     if out.get("topology") == Topology.CLASS_B_PULLDOWN and "dead_band" not in out:
         w.problem(
             "dead_band is required for topology class-b-pulldown", [*base, "output", "dead_band"]
@@ -165,7 +173,7 @@ def _record_checks(canon: dict[str, Any], base: Path_, w: _Walker) -> None:
     for rail, limit in (("swing_pos", "source_limit"), ("swing_neg", "sink_limit")):
         curve = out.get(rail)
         if isinstance(curve, list):
-            currents = [p.get("current", math.nan) for p in curve]
+            currents = [_num(_dict(p).get("current")) for p in curve]
             for k in range(1, len(currents)):
                 if not currents[k] > currents[k - 1]:
                     w.problem(
@@ -258,14 +266,21 @@ def validate_document(data: Any, *, file: str) -> tuple[CatalogueDocument | None
                         json_pointer("makers", i, "suffix_rules", k),
                     )
                 )
+    # Semantic checks run on schema-invalid parts too (all problems of a file at once), minus
+    # those at or below a field the schema already reported.
+    reported = [p.pointer for p in problems]
     canon_parts: list[dict[str, Any]] = []
     for i, part in enumerate(parts):
-        if ("parts", i) in bad_records:
+        if not isinstance(part, dict):
             continue
         canon, probs = canonical_part(
             part, file=file, record_label=part_label(part, i), pointer=["parts", i]
         )
-        problems.extend(probs)
+        problems.extend(
+            p
+            for p in probs
+            if not any(p.pointer == r or p.pointer.startswith(r + "/") for r in reported)
+        )
         canon_parts.append(canon)
     if problems:
         return None, problems
@@ -331,8 +346,7 @@ def validate_documents(items: Iterable[tuple[str, Any]]) -> list[CatalogueDocume
 
 def read_and_validate(paths: Iterable[str | Path]) -> list[CatalogueDocument]:
     """Read catalogue files and folders, validate them all; raise InputError with every problem."""
-    files = collect_files(paths)
-    problems: list[Problem] = []
+    files, problems = find_files(paths)
     items: list[tuple[str, Any]] = []
     for f in files:
         try:
