@@ -4,13 +4,12 @@ from __future__ import annotations
 
 from typing import Any
 
+from conftest import CATALOGUE_DATA, PROJECT
 from jsonschema import Draft202012Validator
 
 from partsel.catalogue.schema import SCHEMA_RELPATH, build_schema, schema_text
 from partsel.params import PARAMS
 from partsel.units import UNIT_LABEL
-
-from conftest import CATALOGUE_DATA, PROJECT
 
 
 def test_schema_is_valid_draft_2020_12() -> None:
