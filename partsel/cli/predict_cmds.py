@@ -1,0 +1,140 @@
+"""Prediction commands: ``predict`` (report / JSON), ``waveform`` (PNG/SVG) and ``deck`` (SPICE).
+
+All predictions are estimates from partsel's macro-model; every output says so.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+
+from partsel import api
+from partsel.cli.common import ExitCode, JsonFlag, bad_input_exits, echo_json, engine, message
+from partsel.errors import InputError
+from partsel.report import prediction_text
+
+DesignArg = Annotated[Path, typer.Argument(help="Design file (.toml, .yaml or .json).")]
+PartsArg = Annotated[list[str] | None, typer.Argument(help="Part numbers (default: all).")]
+PartArg = Annotated[str, typer.Argument(help="Part number.")]
+BasisOpt = Annotated[
+    str, typer.Option("--basis", "-b", help="Value basis: 'typical' or 'worst-case'.")
+]
+SeriesOpt = Annotated[
+    str, typer.Option("--series", help="IEC 60063 series for the fix resistor (E6..E192).")
+]
+MarginOpt = Annotated[
+    float,
+    typer.Option(
+        "--margin",
+        help="Fraction of its stage current the device kept on must "
+        "still carry at the worst instant (fix sizing).",
+    ),
+]
+
+
+def _prediction(
+    ctx: typer.Context,
+    design_path: Path,
+    parts: list[str] | None,
+    basis: str,
+    series: str,
+    margin: float,
+    run_sim: bool,
+) -> api.Prediction:
+    design = api.load_design(design_path)
+    frame = api.catalogue_frame(engine(ctx))
+    if parts:
+        frame = api.select_parts(frame, parts)
+    if not 0.0 <= margin < 1.0:
+        raise InputError("margin must lie in [0, 1)", pointer="/margin")
+    return api.predict_frame(
+        frame, design, basis=basis, series=series, margin=margin, run_simulation=run_sim
+    )
+
+
+def predict(
+    ctx: typer.Context,
+    design: DesignArg,
+    parts: PartsArg = None,
+    basis: BasisOpt = "typical",
+    series: SeriesOpt = "E24",
+    margin: MarginOpt = 0.5,
+    no_sim: Annotated[bool, typer.Option("--no-sim", help="Closed form only (fast).")] = False,
+    json_out: JsonFlag = False,
+) -> None:
+    """Predict crossover, glitch, THD, margins and the fix resistor of parts in a design."""
+    with bad_input_exits(json_out=json_out):
+        pred = _prediction(ctx, design, parts, basis, series, margin, not no_sim)
+    rows = [p.to_dict() for p in pred.parts()]
+    if json_out:
+        echo_json(rows)
+        return
+    for r in rows:
+        typer.echo(prediction_text(r))
+        typer.echo("")
+    message(api.CAUTION)
+
+
+def waveform(
+    ctx: typer.Context,
+    design: DesignArg,
+    part: PartArg,
+    out: Annotated[Path, typer.Option("--out", "-o", help="Output file, .png or .svg.")],
+    basis: BasisOpt = "typical",
+    series: SeriesOpt = "E24",
+    margin: MarginOpt = 0.5,
+) -> None:
+    """Plot ideal and predicted output (handover marked, with the fix) and the spectrum."""
+    from partsel.plots import waveform_figure
+
+    with bad_input_exits():
+        if out.suffix.lower() not in (".png", ".svg"):
+            raise InputError(f"{out}: the figure must be a .png or .svg file", pointer="/out")
+        pred = _prediction(ctx, design, [part], basis, series, margin, True)
+    path = waveform_figure(pred, 0, out)
+    message(f"wrote {path}")
+
+
+def deck(
+    ctx: typer.Context,
+    design: DesignArg,
+    part: PartArg,
+    out: Annotated[Path, typer.Option("--out", "-o", help="SPICE deck to write (.cir).")],
+    basis: BasisOpt = "typical",
+    with_fix: Annotated[
+        bool, typer.Option("--with-fix", help="Add partsel's recommended fix resistor.")
+    ] = False,
+    periods: Annotated[int, typer.Option("--periods", help="Periods to simulate.")] = 3,
+    series: SeriesOpt = "E24",
+    margin: MarginOpt = 0.5,
+) -> None:
+    """Write a SPICE3 deck (ngspice runs it) of partsel's macro-model in the design's circuit."""
+    from partsel.physics.spice import spice_deck
+
+    with bad_input_exits():
+        pred = _prediction(ctx, design, [part], basis, series, margin, False)
+        if periods < 1:
+            raise InputError("periods must be at least 1", pointer="/periods")
+    rn = rp = None
+    if with_fix:
+        rn = float(pred.fix.r_neg_ohm[0])
+        rp = float(pred.fix.r_pos_ohm[0])
+        rn = None if rn != rn else rn
+        rp = None if rp != rp else rp
+        if rn is None and rp is None:
+            message(f"note: {part} needs no fix resistor (or none works); deck without one")
+    text = spice_deck(pred.stage, 0, pred.design, r_to_neg_ohm=rn, r_to_pos_ohm=rp, periods=periods)
+    out.write_text(text, encoding="utf-8")
+    message(f"wrote {out}")
+
+
+def register(app: typer.Typer) -> None:
+    """Add the prediction commands to ``app``."""
+    app.command("predict")(predict)
+    app.command("waveform")(waveform)
+    app.command("deck")(deck)
+
+
+_ = ExitCode
