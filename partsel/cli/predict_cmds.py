@@ -125,7 +125,16 @@ def deck(
         rp = None if rp != rp else rp
         if rn is None and rp is None:
             message(f"note: {part} needs no fix resistor (or none works); deck without one")
-    text = spice_deck(pred.stage, 0, pred.design, r_to_neg_ohm=rn, r_to_pos_ohm=rp, periods=periods)
+    pn = str(pred.frame["part_number"].iloc[0])
+    text = spice_deck(
+        pred.stage,
+        0,
+        pred.design,
+        r_to_neg_ohm=rn,
+        r_to_pos_ohm=rp,
+        periods=periods,
+        title=f"partsel macro-model of {pn} in {pred.design.name}",
+    )
     out.write_text(text, encoding="utf-8")
     message(f"wrote {out}")
 

@@ -1,0 +1,98 @@
+"""The prediction commands end to end on the sample catalogue: report, JSON (validated against
+data-schema/prediction.schema.json), figures and SPICE deck; bad input exits 2."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+import pytest
+from jsonschema import Draft202012Validator
+
+PROJECT = Path(__file__).resolve().parents[1]
+DESIGNS = sorted((PROJECT / "sample-catalog" / "designs").glob("*.toml"))
+SCHEMA = json.loads((PROJECT / "data-schema" / "prediction.schema.json").read_text())
+
+
+@pytest.fixture
+def loaded(cli):
+    r = cli("load", PROJECT / "sample-catalog" / "parts")
+    assert r.exit_code == 0, r.output
+    return cli
+
+
+def test_schema_is_valid_2020_12():
+    Draft202012Validator.check_schema(SCHEMA)
+
+
+@pytest.mark.parametrize("design", DESIGNS, ids=lambda p: p.stem)
+def test_every_sample_part_in_every_sample_design_predicts(loaded, design):
+    """Closed form and fix for all parts (fast path), JSON valid against its schema."""
+    r = loaded("predict", design, "--no-sim", "--json")
+    assert r.exit_code == 0, r.output
+    rows = json.loads(r.stdout)
+    assert len(rows) >= 40
+    Draft202012Validator(SCHEMA).validate(rows)
+    for row in rows:
+        # The fix is only ever recommended for a stage that needs it.
+        if row["fix"]["recommended"] in ("negative", "positive"):
+            assert row["fix"]["needed"]
+            chosen = row["fix"][row["fix"]["recommended"]]
+            assert chosen["works"] and chosen["r_ohm"] <= chosen["r_max_ohm"]
+
+
+def test_predict_with_simulation_report_and_json(loaded):
+    design = PROJECT / "sample-catalog" / "designs" / "line-driver-5v.toml"
+    r = loaded("predict", design, "BRQ-622", "MWF-320", "--json")
+    assert r.exit_code == 0, r.output
+    rows = json.loads(r.stdout)
+    Draft202012Validator(SCHEMA).validate(rows)
+    b, ab = rows
+    # Class B with pull-down into an AC-coupled 2 kohm load hands over; the class-AB part
+    # does not, and its simulated THD is far lower (common practice).
+    assert b["crossover"]["handover"] and b["simulation"]["handover"]
+    assert not ab["crossover"]["handover"]
+    assert ab["simulation"]["thd_f"] < 0.01 * b["simulation"]["thd_f"]
+    # With the recommended fix the simulated stage no longer changes mode.
+    assert b["fix"]["recommended"] == "negative"
+    assert b["simulation_fixed"]["handover"] is False
+    text = loaded("predict", design, "BRQ-622")
+    assert text.exit_code == 0
+    assert "CHANGES CONDUCTION MODE" in text.stdout and "Fix" in text.stdout
+    assert "estimates" in text.stderr.lower() or "estimate" in text.stdout.lower()
+
+
+@pytest.mark.parametrize("suffix", [".png", ".svg"])
+def test_waveform_figure(loaded, tmp_path, suffix):
+    design = PROJECT / "sample-catalog" / "designs" / "line-driver-5v.toml"
+    out = tmp_path / f"w{suffix}"
+    r = loaded("waveform", design, "BRQ-622", "--out", out)
+    assert r.exit_code == 0, r.output
+    data = out.read_bytes()
+    assert data.startswith(b"\x89PNG") if suffix == ".png" else b"<svg" in data[:2000]
+
+
+def test_deck_written(loaded, tmp_path):
+    design = PROJECT / "sample-catalog" / "designs" / "line-driver-5v.toml"
+    out = tmp_path / "d.cir"
+    r = loaded("deck", design, "BRQ-622", "--with-fix", "--out", out)
+    assert r.exit_code == 0, r.output
+    text = out.read_text()
+    assert ".tran" in text and text.rstrip().lower().endswith(".end")
+    assert "BRQ-622" in text
+
+
+def test_bad_inputs_exit_2(loaded, tmp_path):
+    design = PROJECT / "sample-catalog" / "designs" / "line-driver-5v.toml"
+    r = loaded("predict", design, "NO-SUCH-PART")
+    assert r.exit_code == 2 and "NO-SUCH-PART" in r.stderr
+    r = loaded("predict", design, "BRQ-622", "--basis", "optimistic")
+    assert r.exit_code == 2 and "/basis" in r.stderr
+    r = loaded("predict", design, "BRQ-622", "--series", "E7")
+    assert r.exit_code == 2 and "/series" in r.stderr
+    bad = tmp_path / "bad.toml"
+    bad.write_text(design.read_text().replace('frequency = "1 kHz"', 'frequency = "-1 kHz"'))
+    r = loaded("predict", bad, "BRQ-622")
+    assert r.exit_code == 2 and "/signal/frequency" in r.stderr
+    r = loaded("waveform", design, "BRQ-622", "--out", tmp_path / "w.jpg")
+    assert r.exit_code == 2
