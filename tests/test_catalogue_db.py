@@ -36,6 +36,7 @@ from partsel.catalogue import (
     parts_frame,
     validate_documents,
 )
+from partsel.catalogue.columns import FLOAT_COLUMN_NAMES
 from partsel.catalogue.tables import metadata
 from partsel.errors import InputError
 
@@ -290,3 +291,17 @@ def test_env_url_wins_and_is_not_seeded(monkeypatch: pytest.MonkeyPatch, tmp_pat
 
 def test_sample_catalogue_found_next_to_pyproject() -> None:
     assert find_sample_catalogue() == PROJECT / "sample-catalog" / "parts"
+
+
+def test_packed_floats_agree_with_the_columns(engine: sa.Engine) -> None:
+    """The frame reads floats from float_block; they must equal the queryable SQL columns."""
+    load_paths(engine, [CATALOGUE_DATA])
+    from partsel.catalogue.tables import part_table as t
+
+    with engine.connect() as conn:
+        direct = pd.read_sql(
+            sa.select(*(t.c[n] for n in FLAT_COLUMN_NAMES)).order_by(t.c.part_key), conn
+        )
+    df = parts_frame(engine)
+    for col in FLOAT_COLUMN_NAMES:
+        pd.testing.assert_series_equal(df[col], direct[col].astype("float64"), check_names=False)

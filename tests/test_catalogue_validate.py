@@ -211,3 +211,25 @@ def test_problems_of_several_files_together(tmp_path: Path, quill_doc: dict) -> 
         read_and_validate([tmp_path, tmp_path / "missing.yaml"])
     files = sorted(Path(p.file).name for p in info.value.problems)
     assert files == ["a.json", "b.json", "missing.yaml"]
+
+
+def test_fast_validity_check_agrees_with_jsonschema(quill_doc: dict) -> None:
+    """Valid documents skip jsonschema when jsonschema-rs says valid; the two independent
+    implementations of draft 2020-12 must agree on valid and invalid documents."""
+    import jsonschema_rs
+    from jsonschema import Draft202012Validator
+
+    from partsel.catalogue.schema import build_schema
+
+    slow = Draft202012Validator(build_schema())
+    fast = jsonschema_rs.Draft202012Validator(build_schema())
+    variants = [copy.deepcopy(quill_doc) for _ in range(6)]
+    variants[1]["parts"][0]["channels"] = 3
+    variants[2]["parts"][0]["dynamics"]["gbw"] = {"at": {}}
+    variants[3]["parts"][0]["output"]["swing_pos"] = variants[3]["parts"][0]["output"]["swing_pos"][
+        :1
+    ]
+    variants[4]["parts"][0]["price"]["currency"] = "usd"
+    variants[5]["parts"][1]["input"] = {"rail_to_rail": "yes"}
+    verdicts = [(slow.is_valid(v), fast.is_valid(v)) for v in variants]
+    assert verdicts == [(True, True)] + [(False, False)] * 5

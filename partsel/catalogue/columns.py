@@ -105,3 +105,10 @@ SWING_COLUMNS: tuple[FlatColumn, ...] = tuple(
 FLAT_COLUMNS: tuple[FlatColumn, ...] = META_COLUMNS + PARAM_COLUMNS + SWING_COLUMNS
 FLAT_COLUMN_NAMES: tuple[str, ...] = tuple(c.name for c in FLAT_COLUMNS)
 COLUMN_BY_NAME: dict[str, FlatColumn] = {c.name: c for c in FLAT_COLUMNS}
+
+#: Columns of kind ``float``, in table order: the layout of the packed ``float_block``.
+FLOAT_COLUMN_NAMES: tuple[str, ...] = tuple(c.name for c in FLAT_COLUMNS if c.kind == "float")
+#: The other flat columns (text, integers, flags), in table order.
+OTHER_COLUMN_NAMES: tuple[str, ...] = tuple(c.name for c in FLAT_COLUMNS if c.kind != "float")
+#: numpy dtype of the packed block: little-endian float64, one value per float column.
+FLOAT_BLOCK_DTYPE = "<f8"

@@ -24,6 +24,19 @@ DEFAULT_JUNCTION_MAX_C = 150.0
 _RAIL_LIMIT = {"swing_pos": "source_limit", "swing_neg": "sink_limit"}
 
 NAN = math.nan
+_NO_DEAD_BAND = {"min": 0.0, "typ": 0.0, "max": 0.0}
+#: Column names per parameter and per swing point, computed once.
+_PARAM_NAMES = tuple((p, tuple(column(p.key, s) for s in SIDES)) for p in PARAMS)
+_SWING_NAMES = tuple(
+    (
+        rail,
+        tuple(
+            (swing_current_column(rail, k), tuple(swing_headroom_column(rail, k, s) for s in SIDES))
+            for k in range(MAX_SWING_POINTS)
+        ),
+    )
+    for rail in SWING_RAILS
+)
 
 
 def _get(record: dict[str, Any], path: tuple[str, ...]) -> Any:
@@ -103,19 +116,19 @@ def flatten_canonical(canon: dict[str, Any]) -> dict[str, Any]:
         "rail_to_rail_input": bool(_get(canon, ("input", "rail_to_rail")) or False),
         "min_stable_gain": float(_get(canon, ("dynamics", "min_stable_gain")) or NAN),
     }
-    for p in PARAMS:
+    for p, names in _PARAM_NAMES:
         spec = _get(canon, p.path)
         if spec is None and p.key == "dead_band" and topology != Topology.CLASS_B_PULLDOWN:
-            spec = {"min": 0.0, "typ": 0.0, "max": 0.0}  # biased stages: no dead band
-        for side in SIDES:
-            row[column(p.key, side)] = _spec_side(spec, side)
-    for rail in SWING_RAILS:
+            spec = _NO_DEAD_BAND  # biased stages: no dead band
+        for side, name in zip(SIDES, names, strict=True):
+            row[name] = _spec_side(spec, side)
+    for rail, points_names in _SWING_NAMES:
         points = swing_points(output, rail)
-        for k in range(MAX_SWING_POINTS):
+        for k, (i_name, v_names) in enumerate(points_names):
             i_a, head = points[k] if k < len(points) else (NAN, {})
-            row[swing_current_column(rail, k)] = i_a
-            for side in SIDES:
-                row[swing_headroom_column(rail, k, side)] = head.get(side, NAN)
+            row[i_name] = i_a
+            for side, name in zip(SIDES, v_names, strict=True):
+                row[name] = head.get(side, NAN)
     return row
 
 

@@ -18,21 +18,25 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Any, Literal
 
+import numpy as np
 import pandas as pd
 import sqlalchemy as sa
 import yaml
 from sqlalchemy.engine import Connection, Engine
 
-from partsel.catalogue.columns import COLUMN_BY_NAME, FLAT_COLUMN_NAMES, FLAT_COLUMNS
+from partsel.catalogue.columns import (
+    COLUMN_BY_NAME,
+    FLAT_COLUMN_NAMES,
+    FLOAT_BLOCK_DTYPE,
+    FLOAT_COLUMN_NAMES,
+    OTHER_COLUMN_NAMES,
+)
 from partsel.catalogue.normalise import flatten_canonical
 from partsel.catalogue.schema import FORMAT_NAME
 from partsel.catalogue.tables import maker_table, part_table
 from partsel.catalogue.validate import CatalogueDocument, read_and_validate
 
 ExportFormat = Literal["yaml", "json"]
-
-#: Significant digits kept when comparing canonical values (hides float noise of unit scaling).
-_COMPARE_DIGITS = 12
 
 
 @dataclass(frozen=True)
@@ -72,24 +76,10 @@ def part_key(part_number: str) -> str:
     return part_number.strip().casefold()
 
 
-def _rounded(value: Any) -> Any:
-    if isinstance(value, float):
-        return float(f"{value:.{_COMPARE_DIGITS}g}")
-    if isinstance(value, dict):
-        return {k: _rounded(v) for k, v in value.items()}
-    if isinstance(value, list):
-        return [_rounded(v) for v in value]
-    return value
-
-
 def content_hash(canonical: dict[str, Any]) -> str:
-    """Hash of a canonical record, equal for records that mean the same."""
-    text = json.dumps(_rounded(canonical), sort_keys=True, ensure_ascii=False)
+    """Hash of a canonical record (values already rounded), equal for records that mean the same."""
+    text = json.dumps(canonical, sort_keys=True, ensure_ascii=False)
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
-
-
-def _db_value(value: Any) -> Any:
-    return None if isinstance(value, float) and math.isnan(value) else value
 
 
 def _part_rows(docs: Sequence[CatalogueDocument]) -> list[dict[str, Any]]:
@@ -97,7 +87,10 @@ def _part_rows(docs: Sequence[CatalogueDocument]) -> list[dict[str, Any]]:
     for doc in docs:
         for part, canon in zip(doc.parts, doc.canonical_parts, strict=True):
             flat = flatten_canonical(canon)
-            row = {k: _db_value(v) for k, v in flat.items()}
+            row = {k: (None if v != v else v) for k, v in flat.items()}  # NaN -> NULL
+            row["float_block"] = np.array(
+                [flat[n] for n in FLOAT_COLUMN_NAMES], dtype=FLOAT_BLOCK_DTYPE
+            ).tobytes()
             row["part_key"] = part_key(part["part_number"])
             row["record_json"] = json.dumps(part, ensure_ascii=False)
             row["content_hash"] = content_hash(canon)
@@ -191,32 +184,35 @@ def load_paths(engine: Engine, paths: Iterable[str | Path], *, dry_run: bool = F
     return load_documents(engine, read_and_validate(paths), dry_run=dry_run)
 
 
-_FRAME_DTYPES = {"float": "float64", "int": "int64", "bool": "bool"}
-
-
-def _typed_frame(df: pd.DataFrame) -> pd.DataFrame:
-    for col in FLAT_COLUMNS:
-        if col.kind in _FRAME_DTYPES and col.name in df:
-            df[col.name] = df[col.name].astype(_FRAME_DTYPES[col.kind])
-    return df
+_FRAME_DTYPES = {"int": "int64", "bool": "bool", "str": "str"}
 
 
 def parts_frame(engine: Engine, where: sa.ColumnElement[bool] | None = None) -> pd.DataFrame:
     """All parts (or those matching ``where``) as a frame of the flat columns, in one query.
 
-    One row per part, ordered by part number; float columns are SI floats with NaN for
-    unknown values (column list: :data:`partsel.catalogue.columns.FLAT_COLUMNS`).
+    One row per part, ordered by part number (case-insensitive); float columns are SI floats
+    with NaN for unknown values (column list: :data:`partsel.catalogue.columns.FLAT_COLUMNS`).
+    The float columns are read from the packed ``float_block`` (see
+    :mod:`partsel.catalogue.tables`), which keeps 100k parts to about a second.
     """
     t = part_table
-    stmt = sa.select(*(t.c[n] for n in FLAT_COLUMN_NAMES)).order_by(t.c.part_key)
+    stmt = sa.select(*(t.c[n] for n in OTHER_COLUMN_NAMES), t.c.float_block)
+    stmt = stmt.order_by(t.c.part_key)
     if where is not None:
         stmt = stmt.where(where)
     with engine.connect() as conn:
-        result = conn.execute(stmt)
-        df = pd.DataFrame.from_records(
-            result.fetchall(), columns=list(FLAT_COLUMN_NAMES), coerce_float=True
-        )
-    return _typed_frame(df)
+        rows = conn.execute(stmt).fetchall()
+    n = len(rows)
+    cols = list(zip(*rows, strict=True)) if rows else [()] * (len(OTHER_COLUMN_NAMES) + 1)
+    data: dict[str, Any] = {
+        name: pd.array(list(values), dtype=_FRAME_DTYPES[COLUMN_BY_NAME[name].kind])
+        for name, values in zip(OTHER_COLUMN_NAMES, cols, strict=False)
+    }
+    floats = np.frombuffer(b"".join(cols[-1]), dtype=FLOAT_BLOCK_DTYPE)
+    floats = floats.reshape(n, len(FLOAT_COLUMN_NAMES)).astype("float64")
+    for j, name in enumerate(FLOAT_COLUMN_NAMES):
+        data[name] = floats[:, j]
+    return pd.DataFrame({name: data[name] for name in FLAT_COLUMN_NAMES})
 
 
 def _flat_from_row(row: sa.Row[Any]) -> dict[str, Any]:

@@ -1,8 +1,11 @@
 """SQLModel tables of the catalogue: ``part`` (one wide row per part) and ``maker``.
 
-The ``part`` table holds the flat columns of :mod:`partsel.catalogue.columns` (so a frame is one
-query), the record as given (``record_json``, so a dump gives it back), a hash of its canonical
-form (to tell changed from unchanged on load), a version counter and the time of the last change.
+The ``part`` table holds the flat columns of :mod:`partsel.catalogue.columns` (queryable in
+SQL), the same float columns packed into one binary ``float_block`` (little-endian float64 in
+the order of ``FLOAT_COLUMN_NAMES``; a frame of 100k parts reads it in one query far faster than
+a hundred separate columns), the record as given (``record_json``, so a dump gives it back), a
+hash of its canonical form (to tell changed from unchanged on load), a version counter and the
+time of the last change.
 The schema itself is created and migrated by Alembic (``partsel/catalogue/migrations``); a test
 checks that the migrations and these classes agree.
 """
@@ -52,6 +55,7 @@ def _part_body(ns: dict[str, Any]) -> None:
         "part_key": str,
         "record_json": str,
         "content_hash": str,
+        "float_block": bytes,
         "version": int,
         "updated_at": datetime,
     }
@@ -67,6 +71,11 @@ def _part_body(ns: dict[str, Any]) -> None:
     )
     ns["record_json"] = Field(sa_type=sa.Text, nullable=False)
     ns["content_hash"] = Field(sa_type=sa.String, nullable=False)
+    ns["float_block"] = Field(
+        sa_type=sa.LargeBinary,
+        nullable=False,
+        description="every float column packed (columns.FLOAT_COLUMN_NAMES)",
+    )
     ns["version"] = Field(default=1, nullable=False)
     ns["updated_at"] = Field(sa_type=sa.DateTime(timezone=True), nullable=False)
     for col in FLAT_COLUMNS:

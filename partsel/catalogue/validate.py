@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import math
 import re
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
 from pathlib import Path
@@ -50,6 +50,52 @@ def _validator() -> Draft202012Validator:
     return Draft202012Validator(catalogue_schema())
 
 
+@lru_cache(maxsize=1)
+def _fast_is_valid() -> Callable[[Any], bool] | None:
+    """A fast validity check (jsonschema-rs) where installed; problems always come from
+    jsonschema, so messages do not depend on it."""
+    try:
+        import jsonschema_rs
+    except ImportError:
+        return None
+    return jsonschema_rs.Draft202012Validator(catalogue_schema()).is_valid
+
+
+def _schema_errors(data: Any) -> list[ValidationError]:
+    fast = _fast_is_valid()
+    if fast is not None and fast(data):
+        return []
+    return sorted(_validator().iter_errors(data), key=lambda e: list(map(str, e.path)))
+
+
+@lru_cache(maxsize=1)
+def _resolved_defs() -> dict[str, Schema]:
+    """The schema's definitions with every ``$ref`` replaced by its target (siblings win)."""
+    defs = catalogue_schema()["$defs"]
+
+    def inline(node: Any) -> Any:
+        if isinstance(node, dict):
+            if "$ref" in node:
+                base = inline(defs[node["$ref"].rsplit("/", 1)[-1]])
+                return {**base, **{k: inline(v) for k, v in node.items() if k != "$ref"}}
+            return {k: inline(v) for k, v in node.items()}
+        if isinstance(node, list):
+            return [inline(v) for v in node]
+        return node
+
+    return {name: inline(node) for name, node in defs.items()}
+
+
+#: Significant digits kept in canonical values: hides the float noise of unit scaling
+#: ("50 uA" -> 4.9999999999999996e-05) so that equal values compare equal.
+CANONICAL_DIGITS = 12
+
+
+def canonical_float(value: float) -> float:
+    """``value`` rounded to :data:`CANONICAL_DIGITS` significant digits."""
+    return float(f"{value:.{CANONICAL_DIGITS}g}")
+
+
 def part_label(record: Any, index: int) -> str:
     """Record label used in problems: the part number, or ``#index`` without one."""
     if isinstance(record, dict):
@@ -67,7 +113,6 @@ class _Walker:
     """Walks a record along the schema: parses quantities, checks signs and spec order."""
 
     def __init__(self, problems: list[Problem], file: str | None, record: str | None) -> None:
-        self.defs: dict[str, Schema] = catalogue_schema()["$defs"]
         self.problems = problems
         self.file = file
         self.record = record
@@ -75,15 +120,7 @@ class _Walker:
     def problem(self, message: str, path: Path_) -> None:
         self.problems.append(Problem(message, self.file, self.record, json_pointer(*path)))
 
-    def resolve(self, schema: Schema) -> Schema:
-        ref = schema.get("$ref")
-        if ref is None:
-            return schema
-        base = self.defs[ref.rsplit("/", 1)[-1]]
-        return {**base, **{k: v for k, v in schema.items() if k != "$ref"}}
-
     def walk(self, schema: Schema, value: Any, path: Path_, nonneg: bool = False) -> Any:
-        schema = self.resolve(schema)
         nonneg = nonneg or bool(schema.get("x-nonnegative", False))
         if schema.get("x-kind") == "spec":
             return self.spec(schema, value, path, nonneg)
@@ -103,16 +140,23 @@ class _Walker:
         return value
 
     def quantity(self, dim: str, value: Any, path: Path_, nonneg: bool) -> float:
-        try:
-            out = parse_quantity(
-                value, dim, field=json_pointer(*path), file=self.file, record=self.record
-            )
-        except InputError as exc:
-            self.problems.extend(exc.problems)
+        if type(value) is float or type(value) is int:  # SI already: the common bulk case
+            out = float(value)
+        else:
+            try:
+                out = parse_quantity(value, dim)
+            except InputError as exc:
+                self.problems += [
+                    Problem(p.message, self.file, self.record, json_pointer(*path))
+                    for p in exc.problems
+                ]
+                return math.nan
+        if not math.isfinite(out):
+            self.problem("value is not finite", path)
             return math.nan
         if nonneg and out < 0:
             self.problem(f"must not be negative (got {_given(value)})", path)
-        return out
+        return canonical_float(out)
 
     def spec(self, schema: Schema, value: Any, path: Path_, nonneg: bool) -> dict[str, Any]:
         if not isinstance(value, dict):
@@ -202,7 +246,7 @@ def canonical_part(
     base: Path_ = list(pointer or [])
     problems: list[Problem] = []
     w = _Walker(problems, file, record_label)
-    canon = w.walk(catalogue_schema()["$defs"]["part"], record, base)
+    canon = w.walk(_resolved_defs()["part"], record, base)
     _record_checks(canon, base, w)
     return canon, problems
 
@@ -243,7 +287,7 @@ def validate_document(data: Any, *, file: str) -> tuple[CatalogueDocument | None
         return None, [Problem("the top level must be an object with 'parts' and/or 'makers'", file)]
     problems: list[Problem] = []
     bad_records: set[tuple[str, int]] = set()
-    errors = sorted(_validator().iter_errors(data), key=lambda e: list(map(str, e.path)))
+    errors = _schema_errors(data)
     for err in errors:
         problems.extend(_schema_problems(err, file, data))
         p = list(err.absolute_path)

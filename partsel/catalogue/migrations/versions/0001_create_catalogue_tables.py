@@ -33,6 +33,7 @@ def _columns() -> list[sa.Column]:
         sa.Column("part_key", sa.String(), nullable=False),
         sa.Column("record_json", sa.Text(), nullable=False),
         sa.Column("content_hash", sa.String(), nullable=False),
+        sa.Column("float_block", sa.LargeBinary(), nullable=False),
         sa.Column("version", sa.Integer(), nullable=False),
         sa.Column("updated_at", sa.DateTime(timezone=True), nullable=False),
         sa.Column("part_number", sa.String(), nullable=False),
