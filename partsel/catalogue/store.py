@@ -82,20 +82,16 @@ def content_hash(canonical: dict[str, Any]) -> str:
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
-def _part_rows(docs: Sequence[CatalogueDocument]) -> list[dict[str, Any]]:
-    rows = []
-    for doc in docs:
-        for part, canon in zip(doc.parts, doc.canonical_parts, strict=True):
-            flat = flatten_canonical(canon)
-            row = {k: (None if v != v else v) for k, v in flat.items()}  # NaN -> NULL
-            row["float_block"] = np.array(
-                [flat[n] for n in FLOAT_COLUMN_NAMES], dtype=FLOAT_BLOCK_DTYPE
-            ).tobytes()
-            row["part_key"] = part_key(part["part_number"])
-            row["record_json"] = json.dumps(part, ensure_ascii=False)
-            row["content_hash"] = content_hash(canon)
-            rows.append(row)
-    return rows
+def _table_row(part: dict[str, Any], canon: dict[str, Any]) -> dict[str, Any]:
+    """The stored columns of one part (flat columns with NaN as NULL, packed floats, record)."""
+    flat = flatten_canonical(canon)
+    row = {k: (None if v != v else v) for k, v in flat.items()}  # NaN -> NULL
+    row["float_block"] = np.array(
+        [flat[n] for n in FLOAT_COLUMN_NAMES], dtype=FLOAT_BLOCK_DTYPE
+    ).tobytes()
+    row["part_key"] = part_key(part["part_number"])
+    row["record_json"] = json.dumps(part, ensure_ascii=False)
+    return row
 
 
 def _load_makers(conn: Connection, docs: Sequence[CatalogueDocument], report: LoadReport) -> None:
@@ -128,7 +124,7 @@ def _load_makers(conn: Connection, docs: Sequence[CatalogueDocument], report: Lo
             report.makers_changed.append(row.name)
 
 
-def _load_parts(conn: Connection, rows: list[dict[str, Any]], report: LoadReport) -> None:
+def _load_parts(conn: Connection, docs: Sequence[CatalogueDocument], report: LoadReport) -> None:
     t = part_table
     existing = {
         k: (i, h, v)
@@ -139,16 +135,28 @@ def _load_parts(conn: Connection, rows: list[dict[str, Any]], report: LoadReport
     now = datetime.now(UTC)
     inserts: list[dict[str, Any]] = []
     updates: list[dict[str, Any]] = []
-    for row in rows:
-        old = existing.get(row["part_key"])
-        if old is None:
-            inserts.append({**row, "version": 1, "updated_at": now})
-            report.added.append(row["part_number"])
-        elif old[1] != row["content_hash"]:
-            updates.append({**row, "version": old[2] + 1, "updated_at": now, "_pk": old[0]})
-            report.changed.append(row["part_number"])
-        else:
-            report.unchanged.append(row["part_number"])
+    for doc in docs:
+        for part, canon in zip(doc.parts, doc.canonical_parts, strict=True):
+            digest = content_hash(canon)
+            old = existing.get(part_key(part["part_number"]))
+            if old is None:
+                row = _table_row(part, canon)
+                inserts.append({**row, "content_hash": digest, "version": 1, "updated_at": now})
+                report.added.append(part["part_number"])
+            elif old[1] != digest:
+                row = _table_row(part, canon)
+                updates.append(
+                    {
+                        **row,
+                        "content_hash": digest,
+                        "version": old[2] + 1,
+                        "updated_at": now,
+                        "_pk": old[0],
+                    }
+                )
+                report.changed.append(part["part_number"])
+            else:
+                report.unchanged.append(part["part_number"])
     if inserts:
         conn.execute(sa.insert(t), inserts)
     if updates:
@@ -160,12 +168,11 @@ def load_documents(
 ) -> LoadReport:
     """Store validated documents in one transaction (``dry_run``: roll back, report only)."""
     report = LoadReport(dry_run=dry_run)
-    rows = _part_rows(docs)
     with engine.connect() as conn:
         trans = conn.begin()
         try:
             _load_makers(conn, docs, report)
-            _load_parts(conn, rows, report)
+            _load_parts(conn, docs, report)
         except BaseException:
             trans.rollback()
             raise

@@ -28,12 +28,10 @@ from partsel.catalogue.sheet import sheet_documents
 from partsel.catalogue.store import LoadReport, StoredPart
 from partsel.catalogue.validate import canonical_part
 from partsel.cli.common import (
-    ExitCode,
     JsonFlag,
     bad_input_exits,
     echo_json,
     engine,
-    err_console,
     fail_bad_input,
     message,
     out_console,
@@ -359,6 +357,3 @@ def register(app: typer.Typer) -> None:
     app.command("export")(export)
     app.command("export-csv")(export_csv)
     app.command("import-sheet")(import_sheet)
-
-
-__all__ = ["ExitCode", "err_console", "register"]
