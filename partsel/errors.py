@@ -70,8 +70,9 @@ class InputError(PartselError):
     def __str__(self) -> str:
         return "\n".join(str(p) for p in self.problems)
 
-    def with_context(self, *, file: str | None = None, record: str | None = None,
-                     prefix: str = "") -> InputError:
+    def with_context(
+        self, *, file: str | None = None, record: str | None = None, prefix: str = ""
+    ) -> InputError:
         """Return a copy whose problems carry ``file``/``record`` and a pointer ``prefix``."""
         probs = [
             Problem(

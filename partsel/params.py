@@ -76,40 +76,104 @@ class ParamDef:
 
 
 PARAMS: tuple[ParamDef, ...] = (
-    ParamDef("supply_current", ("supply", "current_per_channel"), "current", "high",
-             "Quiescent supply current per channel, no load"),
-    ParamDef("cm_headroom_neg", ("input", "cm_headroom_neg"), "voltage", "high",
-             "Lowest input common-mode voltage above the negative rail "
-             "(V_cm,min = V- + value; negative means the range extends beyond the rail)",
-             nonnegative=False),
-    ParamDef("cm_headroom_pos", ("input", "cm_headroom_pos"), "voltage", "high",
-             "Distance of the highest input common-mode voltage below the positive rail "
-             "(V_cm,max = V+ - value; negative means beyond the rail)",
-             nonnegative=False),
-    ParamDef("offset_voltage", ("input", "offset_voltage"), "voltage", "high",
-             "Input offset voltage, magnitude"),
-    ParamDef("bias_current", ("input", "bias_current"), "current", "high",
-             "Input bias current, magnitude"),
-    ParamDef("noise_density", ("input", "noise_density"), "noise_voltage", "high",
-             "Input voltage noise density (at the frequency in its conditions, usually 1 kHz)"),
-    ParamDef("gbw", ("dynamics", "gbw"), "frequency", "low",
-             "Gain-bandwidth product (unity-gain frequency of the open-loop gain)"),
-    ParamDef("slew_rise", ("dynamics", "slew_rise"), "slew", "low",
-             "Slew rate, rising output"),
-    ParamDef("slew_fall", ("dynamics", "slew_fall"), "slew", "low",
-             "Slew rate, falling output (magnitude)"),
-    ParamDef("cap_load_limit", ("dynamics", "cap_load_limit"), "capacitance", "low",
-             "Largest load capacitance the part drives stably at its minimum stable gain"),
-    ParamDef("dead_band", ("output", "dead_band"), "voltage", "high",
-             "Drive-node dead band between source and sink device conduction "
-             "(class B; zero for biased stages)"),
-    ParamDef("stage_current", ("output", "stage_current"), "current", "low",
-             "Internal pull-down current (class B), sink bias current (class A) or output "
-             "quiescent current (class AB / CMOS)"),
-    ParamDef("source_limit", ("output", "source_limit"), "current", "low",
-             "Largest output current the part can source (current limit)"),
-    ParamDef("sink_limit", ("output", "sink_limit"), "current", "low",
-             "Largest output current the part can sink (current limit)"),
+    ParamDef(
+        "supply_current",
+        ("supply", "current_per_channel"),
+        "current",
+        "high",
+        "Quiescent supply current per channel, no load",
+    ),
+    ParamDef(
+        "cm_headroom_neg",
+        ("input", "cm_headroom_neg"),
+        "voltage",
+        "high",
+        "Lowest input common-mode voltage above the negative rail "
+        "(V_cm,min = V- + value; negative means the range extends beyond the rail)",
+        nonnegative=False,
+    ),
+    ParamDef(
+        "cm_headroom_pos",
+        ("input", "cm_headroom_pos"),
+        "voltage",
+        "high",
+        "Distance of the highest input common-mode voltage below the positive rail "
+        "(V_cm,max = V+ - value; negative means beyond the rail)",
+        nonnegative=False,
+    ),
+    ParamDef(
+        "offset_voltage",
+        ("input", "offset_voltage"),
+        "voltage",
+        "high",
+        "Input offset voltage, magnitude",
+    ),
+    ParamDef(
+        "bias_current",
+        ("input", "bias_current"),
+        "current",
+        "high",
+        "Input bias current, magnitude",
+    ),
+    ParamDef(
+        "noise_density",
+        ("input", "noise_density"),
+        "noise_voltage",
+        "high",
+        "Input voltage noise density (at the frequency in its conditions, usually 1 kHz)",
+    ),
+    ParamDef(
+        "gbw",
+        ("dynamics", "gbw"),
+        "frequency",
+        "low",
+        "Gain-bandwidth product (unity-gain frequency of the open-loop gain)",
+    ),
+    ParamDef("slew_rise", ("dynamics", "slew_rise"), "slew", "low", "Slew rate, rising output"),
+    ParamDef(
+        "slew_fall",
+        ("dynamics", "slew_fall"),
+        "slew",
+        "low",
+        "Slew rate, falling output (magnitude)",
+    ),
+    ParamDef(
+        "cap_load_limit",
+        ("dynamics", "cap_load_limit"),
+        "capacitance",
+        "low",
+        "Largest load capacitance the part drives stably at its minimum stable gain",
+    ),
+    ParamDef(
+        "dead_band",
+        ("output", "dead_band"),
+        "voltage",
+        "high",
+        "Drive-node dead band between source and sink device conduction "
+        "(class B; zero for biased stages)",
+    ),
+    ParamDef(
+        "stage_current",
+        ("output", "stage_current"),
+        "current",
+        "low",
+        "Internal pull-down current (class B), sink bias current (class A) or output "
+        "quiescent current (class AB / CMOS)",
+    ),
+    ParamDef(
+        "source_limit",
+        ("output", "source_limit"),
+        "current",
+        "low",
+        "Largest output current the part can source (current limit)",
+    ),
+    ParamDef(
+        "sink_limit",
+        ("output", "sink_limit"),
+        "current",
+        "low",
+        "Largest output current the part can sink (current limit)",
+    ),
 )
 
 PARAM_BY_KEY: dict[str, ParamDef] = {p.key: p for p in PARAMS}

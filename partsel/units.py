@@ -121,8 +121,9 @@ def parse_quantity(
     if dimension not in SI_UNIT:
         raise KeyError(f"unknown dimension {dimension!r}")
     if isinstance(value, bool):
-        raise InputError("expected a number or quantity, got a boolean",
-                         file=file, record=record, pointer=field)
+        raise InputError(
+            "expected a number or quantity, got a boolean", file=file, record=record, pointer=field
+        )
     if isinstance(value, int | float):
         out = float(value)
     elif isinstance(value, str):
@@ -131,22 +132,38 @@ def parse_quantity(
         except ValueError as exc:
             raise InputError(str(exc), file=file, record=record, pointer=field) from None
         except (pint.UndefinedUnitError, pint.errors.DefinitionSyntaxError) as exc:
-            raise InputError(f"unknown unit in {value!r}: {exc}", file=file, record=record,
-                             pointer=field) from None
+            raise InputError(
+                f"unknown unit in {value!r}: {exc}", file=file, record=record, pointer=field
+            ) from None
         except Exception as exc:  # pint raises assorted parser errors (tokenizer, syntax)
-            raise InputError(f"cannot read quantity {value!r} ({type(exc).__name__})",
-                             file=file, record=record, pointer=field) from None
+            raise InputError(
+                f"cannot read quantity {value!r} ({type(exc).__name__})",
+                file=file,
+                record=record,
+                pointer=field,
+            ) from None
     else:
-        raise InputError(f"expected a number or quantity string, got {type(value).__name__}",
-                         file=file, record=record, pointer=field)
+        raise InputError(
+            f"expected a number or quantity string, got {type(value).__name__}",
+            file=file,
+            record=record,
+            pointer=field,
+        )
     if not math.isfinite(out):
         raise InputError("value is not finite", file=file, record=record, pointer=field)
     return out
 
 
 _PREFIXES = [
-    (1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "u"), (1e-9, "n"),
-    (1e-12, "p"), (1e-15, "f"),
+    (1e9, "G"),
+    (1e6, "M"),
+    (1e3, "k"),
+    (1.0, ""),
+    (1e-3, "m"),
+    (1e-6, "u"),
+    (1e-9, "n"),
+    (1e-12, "p"),
+    (1e-15, "f"),
 ]
 
 
