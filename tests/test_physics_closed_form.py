@@ -1,0 +1,386 @@
+"""Closed-form predictions of partsel.physics.analysis against outside references.
+
+References named beside each check:
+
+* full-power bandwidth ``f_FP = SR / (2 pi V_peak)`` and closed-loop bandwidth
+  ``f_CL = GBW / noise gain`` of a single-pole amplifier: op-amp application literature (the
+  standard textbook formulas, from memory);
+* the gain error of a single-pole loop: python-control (``control.tf`` / ``control.feedback``);
+* the load current of an RC network: phasor analysis by hand (written out in the tests);
+* the handover time across the dead band: design notes section 4, and an independent numerical
+  integration of the drive-node speed with scipy;
+* the flat step during a handover at ``V_bias - I_pd R_L``: common practice (design notes
+  section 3);
+* the THD of a sine clipped on one side: its Fourier series, integrated with scipy.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+import control
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from physics_helpers import DEFAULT_SWING, DEFAULT_TYP, line_design, make_stage, stage_columns
+from scipy.integrate import quad
+from scipy.optimize import brentq
+
+from partsel.physics.analysis import predict_closed_form
+from partsel.physics.circuit import Design
+from partsel.physics.stage import StageParams
+
+CLASS_B = "class-b-pulldown"
+
+# ------------------------------------------------------------------ bandwidth and gain error
+
+
+def test_full_power_bandwidth_formula() -> None:
+    """f_FP = SR / (2 pi V_peak), SR the slower of the two edges (op-amp application
+    literature); a sine at f_FP needs exactly the available slew rate. Tolerance 1e-12."""
+    stage = make_stage(CLASS_B, 3, slew_rise=[0.5e6, 0.3e6, 2e6], slew_fall=[0.3e6, 0.5e6, 2e6])
+    d = line_design(out_amplitude_v=0.8)
+    cf = predict_closed_form(stage, d)
+    sr = np.array([0.3e6, 0.3e6, 2e6])
+    expected = sr / (2 * math.pi * 0.8)
+    np.testing.assert_allclose(cf.full_power_bw_hz, expected, rtol=1e-12)
+    # At f = f_FP the required slew rate 2 pi f V_peak equals the part's slew rate.
+    d_fp = line_design(out_amplitude_v=0.8, frequency_hz=float(expected[0]))
+    cf_fp = predict_closed_form(stage, d_fp)
+    assert cf_fp.slew_required_v_per_s == pytest.approx(0.3e6, rel=1e-12)
+    assert cf_fp.slew_margin_ratio[0] == pytest.approx(1.0, rel=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("configuration", "gain", "noise_gain"),
+    [("non-inverting", 1.0, 1.0), ("non-inverting", 5.0, 5.0), ("inverting", 4.0, 5.0)],
+)
+def test_closed_loop_bandwidth_is_gbw_over_noise_gain(
+    configuration: str, gain: float, noise_gain: float
+) -> None:
+    """f_CL = GBW / noise gain, noise gain = G (non-inverting) or 1 + G (inverting)
+    (op-amp application literature). Tolerance 1e-12."""
+    gbw = np.array([0.7e6, 1e6, 10e6])
+    stage = make_stage(CLASS_B, 3, gbw=gbw)
+    d = line_design(gain=gain, configuration=configuration)
+    cf = predict_closed_form(stage, d)
+    np.testing.assert_allclose(cf.closed_loop_bw_hz, gbw / noise_gain, rtol=1e-12)
+
+
+@pytest.mark.parametrize(
+    ("configuration", "gain", "frequency_hz"),
+    [("non-inverting", 2.0, 100e3), ("non-inverting", 10.0, 20e3), ("inverting", 3.0, 50e3)],
+)
+def test_gain_error_of_single_pole_loop_against_python_control(
+    configuration: str, gain: float, frequency_hz: float
+) -> None:
+    """Gain error |A_cl / A_ideal| - 1 and phase error of a single-pole loop, evaluated with
+    python-control: open loop omega_t / s, closed loop A / (1 + A beta) (non-inverting, ideal
+    1/beta) or A beta / (1 + A beta) (inverting, the signal path's loop-gain factor).
+    Tolerance 1e-9."""
+    gbw = np.array([1e6, 3e6])
+    stage = make_stage(CLASS_B, 2, gbw=gbw)
+    d = line_design(gain=gain, configuration=configuration, frequency_hz=frequency_hz)
+    cf = predict_closed_form(stage, d)
+    beta = 1.0 / (gain if configuration == "non-inverting" else 1.0 + gain)
+    s = 2j * math.pi * frequency_hz
+    for k, g in enumerate(gbw):
+        a_ol = control.tf([2 * math.pi * g], [1, 0])
+        if configuration == "non-inverting":
+            ratio = complex(control.feedback(a_ol, beta)(s)) * beta
+        else:
+            ratio = complex(control.feedback(a_ol * beta, 1)(s))
+        assert cf.gain_error[k] == pytest.approx(abs(ratio) - 1.0, rel=1e-9)
+        assert cf.phase_error_rad[k] == pytest.approx(np.angle(ratio), rel=1e-9)
+    assert np.all(cf.gain_error < 0)
+
+
+# ------------------------------------------------------------------ conduction analysis
+
+
+def test_output_current_of_ac_coupled_rc_load_against_phasor() -> None:
+    """i_out of R_L through C_c with C_L to ground, near the coupling corner (phasor analysis
+    by hand): Y = j w C_c / (1 + j w R_L C_c) + j w C_L; the coupling capacitor carries no DC,
+    so i = +-|Y| A. Tolerance 1e-9."""
+    r_l, c_c, c_l, f, a = 10e3, 100e-9, 10e-9, 200.0, 1.0  # corner 159 Hz
+    d = line_design(out_amplitude_v=a, frequency_hz=f, r_load_ohm=r_l, c_couple_f=c_c, c_load_f=c_l)
+    cf = predict_closed_form(make_stage(CLASS_B, 1), d)
+    w = 2 * math.pi * f
+    x = w * r_l * c_c
+    y_re = w**2 * r_l * c_c**2 / (1 + x**2)
+    y_im = w * c_c / (1 + x**2) + w * c_l
+    i_peak = math.hypot(y_re, y_im) * a
+    assert cf.i_out_max_a[0] == pytest.approx(i_peak, rel=1e-9)
+    assert cf.i_out_min_a[0] == pytest.approx(-i_peak, rel=1e-9)
+
+
+def test_output_current_of_dc_coupled_load_with_feedback_network() -> None:
+    """DC-coupled R_L to a reference plus R_f + R_g to the gain reference (Ohm's law): the
+    output current at the output extremes V0 +- A. Tolerance 1e-9."""
+    r_l, v_ref, a, v0 = 2e3, 0.0, 1.0, 2.5
+    d0 = line_design(coupling="dc", r_load_ohm=r_l, reference_v=v_ref, out_amplitude_v=a)
+    cf = predict_closed_form(make_stage(CLASS_B, 1), d0)
+    assert cf.i_out_min_a[0] == pytest.approx((v0 - a - v_ref) / r_l, rel=1e-9)
+    assert cf.i_out_max_a[0] == pytest.approx((v0 + a - v_ref) / r_l, rel=1e-9)
+    assert not cf.handover[0]  # the load only ever takes current from the output
+
+    d1 = replace(d0, closed_loop=replace(d0.closed_loop, feedback_ohm=10e3))
+    cf1 = predict_closed_form(make_stage(CLASS_B, 1), d1)
+    r_fb = 10e3 + 10e3 / (2.0 - 1.0)  # R_f + R_g at gain 2, returning to the bias 2.5 V
+    assert cf1.i_out_min_a[0] == pytest.approx((v0 - a - v_ref) / r_l - a / r_fb, rel=1e-9)
+    assert cf1.i_out_max_a[0] == pytest.approx((v0 + a - v_ref) / r_l + a / r_fb, rel=1e-9)
+
+
+def test_handover_decided_by_min_current_below_minus_stage_current() -> None:
+    """Class B hands over exactly when min i_out < -I_pd (design notes section 3): loads that
+    need 0.8 and 1.2 times the pull-down current. Class AB never hands over but its output
+    current changes sign. Minimum source current = min i_out + I_pd; below half of I_pd the
+    stage is marginal (partsel's threshold)."""
+    i_pd, a = 50e-6, 1.0
+    r_l = np.array([a / (0.8 * i_pd), a / (1.2 * i_pd)])
+    for k, r in enumerate(r_l):
+        d = line_design(out_amplitude_v=a, r_load_ohm=float(r), c_couple_f=1e-3)
+        stage = make_stage([CLASS_B, "class-ab"], stage_current=i_pd)
+        cf = predict_closed_form(stage, d)
+        i_min = -a / r  # coupling corner far below 1 kHz
+        assert cf.i_out_min_a[0] == pytest.approx(i_min, rel=1e-6)
+        assert bool(cf.handover[0]) == bool(i_min < -i_pd)
+        assert cf.min_source_a[0] == pytest.approx(i_min + i_pd, rel=1e-5)
+        assert bool(cf.marginal[0]) is (k == 0)  # 0.2 I_pd left
+        assert not cf.handover[1]
+        assert cf.crossover_biased[1]
+
+
+def test_class_a_hands_over_when_load_needs_more_than_its_sink_bias() -> None:
+    """Class A sinks at most its bias current (design notes section 2): an AC-coupled 10 kohm
+    load at 1 V peak needs 100 uA of sink current, more than 50 uA of bias (handover) but less
+    than 150 uA; a DC load to ground never needs sinking. The closed-form glitch of class A is
+    the clip depth flat level - trough = 2.0 V - 1.5 V (common practice)."""
+    stage = make_stage("class-a", 2, stage_current=[50e-6, 150e-6])
+    cf = predict_closed_form(stage, line_design())
+    assert list(cf.handover) == [True, False]
+    assert cf.flat_level_v[0] == pytest.approx(2.5 - 50e-6 * 10e3, abs=1e-3)
+    assert cf.glitch_v[0] == pytest.approx(2.0 - 1.5, abs=1e-3)
+    cf_dc = predict_closed_form(stage, line_design(coupling="dc", reference_v=0.0))
+    assert not cf_dc.handover.any()
+
+
+def test_flat_level_is_pulldown_current_times_load_below_bias() -> None:
+    """AC-coupled R_L: during the handover the load holds the output where it draws -I_pd,
+    V_bias - I_pd R_L (common practice). With R_pd to V- as well, where
+    (v - V_bias)/R_L + (v - V-)/R_pd = -I_pd (Kirchhoff). Tolerance 1 mV (0.2 % of I_pd R_L)."""
+    i_pd = np.array([30e-6, 50e-6, 80e-6])
+    stage = make_stage(CLASS_B, 3, stage_current=i_pd)
+    cf = predict_closed_form(stage, line_design())
+    np.testing.assert_allclose(cf.flat_level_v, 2.5 - i_pd * 10e3, atol=1e-3)
+    r_pd = 100e3
+    cf2 = predict_closed_form(stage, line_design(r_to_neg_ohm=r_pd))
+    expected = (2.5 / 10e3 - i_pd) / (1 / 10e3 + 1 / r_pd)
+    np.testing.assert_allclose(cf2.flat_level_v, expected, atol=1e-3)
+
+
+# ------------------------------------------------------------------ handover time and glitch
+
+
+def _dc_mid_design(**kw: float) -> Design:
+    """R_L DC-coupled to the output bias 2.5 V: i(t) = A sin(wt) / R_L exactly."""
+    return line_design(coupling="dc", reference_v=2.5, **kw)
+
+
+def test_handover_time_matches_design_notes_formula() -> None:
+    """tau = sqrt(2 dV G / (omega_t s)) with s = w A cos(theta_c), sin(theta_c) = -I_pd R_L / A
+    at the handover (design notes section 4; slew limit far away). Tolerance 1e-9."""
+    a, f, g, r_l, i_pd = 1.0, 1e3, 2.0, 10e3, 50e-6
+    gbw = np.array([1e6, 4e6, 1e6])
+    db = np.array([1.3, 1.3, 5.2])
+    stage = make_stage(CLASS_B, 3, gbw=gbw, dead_band=db, slew_rise=20e6, slew_fall=20e6)
+    d = _dc_mid_design(out_amplitude_v=a, frequency_hz=f, gain=g, r_load_ohm=r_l)
+    cf = predict_closed_form(stage, d)
+    w = 2 * math.pi * f
+    s = w * a * math.sqrt(1 - (i_pd * r_l / a) ** 2)
+    tau = np.sqrt(2 * db * g / (2 * math.pi * gbw * s))
+    np.testing.assert_allclose(cf.slope_v_per_s, s, rtol=1e-9)
+    np.testing.assert_allclose(cf.handover_time_s, tau, rtol=1e-9)
+    np.testing.assert_allclose(cf.glitch_v, s * tau, rtol=1e-9)
+    # Scaling (analytic): quadrupling GBW halves tau and the glitch; quadrupling dV doubles them.
+    assert cf.handover_time_s[1] == pytest.approx(cf.handover_time_s[0] / 2, rel=1e-12)
+    assert cf.glitch_v[1] == pytest.approx(cf.glitch_v[0] / 2, rel=1e-12)
+    assert cf.handover_time_s[2] == pytest.approx(cf.handover_time_s[0] * 2, rel=1e-12)
+
+
+def test_slew_limited_handover_time_against_numerical_integration() -> None:
+    """With a low slew rate the drive node moves at min(omega_t beta s t, SR) (design notes
+    section 4): tau solves int_0^tau min(k t, SR) dt = dV, here found with scipy quad + brentq.
+    Tolerance 1e-6."""
+    a, f, g, r_l, i_pd, db = 1.0, 1e3, 2.0, 10e3, 50e-6, 1.3
+    sr = np.array([0.05e6, 0.02e6])
+    stage = make_stage(CLASS_B, 2, slew_rise=sr, slew_fall=sr, dead_band=db)
+    d = _dc_mid_design(out_amplitude_v=a, frequency_hz=f, gain=g, r_load_ohm=r_l)
+    cf = predict_closed_form(stage, d)
+    s = 2 * math.pi * f * a * math.sqrt(1 - (i_pd * r_l / a) ** 2)
+    k_rate = 2 * math.pi * 1e6 / g * s
+    for j, slew in enumerate(sr):
+        assert k_rate * math.sqrt(2 * db / k_rate) > slew  # the slew limit is reached
+
+        def covered(t: float, slew: float = float(slew)) -> float:
+            return quad(lambda u: min(k_rate * u, slew), 0.0, t, points=[slew / k_rate])[0]
+
+        tau = brentq(lambda t: covered(t) - db, 1e-9, 1e-2, xtol=1e-15)
+        assert cf.handover_time_s[j] == pytest.approx(tau, rel=1e-6)
+        assert cf.glitch_v[j] == pytest.approx(s * tau, rel=1e-6)
+
+
+# ------------------------------------------------------------------ class A clipping THD
+
+
+def test_class_a_thd_estimate_against_clipped_sine_fourier_series() -> None:
+    """A class-A stage on a DC load to 2.5 V flattens the trough at V_ref - I_bias R_L = 2.0 V
+    (1 V peak around 2.5 V: clip at -0.5 of the amplitude). THD_F of a sine clipped on one side
+    at -c: Fourier coefficients integrated with scipy quad (harmonics 2..40, IEC 61000-2-2
+    convention, from memory). Tolerance 20 % (the estimate is a closed-form approximation)."""
+    stage = make_stage("class-a", 1)
+    cf = predict_closed_form(stage, _dc_mid_design())
+    c = 0.5
+
+    def coef(h: int) -> float:
+        re = quad(lambda th: max(math.sin(th), -c) * math.cos(h * th), 0, 2 * math.pi, limit=200)
+        im = quad(lambda th: max(math.sin(th), -c) * math.sin(h * th), 0, 2 * math.pi, limit=200)
+        return math.hypot(re[0], im[0]) / math.pi
+
+    a1 = coef(1)
+    thd_ref = math.sqrt(sum(coef(h) ** 2 for h in range(2, 41))) / a1
+    assert cf.handover[0]
+    assert cf.thd_estimate[0] == pytest.approx(thd_ref, rel=0.2)
+
+
+# ------------------------------------------------------------------ worst-case basis
+
+
+def test_worst_case_basis_picks_pessimistic_side() -> None:
+    """Worst case (design notes section 7): min GBW and slew, max dead band, min stage current,
+    max headroom; typical takes typ, or the middle of min/max where no typ is given."""
+    cols = stage_columns(
+        [CLASS_B, CLASS_B],
+        gbw_min=0.7e6,
+        gbw_max=1.4e6,
+        dead_band_max=1.8,
+        dead_band_min=1.0,
+        stage_current_min=[30e-6, np.nan],
+        stage_current_max=80e-6,
+        slew_rise_min=0.3e6,
+        swing_neg_v1_max=0.45,
+        swing_pos_v0_max=1.5,
+    )
+    cols["gbw_typ"] = np.array([1e6, np.nan])
+    wc = StageParams.from_columns(cols, basis="worst-case")
+    ty = StageParams.from_columns(cols, basis="typical")
+    np.testing.assert_array_equal(wc.gbw_hz, [0.7e6, 0.7e6])
+    np.testing.assert_array_equal(wc.dead_band_v, [1.8, 1.8])
+    # No minimum given for part 1: the next value towards pessimism is typ.
+    np.testing.assert_array_equal(wc.stage_current_a, [30e-6, 50e-6])
+    np.testing.assert_array_equal(wc.slew_rise_v_per_s, [0.3e6, 0.3e6])
+    np.testing.assert_array_equal(wc.swing_neg_v[:, 1], [0.45, 0.45])
+    np.testing.assert_array_equal(wc.swing_pos_v[:, 0], [1.5, 1.5])
+    assert list(wc.used["gbw"]) == ["min", "min"]
+    assert list(wc.used["dead_band"]) == ["max", "max"]
+    assert list(wc.used["stage_current"]) == ["min", "typ"]
+    np.testing.assert_array_equal(ty.gbw_hz, [1e6, 0.5 * (0.7e6 + 1.4e6)])
+    assert list(ty.used["gbw"]) == ["typ", "mid"]
+    np.testing.assert_array_equal(ty.dead_band_v, [1.3, 1.3])
+
+
+_spread = st.floats(min_value=0.0, max_value=0.5)
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    lo=st.lists(_spread, min_size=5, max_size=5),
+    hi=st.lists(_spread, min_size=5, max_size=5),
+    have_max=st.lists(st.booleans(), min_size=2, max_size=2),
+    topology=st.sampled_from([CLASS_B, "class-a", "class-ab"]),
+    amp=st.floats(min_value=0.3, max_value=1.0),
+    r_load=st.floats(min_value=3e3, max_value=30e3),
+)
+def test_worst_case_never_more_optimistic_than_typical(
+    lo: list[float],
+    hi: list[float],
+    have_max: list[bool],
+    topology: str,
+    amp: float,
+    r_load: float,
+) -> None:
+    """For every check the worst-case basis uses the pessimistic side (design notes section
+    7), so its glitch is >= and its margins are <= the typical ones (absolute slack 1e-12).
+    Headroom curves come with or without a guaranteed maximum and the source limit as typical
+    only, as datasheets often give them; a missing side falls back to typ."""
+    keys = ["gbw", "dead_band", "stage_current", "slew_rise", "slew_fall"]
+    vals: dict[str, float] = {}
+    for k, key in enumerate(keys):
+        vals[f"{key}_min"] = DEFAULT_TYP[key] * (1 - lo[k])
+        vals[f"{key}_max"] = DEFAULT_TYP[key] * (1 + hi[k])
+    for rail, flag in zip(("pos", "neg"), have_max, strict=True):
+        if flag:
+            for j, (_, h) in enumerate(DEFAULT_SWING[rail]):
+                vals[f"swing_{rail}_v{j}_max"] = h * 1.1
+    cols = stage_columns(topology, 1, **vals)
+    d = line_design(out_amplitude_v=amp, r_load_ohm=r_load)
+    ty_stage = StageParams.from_columns(cols, "typical")
+    wc_stage = StageParams.from_columns(cols, "worst-case")
+    ty = predict_closed_form(ty_stage, d)
+    wc = predict_closed_form(wc_stage, d)
+    eps = 1e-12
+    checks = {
+        "glitch_v": wc.glitch_v[0] >= ty.glitch_v[0] - eps,
+        "handover": wc.handover[0] >= ty.handover[0],
+        "min_source_a": wc.min_source_a[0] <= ty.min_source_a[0] + eps,
+        "swing_pos_margin_v": wc.swing_pos_margin_v[0] <= ty.swing_pos_margin_v[0] + eps,
+        "swing_neg_margin_v": wc.swing_neg_margin_v[0] <= ty.swing_neg_margin_v[0] + eps,
+        "slew_margin_ratio": wc.slew_margin_ratio[0] <= ty.slew_margin_ratio[0] + eps,
+        "full_power_bw_hz": wc.full_power_bw_hz[0] <= ty.full_power_bw_hz[0] + eps,
+        "closed_loop_bw_hz": wc.closed_loop_bw_hz[0] <= ty.closed_loop_bw_hz[0] + eps,
+        "gain_error": wc.gain_error[0] <= ty.gain_error[0] + eps,
+        "source_limit_margin_a": wc_stage.source_limit_a[0] - wc.source_peak_a[0]
+        <= ty_stage.source_limit_a[0] - ty.source_peak_a[0] + eps,
+    }
+    optimistic = [name for name, ok in checks.items() if not ok]
+    assert not optimistic, f"worst case more optimistic than typical in {optimistic}"
+
+
+# ------------------------------------------------------------------ monotonic glitch (property)
+
+
+@settings(max_examples=100, deadline=None)
+@given(
+    gbw=st.floats(min_value=0.3e6, max_value=10e6),
+    db=st.floats(min_value=0.8, max_value=2.5),
+    i_pd=st.floats(min_value=5e-6, max_value=80e-6),
+    slew=st.floats(min_value=0.05e6, max_value=5e6),
+    f=st.floats(min_value=100.0, max_value=20e3),
+    amp=st.floats(min_value=0.2, max_value=1.0),
+    gain=st.floats(min_value=1.0, max_value=10.0),
+)
+def test_closed_form_glitch_grows_with_frequency_and_shrinks_with_gbw(
+    gbw: float, db: float, i_pd: float, slew: float, f: float, amp: float, gain: float
+) -> None:
+    """Glitch ~ sqrt(2 dV G s / omega_t), at most s tau with the slew limit (design notes
+    section 4): doubling f raises it, doubling GBW lowers it (any handover with a load of
+    10 kohm through 1 mF, the coupling corner far below f)."""
+    stage = make_stage(
+        CLASS_B,
+        2,
+        gbw=[gbw, 2 * gbw],
+        dead_band=db,
+        stage_current=i_pd,
+        slew_rise=slew,
+        slew_fall=slew,
+    )
+    kw = {"out_amplitude_v": amp, "gain": gain, "c_couple_f": 1e-3}
+    cf1 = predict_closed_form(stage, line_design(frequency_hz=f, **kw))
+    cf2 = predict_closed_form(stage, line_design(frequency_hz=2 * f, **kw))
+    if cf1.handover[0]:
+        assert cf2.glitch_v[0] > cf1.glitch_v[0]
+        assert cf1.glitch_v[1] < cf1.glitch_v[0]
+    else:
+        assert cf1.glitch_v[0] == 0.0
