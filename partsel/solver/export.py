@@ -1,0 +1,546 @@
+"""One writer for every output of a ranking: JSON-ready dicts, a CSV frame, the JSON Schema.
+
+The JSON form (format ``partsel.ranking/1``) is described by :func:`ranking_schema`, committed as
+``data-schema/ranking.schema.json`` (a test fails when the two drift). SI units throughout; a
+value that is not a finite number (NaN, infinity) is written as ``null``.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from partsel.solver import checks as C
+from partsel.solver.requirements import OBJECTIVE_BY_NAME
+from partsel.solver.solve import Hint, Ranking
+from partsel.solver.table import CORNERS
+
+FORMAT = "partsel.ranking/1"
+
+THD_LABEL = (
+    "THD_F estimate from the closed-form crossover glitch shape (partsel's macro-model, "
+    "crossover only; not a simulation or a measurement)"
+)
+CAUTION = (
+    "Estimates from partsel's behavioural macro-model: confirm on the bench or in a full "
+    "simulation before committing a design."
+)
+SCORE_FORMULA = (
+    "score = 100 * (1 - sum_k w_k u_k / sum_k w_k); u_k = (t_k - min t_k) / (max t_k - min t_k) "
+    "over the feasible parts, t_k = log10(clip(metric_k, floor_k, cap_k)), negated for "
+    "objectives to maximise; a missing metric counts as u_k = 1"
+)
+
+_UNIT_SLUG = {
+    "V": "v",
+    "A": "a",
+    "Hz": "hz",
+    "V/s": "v_per_s",
+    "F": "f",
+    "ohm": "ohm",
+    "degC": "c",
+    "V/V": "v_per_v",
+    "1": "",
+    "V/rtHz": "v_per_rthz",
+    "currency unit": "currency",
+    "": "",
+}
+
+
+def num(x: Any) -> float | None:
+    """A finite float, or None."""
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def check_defs() -> list[dict[str, Any]]:
+    """The checks, for the ``checks`` list of the JSON output."""
+    return [
+        {
+            "name": c.name,
+            "unit": c.unit,
+            "sense": c.sense,
+            "description": c.description,
+            "requirement": c.requirement,
+        }
+        for c in C.CHECKS
+    ]
+
+
+def _used_sides(r: Ranking, i: int, c: C.CheckDef, corner: int) -> dict[str, str]:
+    used = r.table.stage(r.requirements.basis).used
+    out: dict[str, str] = {}
+    for p in c.params:
+        if p == "stage_current" and corner >= 0:
+            out[p] = CORNERS[corner]
+        elif p in used:
+            out[p] = str(used[p][i])
+        elif p in ("offset_voltage", "noise_density", "bias_current"):
+            out[p] = str(r.table.param(p, r.requirements.basis)[1][i])
+    return out
+
+
+def part_checks(r: Ranking, i: int) -> list[dict[str, Any]]:
+    """Every check of part ``i``: status, value, limit, margin, ratio, unit, sides used."""
+    ch = r.checks
+    rows = []
+    for j, c in enumerate(C.CHECKS):
+        st = int(ch.status[i, j])
+        row: dict[str, Any] = {
+            "check": c.name,
+            "status": C.STATUS_NAMES[st],
+            "unit": c.unit,
+            "value": num(ch.value[i, j]),
+            "limit": num(ch.limit[i, j]),
+            "margin": num(ch.margin[i, j]),
+            "ratio": num(ch.ratio[i, j]),
+        }
+        if c.name == "lifecycle":
+            row["value"] = str(r.table.lifecycle[i])
+        elif c.name == "channels":
+            row["value"] = num(r.table.channels[i])
+        elif c.name == "package":
+            row["value"] = str(r.table.text("packages")[i])
+        if c.sense == "is":
+            accepted = r.requirements.choice(c.requirement or "")
+            row["limit"] = None if accepted is None else list(accepted)
+        row["values_used"] = _used_sides(r, i, c, int(r.corner[i, j]))
+        rows.append(row)
+    return rows
+
+
+def _binding(r: Ranking, i: int, j: int) -> dict[str, Any] | None:
+    if j < 0:
+        return None
+    c = C.CHECKS[j]
+    return {
+        "check": c.name,
+        "status": C.STATUS_NAMES[int(r.checks.status[i, j])],
+        "unit": c.unit,
+        "margin": num(r.checks.margin[i, j]),
+        "ratio": num(r.checks.ratio[i, j]),
+    }
+
+
+def verdict_text(r: Ranking, i: int) -> str:
+    """The conduction verdict: changes-mode / marginal / biased-crossover / one-mode."""
+    p = r.prediction
+    if p.handover[i]:
+        return "changes-mode"
+    if p.marginal[i]:
+        return "marginal"
+    if p.crossover_biased[i]:
+        return "biased-crossover"
+    return "one-mode"
+
+
+def part_dict(r: Ranking, i: int, *, checks: bool = True) -> dict[str, Any]:
+    """Part ``i`` of a ranking as plain data (one item of ``parts`` in the JSON output)."""
+    p, fx, t = r.prediction, r.fix, r.table
+    out: dict[str, Any] = {
+        "rank": int(r.rank[i]) or None,
+        "part_number": str(t.part_number[i]),
+        "maker": str(t.text("maker")[i]),
+        "topology": str(t.topology[i]),
+        "channels": num(t.channels[i]),
+        "lifecycle": str(t.lifecycle[i]),
+        "feasible": bool(r.feasible[i]),
+        "score": num(r.score[i]),
+        "pareto": bool(r.pareto[i]),
+        "n_failing": int(r.n_failing[i]),
+        "binding": _binding(r, i, int(r.binding[i])),
+        "tightest": _binding(r, i, int(r.tightest[i])),
+        "prediction": {
+            "verdict": verdict_text(r, i),
+            "handover": bool(p.handover[i]),
+            "marginal": bool(p.marginal[i]),
+            "handover_level_v": num(p.handover_out_v[i]),
+            "flat_level_v": num(p.flat_level_v[i]),
+            "glitch_v": num(p.glitch_v[i]),
+            "thd_estimate": num(p.thd_estimate[i]),
+            "min_source_current_a": num(p.min_source_a[i]),
+            "stage_current_a": num(p.stage_current_a[i]),
+        },
+        "fix": {
+            "needed": bool(fx.needed[i]),
+            "sized": bool(fx.sized[i]),
+            "rail": str(fx.rail[i]) or None,
+            "resistance_ohm": num(fx.r_ohm[i]),
+            "max_resistance_ohm": num(fx.r_max_ohm[i]),
+            "works": bool(fx.works[i]),
+            "applied": bool(fx.applied[i]),
+            "extra_supply_current_a": num(fx.extra_supply_a[i]),
+            "reason": str(fx.reason[i]),
+            "series": fx.series,
+        },
+        "objectives": {
+            name: {"metric": num(r.metrics[name][i]), "utility": num(r.utility[name][i])}
+            for name, _ in r.requirements.objectives
+        },
+    }
+    if checks:
+        out["checks"] = part_checks(r, i)
+    return out
+
+
+def hint_dict(h: Hint) -> dict[str, Any]:
+    """A relaxation hint as plain data."""
+
+    def val(v: Any) -> Any:
+        return num(v) if isinstance(v, int | float) and not isinstance(v, bool) else v
+
+    return {
+        "requirement": h.requirement,
+        "pointer": h.pointer,
+        "unit": h.unit,
+        "current": val(h.current),
+        "change": num(h.change),
+        "steps": [
+            {"value": val(s.value), "admits": s.admits, "parts": list(s.parts)} for s in h.steps
+        ],
+    }
+
+
+def ranking_dict(r: Ranking, top: int | None = None, *, checks: bool = True) -> dict[str, Any]:
+    """The whole ranking as plain data (format ``partsel.ranking/1``).
+
+    ``top``: number of parts listed, in ranking order (None or 0: all).
+    """
+    order = r.order if not top else r.order[:top]
+    req = r.requirements
+    return {
+        "format": FORMAT,
+        "design": {"name": r.design.name, "source": r.design.source},
+        "basis": req.basis,
+        "requirements": req.to_mapping(),
+        "caution": CAUTION,
+        "thd_definition": THD_LABEL,
+        "score": {
+            "formula": SCORE_FORMULA,
+            "objectives": [
+                {
+                    "name": name,
+                    "weight": w,
+                    "direction": OBJECTIVE_BY_NAME[name].direction,
+                    "unit": OBJECTIVE_BY_NAME[name].unit,
+                    "floor": num(OBJECTIVE_BY_NAME[name].floor),
+                    "cap": num(OBJECTIVE_BY_NAME[name].cap),
+                }
+                for name, w in req.objectives
+            ],
+        },
+        "pareto_objectives": list(req.pareto_objectives),
+        "checks": check_defs(),
+        "summary": {
+            "parts": r.n,
+            "feasible": r.n_feasible,
+            "pareto": int(r.pareto.sum()),
+            "listed": len(order),
+        },
+        "parts": [part_dict(r, int(i), checks=checks) for i in order],
+        "hints": [hint_dict(h) for h in r.hints],
+    }
+
+
+def ranking_frame(r: Ranking, top: int | None = None) -> pd.DataFrame:
+    """One CSV row per part in ranking order (SI units, unit in the column name)."""
+    order = r.order if not top else r.order[:top]
+    t, p, fx, ch = r.table, r.prediction, r.fix, r.checks
+    b = r.binding[order]
+    has_b = b >= 0
+    bj = np.maximum(b, 0)
+    names = np.array(C.CHECK_NAMES, dtype=object)
+    units = np.array([c.unit for c in C.CHECKS], dtype=object)
+    cols: dict[str, Any] = {
+        "rank": pd.array(np.where(r.rank[order] > 0, r.rank[order], 0), dtype="Int64"),
+        "part_number": t.part_number[order],
+        "maker": t.text("maker")[order],
+        "topology": t.topology[order],
+        "channels": t.channels[order],
+        "lifecycle": t.lifecycle[order],
+        "feasible": r.feasible[order],
+        "score": r.score[order],
+        "pareto": r.pareto[order],
+        "n_failing": r.n_failing[order],
+        "binding_check": np.where(has_b, names[bj], ""),
+        "binding_unit": np.where(has_b, units[bj], ""),
+        "binding_margin": np.where(has_b, ch.margin[order, bj], np.nan),
+        "binding_ratio": np.where(has_b, ch.ratio[order, bj], np.nan),
+        "verdict": [verdict_text(r, int(i)) for i in order],
+        "handover_level_v": p.handover_out_v[order],
+        "glitch_v": p.glitch_v[order],
+        "thd_estimate": p.thd_estimate[order],
+        "fix_rail": fx.rail[order],
+        "fix_r_ohm": fx.r_ohm[order],
+        "fix_applied": fx.applied[order],
+        "supply_current_a": ch.value[order, C.IDX["supply_current"]],
+        "price": ch.value[order, C.IDX["price"]],
+    }
+    status_names = np.array(C.STATUS_NAMES, dtype=object)
+    for j, c in enumerate(C.CHECKS):
+        cols[f"{c.name}_status"] = status_names[ch.status[order, j]]
+        if c.sense != "is":
+            slug = _UNIT_SLUG.get(c.unit, "")
+            cols[f"{c.name}_margin" + (f"_{slug}" if slug else "")] = ch.margin[order, j]
+            cols[f"{c.name}_ratio"] = ch.ratio[order, j]
+    df = pd.DataFrame(cols)
+    df.loc[df["rank"] == 0, "rank"] = pd.NA
+    return df.replace([np.inf, -np.inf], np.nan)
+
+
+# ---- JSON Schema ------------------------------------------------------------------------------
+
+
+def _n(description: str, unit: str = "") -> dict[str, Any]:
+    text = description + (f" Unit: {unit}." if unit else "")
+    return {"description": text, "type": ["number", "null"]}
+
+
+def ranking_schema() -> dict[str, Any]:
+    """JSON Schema (draft 2020-12) of the JSON output of ``partsel rank --json``."""
+    margin_ref = {
+        "type": ["object", "null"],
+        "additionalProperties": False,
+        "required": ["check", "status", "unit", "margin", "ratio"],
+        "properties": {
+            "check": {"enum": list(C.CHECK_NAMES)},
+            "status": {"enum": list(C.STATUS_NAMES)},
+            "unit": {"type": "string"},
+            "margin": _n("Signed margin in the check's unit (>= 0 passes)."),
+            "ratio": _n("Margin ratio (>= 1 passes); null where a ratio means nothing."),
+        },
+    }
+    check_row = {
+        "type": "object",
+        "additionalProperties": False,
+        "required": ["check", "status", "unit", "value", "limit", "margin", "ratio"],
+        "properties": {
+            "check": {"enum": list(C.CHECK_NAMES)},
+            "status": {"enum": list(C.STATUS_NAMES)},
+            "unit": {"type": "string"},
+            "value": {
+                "description": "The part's value (a text or list for categorical checks).",
+                "type": ["number", "string", "null"],
+            },
+            "limit": {
+                "description": "The limit it is compared with.",
+                "type": ["number", "array", "null"],
+            },
+            "margin": _n("Signed margin in the check's unit."),
+            "ratio": _n("Margin ratio."),
+            "values_used": {
+                "description": "Side of each parameter's range used (min / typ / max / mid).",
+                "type": "object",
+                "additionalProperties": {"type": "string"},
+            },
+        },
+    }
+    part = {
+        "type": "object",
+        "additionalProperties": False,
+        "required": [
+            "rank",
+            "part_number",
+            "maker",
+            "topology",
+            "channels",
+            "lifecycle",
+            "feasible",
+            "score",
+            "pareto",
+            "n_failing",
+            "binding",
+            "tightest",
+            "prediction",
+            "fix",
+            "objectives",
+        ],
+        "properties": {
+            "rank": {
+                "description": "1 for the best feasible part; null when rejected.",
+                "type": ["integer", "null"],
+                "minimum": 1,
+            },
+            "part_number": {"type": "string"},
+            "maker": {"type": "string"},
+            "topology": {"type": "string"},
+            "channels": _n("Channels per package."),
+            "lifecycle": {"type": "string"},
+            "feasible": {"type": "boolean"},
+            "score": {
+                "description": "0..100 for feasible parts (see score.formula); null else.",
+                "type": ["number", "null"],
+                "minimum": 0,
+                "maximum": 100,
+            },
+            "pareto": {
+                "description": "In the Pareto set of the feasible parts.",
+                "type": "boolean",
+            },
+            "n_failing": {"type": "integer", "minimum": 0},
+            "binding": {
+                **margin_ref,
+                "description": "The check that rejects the part most "
+                "severely (smallest ratio); null when feasible.",
+            },
+            "tightest": {**margin_ref, "description": "The passing check with the smallest ratio."},
+            "prediction": {
+                "type": "object",
+                "additionalProperties": False,
+                "required": ["verdict", "handover", "glitch_v", "thd_estimate"],
+                "properties": {
+                    "verdict": {
+                        "enum": ["changes-mode", "marginal", "biased-crossover", "one-mode"]
+                    },
+                    "handover": {"type": "boolean"},
+                    "marginal": {"type": "boolean"},
+                    "handover_level_v": _n("Ideal output level at the handover.", "V"),
+                    "flat_level_v": _n("Level the load holds the output at meanwhile.", "V"),
+                    "glitch_v": _n("Predicted crossover glitch, as designed.", "V"),
+                    "thd_estimate": _n(THD_LABEL + ", as designed.", "1"),
+                    "min_source_current_a": _n("Smallest source-device current.", "A"),
+                    "stage_current_a": _n("Stage current on the basis.", "A"),
+                },
+            },
+            "fix": {
+                "type": "object",
+                "additionalProperties": False,
+                "required": ["needed", "sized", "rail", "resistance_ohm", "works", "applied"],
+                "properties": {
+                    "needed": {"type": "boolean"},
+                    "sized": {"type": "boolean"},
+                    "rail": {"enum": ["negative", "positive", "none", None]},
+                    "resistance_ohm": _n("E-series fix resistor.", "ohm"),
+                    "max_resistance_ohm": _n("Largest resistor that works.", "ohm"),
+                    "works": {"type": "boolean"},
+                    "applied": {
+                        "description": "The verdict is for the part with the resistor.",
+                        "type": "boolean",
+                    },
+                    "extra_supply_current_a": _n("Extra supply current per channel.", "A"),
+                    "reason": {"type": "string"},
+                    "series": {"type": "string"},
+                },
+            },
+            "objectives": {
+                "type": "object",
+                "propertyNames": {"enum": list(OBJECTIVE_BY_NAME)},
+                "additionalProperties": {
+                    "type": "object",
+                    "additionalProperties": False,
+                    "required": ["metric", "utility"],
+                    "properties": {
+                        "metric": _n("Raw metric."),
+                        "utility": _n("u_k, 0 best .. 1 worst."),
+                    },
+                },
+            },
+            "checks": {"type": "array", "items": check_row},
+        },
+    }
+    hint = {
+        "type": "object",
+        "additionalProperties": False,
+        "required": ["requirement", "pointer", "unit", "current", "change", "steps"],
+        "properties": {
+            "requirement": {"type": "string"},
+            "pointer": {
+                "description": "JSON pointer of the requirement in the design file.",
+                "type": "string",
+            },
+            "unit": {"type": "string"},
+            "current": {"description": "Present value (number, list or mode)."},
+            "change": _n("Relative change of the first step; null for lists and modes."),
+            "steps": {
+                "type": "array",
+                "minItems": 1,
+                "items": {
+                    "type": "object",
+                    "additionalProperties": False,
+                    "required": ["value", "admits", "parts"],
+                    "properties": {
+                        "value": {"description": "Relaxed value (number, list or mode)."},
+                        "admits": {"type": "integer", "minimum": 1},
+                        "parts": {"type": "array", "items": {"type": "string"}},
+                    },
+                },
+            },
+        },
+    }
+    return {
+        "$schema": "https://json-schema.org/draft/2020-12/schema",
+        "$id": "urn:partsel:schema:ranking:1",
+        "title": "partsel ranking",
+        "description": "Output of `partsel rank --json`: every part's verdict for one design. "
+        "SI units; null where a value is not a finite number.",
+        "type": "object",
+        "additionalProperties": False,
+        "required": [
+            "format",
+            "design",
+            "basis",
+            "requirements",
+            "caution",
+            "thd_definition",
+            "score",
+            "pareto_objectives",
+            "checks",
+            "summary",
+            "parts",
+            "hints",
+        ],
+        "properties": {
+            "format": {"const": FORMAT},
+            "design": {
+                "type": "object",
+                "additionalProperties": False,
+                "required": ["name", "source"],
+                "properties": {"name": {"type": "string"}, "source": {"type": ["string", "null"]}},
+            },
+            "basis": {"enum": ["worst-case", "typical"]},
+            "requirements": {
+                "description": "Requirements with defaults filled (SI numbers).",
+                "type": "object",
+            },
+            "caution": {"type": "string"},
+            "thd_definition": {"type": "string"},
+            "score": {
+                "type": "object",
+                "required": ["formula", "objectives"],
+                "properties": {
+                    "formula": {"type": "string"},
+                    "objectives": {"type": "array", "items": {"type": "object"}},
+                },
+            },
+            "pareto_objectives": {
+                "type": "array",
+                "items": {"enum": list(OBJECTIVE_BY_NAME)},
+                "minItems": 2,
+                "maxItems": 3,
+            },
+            "checks": {"type": "array", "items": {"type": "object"}},
+            "summary": {
+                "type": "object",
+                "additionalProperties": False,
+                "required": ["parts", "feasible", "pareto", "listed"],
+                "properties": {
+                    k: {"type": "integer", "minimum": 0}
+                    for k in ("parts", "feasible", "pareto", "listed")
+                },
+            },
+            "parts": {"type": "array", "items": part},
+            "hints": {"type": "array", "items": hint},
+        },
+    }
+
+
+def ranking_schema_json() -> str:
+    """The schema as the committed file's text (indent 2, final newline)."""
+    return json.dumps(ranking_schema(), indent=2, ensure_ascii=False) + "\n"
