@@ -44,6 +44,7 @@ from jsonschema import Draft202012Validator
 
 from partsel.errors import InputError, Problem, json_pointer
 from partsel.physics.circuit import ClosedLoop, Design, Load, Signal, Supply
+from partsel.solver import requirements as req_mod
 from partsel.units import UNIT_LABEL, format_si, parse_quantity
 
 #: Value of the optional ``format`` field this version reads and writes.
@@ -174,6 +175,154 @@ def _quantity_schema(q: _Quantity) -> dict[str, Any]:
     return out
 
 
+def _requirements_schema() -> dict[str, Any]:
+    """Schema of the ``[requirements]`` table, built from the solver's registry
+    (:mod:`partsel.solver.requirements`)."""
+    limits: dict[str, Any] = {}
+    for d in req_mod.LIMITS:
+        q = _Quantity(d.dimension, d.description, d.example)
+        node = _quantity_schema(q)
+        if d.default is not None:
+            node["default"] = d.default
+        limits[d.key] = node
+    for c in req_mod.CHOICES:
+        item: dict[str, Any] = (
+            {"type": "string", "minLength": 1} if c.values is None else {"enum": list(c.values)}
+        )
+        limits[c.key] = {
+            "description": f"{c.description}; unitless list (any value when absent).",
+            "x-unit": "",
+            "type": "array",
+            "items": item,
+            "minItems": 1,
+            "uniqueItems": True,
+            "examples": [c.example],
+        }
+    objectives = {
+        d.name: {
+            "description": f"Weight of the objective: {d.description} ({d.direction}imise). "
+            "Unit: 1 (a weight >= 0).",
+            "x-unit": "1",
+            "type": "number",
+            "minimum": 0,
+        }
+        for d in req_mod.OBJECTIVES
+    }
+    defaults = ", ".join(f"{n} = {w:g}" for n, w in req_mod.DEFAULT_OBJECTIVES)
+    return {
+        "description": "Ranking requirements: value basis, conduction mode, hard limits and "
+        "weighted soft objectives (see partsel.solver.requirements); units as stated by their "
+        "own fields.",
+        "type": "object",
+        "properties": {
+            "basis": {
+                "description": "Value basis: 'worst-case' (guaranteed values, the pessimistic "
+                "side of every range) or 'typical'; unitless keyword.",
+                "x-unit": "",
+                "enum": list(req_mod.BASES),
+                "default": "worst-case",
+            },
+            "conduction": {
+                "description": "Output-stage conduction: 'no-change' (must stay in one mode), "
+                "'fix-allowed' (or with partsel's fix resistor), 'allowed' (a handover is "
+                "accepted; glitch and THD limits still apply); unitless keyword.",
+                "x-unit": "",
+                "enum": list(req_mod.CONDUCTION_MODES),
+                "default": "fix-allowed",
+            },
+            "fix_series": {
+                "description": "IEC 60063 series of the fix resistor; unitless keyword.",
+                "x-unit": "",
+                "enum": list(req_mod.FIX_SERIES),
+                "default": "E24",
+            },
+            "limits": {
+                "description": "Hard limits: a part failing one is rejected.",
+                "type": "object",
+                "additionalProperties": False,
+                "properties": limits,
+            },
+            "objectives": {
+                "description": "Soft objectives and their weights (score of feasible parts); "
+                f"default {defaults}.",
+                "type": "object",
+                "additionalProperties": False,
+                "properties": objectives,
+            },
+            "pareto": {
+                "description": "Two or three objectives of the Pareto set (default: the "
+                "heaviest); unitless list of names.",
+                "x-unit": "",
+                "type": "array",
+                "items": {"enum": [d.name for d in req_mod.OBJECTIVES]},
+                "minItems": 2,
+                "maxItems": 3,
+                "uniqueItems": True,
+            },
+        },
+    }
+
+
+def _requirements_key_problems(
+    data: Mapping[str, Any], file: str | None, record: str | None
+) -> list[Problem]:
+    """Unknown fields directly under ``[requirements]`` (the schema leaves that table open)."""
+    raw = data.get("requirements")
+    if not isinstance(raw, Mapping):
+        return []
+    allowed = list(req_mod.TOP_KEYS)
+    out = []
+    for key in raw:
+        if key not in allowed:
+            close = difflib.get_close_matches(str(key), allowed, n=1)
+            hint = f"did you mean {close[0]!r}?" if close else "allowed here: " + ", ".join(allowed)
+            out.append(
+                Problem(
+                    f"unknown field {key!r}; {hint}",
+                    file,
+                    record,
+                    json_pointer("requirements", key),
+                )
+            )
+    return out
+
+
+def _read_requirements(
+    data: Mapping[str, Any], file: str | None, record: str | None
+) -> tuple[dict[str, Any] | None, list[Problem]]:
+    """The ``[requirements]`` table with quantities in SI (the canonical mapping of
+    :meth:`partsel.solver.requirements.Requirements.from_mapping`), and its unit problems.
+
+    Only the fields given are kept (defaults are the solver's), so that writing the design
+    back gives the same table.
+    """
+    raw = data.get("requirements")
+    if raw is None:
+        return None, []
+    problems: list[Problem] = []
+    out = copy.deepcopy(dict(raw))
+    limits = raw.get("limits")
+    if isinstance(limits, Mapping):
+        parsed: dict[str, Any] = {}
+        for key, value in limits.items():
+            d = req_mod.LIMIT_BY_KEY.get(key)
+            if d is None:
+                parsed[key] = copy.deepcopy(value)
+                continue
+            try:
+                parsed[key] = parse_quantity(
+                    value,
+                    d.dimension,
+                    field=json_pointer("requirements", "limits", key),
+                    file=file,
+                    record=record,
+                )
+            except InputError as exc:
+                problems.extend(exc.problems)
+        out["limits"] = parsed
+    return out, problems
+
+
 def design_schema() -> dict[str, Any]:
     """JSON Schema (draft 2020-12) of a design file, as committed in ``data-schema/``."""
     sections: dict[str, dict[str, Any]] = {
@@ -256,11 +405,7 @@ def design_schema() -> dict[str, Any]:
                 "type": "string",
             },
             **sections,
-            "requirements": {
-                "description": "Ranking requirements; units as stated by their own fields. "
-                "Reserved: accepted as an object and passed through unchanged.",
-                "type": "object",
-            },
+            "requirements": _requirements_schema(),
         },
     }
 
@@ -505,6 +650,7 @@ def design_from_mapping(data: Mapping[str, Any], source: str | None = None) -> D
     name = raw_name if isinstance(raw_name, str) and raw_name.strip() else (stem or "design")
     record = name
     problems = _schema_problems(data, source, record)
+    problems += _requirements_key_problems(data, source, record)
     if problems:
         raise InputError(problems=problems)
 
@@ -525,6 +671,8 @@ def design_from_mapping(data: Mapping[str, Any], source: str | None = None) -> D
     r_pos = r.get("load", "to_positive_rail")
     t_min = r.get("environment", "ambient_min")
     t_max = r.get("environment", "ambient_max")
+    requirements, req_problems = _read_requirements(data, source, record)
+    r.problems.extend(req_problems)
     if r.problems:
         raise InputError(problems=r.problems)
 
@@ -601,6 +749,10 @@ def design_from_mapping(data: Mapping[str, Any], source: str | None = None) -> D
             "environment",
             "ambient_min",
         )
+    try:
+        req_mod.Requirements.from_mapping(requirements, file=source, record=record)
+    except InputError as exc:
+        r.problems.extend(exc.problems)
 
     design = Design(
         name=name,
@@ -626,7 +778,7 @@ def design_from_mapping(data: Mapping[str, Any], source: str | None = None) -> D
         t_ambient_min_c=t_min,
         t_ambient_max_c=t_max,
         channels_used=int(data.get("environment", {}).get("channels_used", 1)),
-        requirements=copy.deepcopy(data["requirements"]) if "requirements" in data else None,
+        requirements=requirements,
         source=source,
     )
 
@@ -756,7 +908,19 @@ def design_to_mapping(design: Design) -> dict[str, Any]:
         "environment": env,
     }
     if design.requirements is not None:
-        out["requirements"] = copy.deepcopy(design.requirements)
+        out["requirements"] = _requirements_to_mapping(design.requirements)
+    return out
+
+
+def _requirements_to_mapping(req: Mapping[str, Any]) -> dict[str, Any]:
+    """The canonical requirements with quantity limits as readable strings (for saving)."""
+    out = copy.deepcopy(dict(req))
+    limits = out.get("limits")
+    if isinstance(limits, dict):
+        for key, value in limits.items():
+            d = req_mod.LIMIT_BY_KEY.get(key)
+            if d is not None and d.dimension not in ("dimensionless", "price"):
+                limits[key] = format_quantity(value, d.dimension)
     return out
 
 
