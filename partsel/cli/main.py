@@ -11,7 +11,7 @@ from typing import Annotated
 
 import typer
 
-from partsel.cli import catalogue_cmds, predict_cmds
+from partsel.cli import catalogue_cmds, predict_cmds, rank_cmds
 from partsel.cli.common import AppState, ExitCode
 
 app = typer.Typer(
@@ -22,7 +22,7 @@ app = typer.Typer(
 )
 
 #: Command modules; each has ``register(app: typer.Typer) -> None``.
-COMMAND_MODULES = (catalogue_cmds, predict_cmds)
+COMMAND_MODULES = (catalogue_cmds, predict_cmds, rank_cmds)
 
 
 @app.callback(invoke_without_command=True)

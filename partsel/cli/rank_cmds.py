@@ -1,0 +1,432 @@
+"""Ranking commands: ``rank`` (shortlist for a design) and ``explain`` (one part's verdict).
+
+``rank`` exits 0 when at least one part is feasible, 1 when none is, 2 for bad input;
+``explain`` exits 0 when the part is feasible, 1 when it is rejected, 2 for bad input.
+Every glitch and THD figure is the closed-form estimate of partsel's macro-model.
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+from pathlib import Path
+from typing import Annotated, Any
+
+import numpy as np
+import typer
+from rich.table import Table
+
+from partsel.catalogue import parts_frame
+from partsel.cli.common import (
+    ExitCode,
+    JsonFlag,
+    bad_input_exits,
+    echo_json,
+    engine,
+    fail_bad_input,
+    message,
+    out_console,
+)
+from partsel.design import load_design
+from partsel.errors import InputError
+from partsel.solver import PartTable, Ranking, Requirements, rank
+from partsel.solver import checks as C
+from partsel.solver.export import (
+    CAUTION,
+    THD_LABEL,
+    part_checks,
+    part_dict,
+    ranking_dict,
+    ranking_frame,
+    verdict_text,
+)
+from partsel.solver.pareto import dominators
+from partsel.solver.relax import part_relaxation
+from partsel.solver.requirements import BASES, LIMIT_BY_KEY
+from partsel.units import format_si
+
+DesignArg = Annotated[Path, typer.Argument(help="Design file (.toml, .yaml or .json).")]
+BasisOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--basis",
+        "-b",
+        help="Value basis, overriding the design's: 'worst-case' or 'typical'.",
+    ),
+]
+
+
+def _solve(ctx: typer.Context, design_path: Path, basis: str | None) -> Ranking:
+    """Load the design and the catalogue, rank (InputError for bad input)."""
+    design = load_design(design_path)
+    req = Requirements.from_mapping(design.requirements, file=str(design_path), record=design.name)
+    if basis is not None:
+        if basis not in BASES:
+            raise InputError(f"unknown basis {basis!r}: use {' or '.join(BASES)}", pointer="/basis")
+        req = req.replace(basis=basis)
+    table = PartTable(parts_frame(engine(ctx)))
+    return rank(table, design, req)
+
+
+# ---- formatting for people --------------------------------------------------------------------
+
+
+def fmt_unit(value: float | None, unit: str) -> str:
+    """A value with its unit for people ('—' when missing)."""
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "—" if value is None or math.isnan(value) else ("∞" if value > 0 else "-∞")
+    if unit == "1":
+        return f"{value:.3g}"
+    if unit == "degC":
+        return f"{value:.4g} °C"
+    if unit == "V/s":
+        return f"{value * 1e-6:.3g} V/µs"
+    if unit == "currency unit":
+        return f"{value:.2f}"
+    if unit == "V/V":
+        return f"{value:.3g} V/V"
+    if unit == "V/rtHz":
+        return format_si(value, "V/√Hz")
+    return format_si(value, unit)
+
+
+def fmt_thd(x: float) -> str:
+    """THD as a percentage."""
+    return "—" if not math.isfinite(x) else f"{100 * x:.2g} %"
+
+
+#: Short topology labels for the table.
+_TOPO = {
+    "class-a": "A",
+    "class-b-pulldown": "B+pd",
+    "class-ab": "AB",
+    "cmos-rail-to-rail": "CMOS",
+}
+
+
+def _console() -> Any:
+    """Console for data on stdout: 120 columns when not a terminal (files, pipes)."""
+    con = out_console()
+    if not con.is_terminal:
+        con.width = 120
+    return con
+
+
+def _crossover(r: Ranking, i: int) -> str:
+    """Handover of the output stage: the output level where it happens, or none."""
+    v = verdict_text(r, i)
+    if v == "changes-mode":
+        lvl = r.prediction.handover_out_v[i]
+        return f"at {lvl:.3g} V" if math.isfinite(lvl) else "yes"
+    return {"marginal": "marginal", "biased-crossover": "none (biased)", "one-mode": "none"}[v]
+
+
+def _fix(r: Ranking, i: int) -> str:
+    fx = r.fix
+    if not fx.needed[i]:
+        return "—"
+    if not fx.sized[i]:
+        return "not sized"
+    if not fx.works[i]:
+        return "none works"
+    rail = "V−" if fx.rail[i] == "negative" else "V+"
+    mark = " ✓" if fx.applied[i] else ""
+    return f"{format_si(float(fx.r_ohm[i]), 'Ω')} to {rail}{mark}"
+
+
+def _miss(r: Ranking, i: int, j: int) -> str:
+    c = C.CHECKS[j]
+    st = int(r.checks.status[i, j])
+    if st == C.UNKNOWN:
+        return "no data"
+    m = r.checks.margin[i, j]
+    rt = r.checks.ratio[i, j]
+    if c.sense == "is" or not math.isfinite(m):
+        if c.name == "fix_resistor":
+            return str(r.fix.reason[i]) or "no resistor works"
+        return "not accepted"
+    text = f"{fmt_unit(float(m), c.unit)}"
+    if math.isfinite(rt):
+        text += f" (×{rt:.2f})"
+    return text
+
+
+def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
+    t = Table(title=None, show_lines=False)
+    for head in (
+        "#",
+        "Part",
+        "Stage",
+        "Score",
+        "Pareto",
+        "Handover",
+        "Glitch",
+        "THD est.",
+        "Fix",
+        "Supply I",
+        "Price",
+        "Tightest check",
+    ):
+        t.add_column(head, no_wrap=head in ("Part", "Fix"))
+    ch = r.checks
+    for i in rows:
+        j = int(r.tightest[i])
+        tight = "—" if j < 0 else f"{C.CHECKS[j].name} ×{ch.ratio[i, j]:.2g}"
+        t.add_row(
+            str(r.rank[i]),
+            str(r.table.part_number[i]),
+            _TOPO.get(str(r.table.topology[i]), str(r.table.topology[i])),
+            f"{r.score[i]:.1f}",
+            "yes" if r.pareto[i] else "",
+            _crossover(r, i),
+            fmt_unit(float(r.prediction.glitch_v[i]), "V") if r.prediction.handover[i] else "—",
+            fmt_thd(float(r.prediction.thd_estimate[i])),
+            _fix(r, i),
+            fmt_unit(float(ch.value[i, C.IDX["supply_current"]]), "A"),
+            fmt_unit(float(ch.value[i, C.IDX["price"]]), "currency unit"),
+            tight,
+        )
+    return t
+
+
+def _miss_table(r: Ranking, rows: np.ndarray) -> Table:
+    t = Table(title="Nearest misses")
+    for head in ("Part", "Maker", "Stage", "Fails", "Binding check", "Misses by", "Fix"):
+        t.add_column(head, no_wrap=head == "Part")
+    for i in rows:
+        j = int(r.binding[i])
+        t.add_row(
+            str(r.table.part_number[i]),
+            str(r.table.text("maker")[i]),
+            _TOPO.get(str(r.table.topology[i]), str(r.table.topology[i])),
+            str(int(r.n_failing[i])),
+            C.CHECKS[j].name,
+            _miss(r, i, j),
+            _fix(r, i),
+        )
+    return t
+
+
+def _hint_value(requirement: str, unit: str, value: Any) -> str:
+    if isinstance(value, list | tuple):
+        return ", ".join(str(v) for v in value)
+    if isinstance(value, str):
+        return value
+    if requirement in LIMIT_BY_KEY and LIMIT_BY_KEY[requirement].dimension == "dimensionless":
+        if requirement in ("max_thd", "max_gain_error"):
+            return f"{100 * value:.3g} %"
+        return f"{value:.3g}"
+    return fmt_unit(float(value), unit)
+
+
+def hint_lines(r: Ranking, limit: int = 6) -> list[str]:
+    """Relaxation hints as sentences."""
+    out = []
+    for h in r.hints[:limit]:
+        first, last = h.steps[0], h.steps[-1]
+        cur = _hint_value(h.requirement, h.unit, h.current)
+        line = (
+            f"relax {h.requirement} from {cur} to "
+            f"{_hint_value(h.requirement, h.unit, first.value)}: +{first.admits} "
+            f"({', '.join(first.parts)})"
+        )
+        if last is not first:
+            line += f"; to {_hint_value(h.requirement, h.unit, last.value)}: +{last.admits}"
+        out.append(line)
+    return out
+
+
+# ---- commands ---------------------------------------------------------------------------------
+
+
+def rank_cmd(
+    ctx: typer.Context,
+    design: DesignArg,
+    top: Annotated[int, typer.Option("--top", "-n", help="Parts to list (0: all).", min=0)] = 10,
+    basis: BasisOpt = None,
+    json_out: JsonFlag = False,
+    csv_out: Annotated[
+        bool, typer.Option("--csv", help="Print CSV on stdout (one row per listed part).")
+    ] = False,
+) -> None:
+    """Rank the catalogue for a design: feasible parts by score, then the nearest misses.
+
+    Exit code 0 when at least one part is feasible, 1 when none is, 2 for bad input.
+    """
+    with bad_input_exits(json_out=json_out):
+        if json_out and csv_out:
+            raise InputError("choose one of --json and --csv", pointer="/json")
+        r = _solve(ctx, design, basis)
+    code = ExitCode.OK if r.n_feasible > 0 else ExitCode.FINDINGS
+    if json_out:
+        echo_json(ranking_dict(r, top or None))
+        raise typer.Exit(code)
+    if csv_out:
+        ranking_frame(r, top or None).to_csv(sys.stdout, index=False)
+        raise typer.Exit(code)
+    con = _console()
+    req = r.requirements
+    con.print(
+        f"[bold]{r.design.name}[/bold]: {r.n_feasible} of {r.n} parts feasible "
+        f"({req.basis} basis, conduction {req.conduction}; Pareto over "
+        f"{', '.join(req.pareto_objectives)})"
+    )
+    k = top or r.n
+    feas = r.order[: min(k, r.n_feasible)]
+    if feas.size:
+        con.print(_rank_table(r, feas))
+    if r.n_feasible < min(k, 5):
+        rej = r.order[r.n_feasible : r.n_feasible + max(3, min(k, 10) - feas.size)]
+        if rej.size:
+            con.print(_miss_table(r, rej))
+        lines = hint_lines(r)
+        if lines:
+            con.print("Relaxation hints (one requirement at a time):")
+            for line in lines:
+                con.print(f"  {line}")
+    message(f"THD est.: {THD_LABEL}. Fix ✓: the verdict is for the part with that resistor.")
+    message(CAUTION)
+    raise typer.Exit(code)
+
+
+def explain(
+    ctx: typer.Context,
+    design: DesignArg,
+    part: Annotated[str, typer.Argument(help="Part number.")],
+    basis: BasisOpt = None,
+    json_out: JsonFlag = False,
+) -> None:
+    """Explain one part's verdict in a design in full: every check, the fix, the score.
+
+    Exit code 0 when the part is feasible, 1 when it is rejected, 2 for bad input.
+    """
+    with bad_input_exits(json_out=json_out):
+        r = _solve(ctx, design, basis)
+    try:
+        i = r.index(part)
+    except KeyError:
+        fail_bad_input(
+            InputError(f"no part {part!r} in the catalogue", record=part, pointer="/part"),
+            json_out=json_out,
+        )
+    feas_idx = np.flatnonzero(r.feasible)
+    dom = (
+        dominators(r.pareto_costs, i, among=feas_idx)
+        if r.feasible[i] and not r.pareto[i]
+        else np.array([], dtype=int)
+    )
+    dom = dom[np.argsort(r.table.part_key[dom], kind="stable")]
+    code = ExitCode.OK if r.feasible[i] else ExitCode.FINDINGS
+    own_hints = part_relaxation(r, i)
+    if json_out:
+        data = part_dict(r, i)
+        data["design"] = {"name": r.design.name, "source": r.design.source}
+        data["basis"] = r.requirements.basis
+        data["dominated_by"] = [str(r.table.part_number[k]) for k in dom]
+        data["thd_definition"] = THD_LABEL
+        data["relax"] = [
+            {"requirement": k, "unit": u, "current": c, "value": v} for k, u, c, v in own_hints
+        ]
+        echo_json(data)
+        raise typer.Exit(code)
+    _explain_text(r, i, dom, own_hints)
+    message(CAUTION)
+    raise typer.Exit(code)
+
+
+def _explain_text(r: Ranking, i: int, dom: np.ndarray, own_hints: list[Any]) -> None:
+    con = _console()
+    t, req, p, fx = r.table, r.requirements, r.prediction, r.fix
+    con.print(
+        f"[bold]{t.part_number[i]}[/bold]  {t.text('maker')[i]} — {t.topology[i]}, "
+        f"{int(t.channels[i]) if math.isfinite(t.channels[i]) else '?'} channel(s), "
+        f"{t.lifecycle[i]}"
+    )
+    con.print(f"design: {r.design.name} ({req.basis} basis, conduction {req.conduction})")
+    if r.feasible[i]:
+        where = "in the Pareto set" if r.pareto[i] else "not in the Pareto set"
+        con.print(
+            f"verdict: [bold]feasible[/bold], rank {r.rank[i]} of {r.n_feasible}, "
+            f"score {r.score[i]:.1f}, {where} ({', '.join(req.pareto_objectives)})"
+        )
+        if dom.size:
+            names = ", ".join(str(t.part_number[k]) for k in dom[:8])
+            con.print(f"  dominated by: {names}")
+    else:
+        j = int(r.binding[i])
+        con.print(
+            f"verdict: [bold]rejected[/bold] by {int(r.n_failing[i])} check(s); binding: "
+            f"{C.CHECKS[j].name}, misses by {_miss(r, i, j)}"
+        )
+    cross = _crossover(r, i)
+    line = f"handover (closed form): {cross}"
+    if p.handover[i]:
+        line += (
+            f", output held near {fmt_unit(float(p.flat_level_v[i]), 'V')}, glitch "
+            f"{fmt_unit(float(p.glitch_v[i]), 'V')}, THD estimate "
+            f"{fmt_thd(float(p.thd_estimate[i]))}"
+        )
+    con.print(line)
+    con.print(
+        f"  smallest source current {fmt_unit(float(p.min_source_a[i]), 'A')} "
+        f"(stage current {fmt_unit(float(p.stage_current_a[i]), 'A')})"
+    )
+    if fx.needed[i]:
+        if not fx.sized[i]:
+            con.print("fix: not sized (the part is rejected by other checks)")
+        elif fx.works[i]:
+            rail = "V−" if fx.rail[i] == "negative" else "V+"
+            con.print(
+                f"fix: {format_si(float(fx.r_ohm[i]), 'Ω')} ({fx.series}) to {rail} "
+                f"(largest that works {format_si(float(fx.r_max_ohm[i]), 'Ω')}), extra supply "
+                f"{fmt_unit(float(fx.extra_supply_a[i]), 'A')} per channel"
+                + ("; the verdict is with it fitted" if fx.applied[i] else "")
+            )
+        else:
+            con.print(f"fix: no resistor works ({fx.reason[i]})")
+    table = Table("check", "status", "value", "limit", "margin", "ratio", "values used")
+    ch = r.checks
+    for row, c in zip(part_checks(r, i), C.CHECKS, strict=True):
+        status = row["status"]
+        style = "bold red" if status in ("fail", "unknown") else ""
+        if c.sense == "is":
+            value = str(row["value"])
+            if c.name == "channels" and row["value"] is not None:
+                value = f"{row['value']:g}"
+            lim = "any" if row["limit"] is None else ", ".join(map(str, row["limit"]))
+            margin = ratio = ""
+        else:
+            value = fmt_unit(row["value"], c.unit)
+            lim = fmt_unit(row["limit"], c.unit)
+            margin = fmt_unit(row["margin"], c.unit)
+            ratio = "—" if row["ratio"] is None else f"{row['ratio']:.3g}"
+            if row["ratio"] is None and math.isinf(float(ch.ratio[i, C.IDX[c.name]])):
+                ratio = "∞"
+        sides = " ".join(f"{k}:{v}" for k, v in row["values_used"].items() if v != "none")
+        table.add_row(c.name, f"[{style}]{status}[/]" if style else status, value, lim, margin,
+                      ratio, sides)  # fmt: skip
+    con.print(table)
+    if r.feasible[i]:
+        st = Table("objective", "metric", "u (0 best)", "weight", title="Score")
+        for name, w in req.objectives:
+            u = r.utility[name][i]
+            st.add_row(
+                name,
+                f"{r.metrics[name][i]:.4g}",
+                "—" if not math.isfinite(u) else f"{u:.3f}",
+                f"{w:g}",
+            )
+        con.print(st)
+    if own_hints and not r.feasible[i]:
+        con.print("to admit this part:")
+        for key, unit, current, value in own_hints:
+            con.print(
+                f"  relax {key} from {_hint_value(key, unit, current)} "
+                f"to {_hint_value(key, unit, value)}"
+            )
+
+
+def register(app: typer.Typer) -> None:
+    """Add the ranking commands to ``app``."""
+    app.command("rank")(rank_cmd)
+    app.command("explain")(explain)
