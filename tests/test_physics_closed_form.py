@@ -156,13 +156,17 @@ def test_handover_decided_by_min_current_below_minus_stage_current() -> None:
 def test_class_a_hands_over_when_load_needs_more_than_its_sink_bias() -> None:
     """Class A sinks at most its bias current (design notes section 2): an AC-coupled 10 kohm
     load at 1 V peak needs 100 uA of sink current, more than 50 uA of bias (handover) but less
-    than 150 uA; a DC load to ground never needs sinking. The closed-form glitch of class A is
-    the clip depth flat level - trough = 2.0 V - 1.5 V (common practice)."""
+    than 150 uA; a DC load to ground never needs sinking. With the same load DC-coupled to the
+    2.5 V bias (no coupling capacitor to recharge), the closed-form glitch of class A is the
+    clip depth flat level - trough = 2.0 V - 1.5 V (common practice; the AC-coupled level
+    follows the capacitor's charge balance, tested in test_physics_simulation)."""
     stage = make_stage("class-a", 2, stage_current=[50e-6, 150e-6])
     cf = predict_closed_form(stage, line_design())
     assert list(cf.handover) == [True, False]
-    assert cf.flat_level_v[0] == pytest.approx(2.5 - 50e-6 * 10e3, abs=1e-3)
-    assert cf.glitch_v[0] == pytest.approx(2.0 - 1.5, abs=1e-3)
+    cf_ref = predict_closed_form(stage, line_design(coupling="dc", reference_v=2.5))
+    assert list(cf_ref.handover) == [True, False]
+    assert cf_ref.flat_level_v[0] == pytest.approx(2.5 - 50e-6 * 10e3, abs=1e-3)
+    assert cf_ref.glitch_v[0] == pytest.approx(2.0 - 1.5, abs=1e-3)
     cf_dc = predict_closed_form(stage, line_design(coupling="dc", reference_v=0.0))
     assert not cf_dc.handover.any()
 

@@ -24,7 +24,13 @@ from dataclasses import dataclass
 import numpy as np
 
 from partsel.physics.circuit import Design
-from partsel.physics.loading import admittance, dc_current, ideal_current, thevenin_level
+from partsel.physics.loading import (
+    admittance,
+    dc_current,
+    ideal_current,
+    resistive_branches,
+    thevenin_level,
+)
 from partsel.physics.simulate import MARGINAL_FRACTION
 from partsel.physics.stage import CLASS_A, Basis, StageParams
 
@@ -105,6 +111,42 @@ def _window(a: int, b: int, n: int, pad: int = 3, most: int = 24) -> np.ndarray:
     return idx
 
 
+def _class_a_clip(
+    design: Design, i_bias: np.ndarray, n: int = GRID
+) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Flat level, clip depth and THD_F of a class-A output that cannot sink more than
+    ``i_bias`` (one value per part).
+
+    While clipped the load alone holds the output where it draws ``-i_bias``. With an
+    AC-coupled load the coupling capacitor settles where its mean current is zero, i.e. its
+    far-end level ``L`` equals the mean of the clipped output (a contraction, iterated).
+    THD_F from the Fourier series of the clipped waveform on the grid (coherent, one period).
+    """
+    from partsel.physics.spectrum import DEFAULT_HARMONICS, thd
+
+    _, v, _ = ideal_grid(design, n)
+    ld = design.load
+    ac = ld.r_load_ohm is not None and ld.coupling == "ac"
+    rb = resistive_branches(design)
+    if ac:
+        g_ac = 1.0 / ld.r_load_ohm
+        level = np.full(i_bias.shape, design.out_bias_v)
+        for _ in range(60):
+            flat = (rb.i_s + g_ac * level - i_bias) / (rb.g_s + g_ac)
+            new = np.maximum(v[None, :], flat[:, None]).mean(axis=1)
+            if float(np.max(np.abs(new - level))) < 1e-9:
+                level = new
+                break
+            level = new
+        flat = (rb.i_s + g_ac * level - i_bias) / (rb.g_s + g_ac)
+    else:
+        flat = (rb.i_s - i_bias) / rb.g_s if rb.g_s > 0 else np.full(i_bias.shape, -np.inf)
+    wave = np.maximum(v[None, :], flat[:, None])
+    depth = np.maximum(flat - v.min(), 0.0)
+    n_h = min(DEFAULT_HARMONICS, n // 2 - 1)
+    return flat, depth, thd(wave, 1, n_h, definition="F")
+
+
 def ideal_grid(design: Design, n: int = GRID) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """One period of the ideal waveform: times (s), output (V) and output current (A)."""
     t = np.arange(n) / (n * design.signal.frequency_hz)
@@ -162,9 +204,6 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     tau = np.where(g_fall >= g_rise, tau_f, tau_r)
     slope = np.where(g_fall >= g_rise, s_fall, s_rise)
     is_a = stage.topology == CLASS_A
-    # Class A: the output flattens at the flat level instead of crossing a dead band.
-    clip_depth = np.maximum(flat - (v0 - amp), 0.0)
-    glitch = np.where(is_a, clip_depth, glitch)
     glitch = np.where(handover, glitch, 0.0)
     tau = np.where(handover & ~is_a, tau, 0.0)
     f = design.signal.frequency_hz
@@ -172,9 +211,14 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     # RMS = g sqrt(4 tau f / 3); THD_F estimate = RMS / (amp / sqrt 2).
     with np.errstate(divide="ignore", invalid="ignore"):
         thd_est = np.where(amp > 0, glitch * np.sqrt(4.0 * tau * f / 3.0) / (amp / np.sqrt(2)), 0.0)
-        # Class A clipping: flat-topped loss of the trough; clipped sine estimate.
-        clip_frac = np.clip(clip_depth / np.where(amp > 0, 2 * amp, np.inf), 0, 1)
-        thd_est = np.where(is_a & handover, 1.5 * clip_frac, thd_est)
+    # Class A: the output flattens at the flat level instead of crossing a dead band.
+    clipped = np.flatnonzero(is_a & handover)
+    if clipped.size:
+        level_a, depth_a, thd_a = _class_a_clip(design, i_stage[clipped])
+        flat = np.array(flat, dtype=float, copy=True)
+        flat[clipped] = level_a
+        glitch[clipped] = depth_a
+        thd_est[clipped] = thd_a
 
     # --- currents and swing over the ideal waveform ----------------------------------------
     t, v, i = ideal_grid(design)
@@ -184,11 +228,13 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     # headroom curves only there (keeps the cost O(P) for large catalogues).
     ip = _window(np.argmin(head_pos), np.argmax(i), t.size)
     ineg = _window(np.argmin(head_neg), np.argmin(i), t.size)
-    src_p = np.maximum(i[ip][None, :] + np.where(pulldown, i_stage, 0.0)[:, None], 0.0)
+    # The pull-down current adds to the source current: its pessimistic side here is the high one.
+    i_hi = stage.stage_current_high_a
+    src_p = np.maximum(i[ip][None, :] + np.where(pulldown, i_hi, 0.0)[:, None], 0.0)
     swing_pos = np.min(head_pos[ip][None, :] - stage.headroom_pos(src_p), axis=1)
     snk_n = np.broadcast_to(np.maximum(-i[ineg], 0.0), (p, ineg.size))
     swing_neg = np.min(head_neg[ineg][None, :] - stage.headroom_neg(snk_n), axis=1)
-    src_peak = np.maximum(i_max + np.where(pulldown, i_stage, 0.0), 0.0)
+    src_peak = np.maximum(i_max + np.where(pulldown, i_hi, 0.0), 0.0)
     snk_peak = np.full(p, max(-i_min, 0.0))
 
     # --- input common mode -------------------------------------------------------------------

@@ -97,6 +97,7 @@ def size_fix(
     vpos, vneg = design.supply.v_pos_v, design.supply.v_neg_v
     _, v, i = ideal_grid(design, n_grid)
     i_st = stage.stage_current_a[:, None]
+    i_hi = stage.stage_current_high_a[:, None]
     pulldown = stage.has_pulldown
     # Needed where the source device would fall below the margin (class A/B).
     min_src = i.min() + stage.stage_current_a
@@ -110,7 +111,8 @@ def size_fix(
             if rail == "negative":
                 i_r = (v[None, :] - vneg) / r_lo[:, None]  # current into the resistor
                 i_new = i[None, :] + i_r
-                dev = np.maximum(i_new + i_st, 0.0)  # source device current
+                # Source device current; the pull-down adds to it (pessimistic: its high side).
+                dev = np.maximum(i_new + i_hi, 0.0)
                 peak = dev.max(axis=1)
                 limit_ok = peak <= stage.source_limit_a
                 swing_ok = np.all(vpos - v[None, :] >= stage.headroom_pos(dev), axis=1)

@@ -59,6 +59,7 @@ class SimResult:
     handover: np.ndarray  #: (P,) bool: the stage changed conduction mode
     handover_level_v: np.ndarray  #: (P,) output level at the first handover instant, V
     handover_time_s: np.ndarray  #: (P,) time of the first handover in the record, s
+    unconverged: np.ndarray  #: (P,) bool: the output-node solve missed its tolerance somewhere
 
 
 def default_steps(stage: StageParams, design: Design) -> int:
@@ -96,7 +97,9 @@ def simulate(
     r_to_neg_ohm: float | np.ndarray | None = None,
     r_to_pos_ohm: float | np.ndarray | None = None,
     n_harmonics: int = DEFAULT_HARMONICS,
-    iterations: int = 6,
+    iterations: int = 4,
+    max_iterations: int = 60,
+    tol_v: float = 1e-7,
 ) -> SimResult:
     """Simulate all parts of ``stage`` in ``design`` and analyse the last periods.
 
@@ -174,9 +177,8 @@ def simulate(
     rec_n = n * n_record
     rec = {k: np.empty((rec_n, p)) for k in ("v", "vd", "io", "isrc", "isnk", "ipd")}
     i_cap_sum = np.zeros(p)
+    unconverged = np.zeros(p, dtype=bool)
     shoot_prev: tuple[np.ndarray, np.ndarray] | None = None
-    v_step = abs(a_sig) * w * dt
-    min_width = 1e-4 + 0.0 * v_step
 
     for k in range(total):
         # Per-step constants.
@@ -206,7 +208,7 @@ def simulate(
 
         # Bracket around the linear extrapolation of the last two steps.
         v_pred = 2.0 * v - v_old
-        width = np.abs(v - v_old) + min_width
+        width = 0.1 * np.abs(v - v_old) + 2e-6  # extrapolation is good to second order
         lo = v_pred - width
         hi = v_pred + width
         flo = resid(lo)
@@ -225,9 +227,11 @@ def simulate(
             hi = np.where(above, hi + width, hi)
             flo = np.where(below, resid(lo), flo)
             fhi = np.where(above, resid(hi), fhi)
-        # Illinois (modified regula falsi) on a decreasing function, F(lo) >= 0 >= F(hi).
+        # Illinois (modified regula falsi) on a decreasing function, F(lo) >= 0 >= F(hi),
+        # iterated until every part's bracket is below tol_v (bisection every 4th step
+        # guarantees progress), at most max_iterations.
         side = np.zeros(p)
-        for it in range(iterations):
+        for it in range(max_iterations):
             with np.errstate(divide="ignore", invalid="ignore"):
                 c = lo + flo * (hi - lo) / (flo - fhi)
             if it % 4 == 3:
@@ -240,6 +244,10 @@ def simulate(
             flo = np.where(up, fc, np.where(side < 0, 0.5 * flo, flo))
             fhi = np.where(up, np.where(side > 0, 0.5 * fhi, fhi), fc)
             side = np.where(up, 1.0, -1.0)
+            if it + 1 >= iterations and float(np.max(hi - lo)) < tol_v:
+                break
+        else:
+            unconverged |= (hi - lo) >= tol_v
         with np.errstate(divide="ignore", invalid="ignore"):
             v_new = lo + flo * (hi - lo) / (flo - fhi)
         v_new = np.where((v_new >= lo) & (v_new <= hi), v_new, 0.5 * (lo + hi))
@@ -311,13 +319,12 @@ def simulate(
         # Biased stages: "mode change" = the output current changes sign.
         io = rec["io"]
         sign_change = (io.max(axis=1) > 0) & (io.min(axis=1) < 0)
-    handover = np.where(pulldown, cut.any(axis=1), sign_change)
-    first = np.argmax(
-        np.where(
-            pulldown[:, None], cut, np.diff(np.sign(io), axis=1, prepend=np.sign(io[:, :1])) != 0
-        ),
-        axis=1,
-    )
+    # A handover is a change of conduction mode within the period (a stage held in one mode
+    # all period, e.g. sink mode by a resistor to V+, does not hand over).
+    handover = np.where(pulldown, cut.any(axis=1) & (~cut).any(axis=1), sign_change)
+    on_off = np.diff(cut.astype(np.int8), axis=1, prepend=cut[:, -1:].astype(np.int8)) > 0
+    sign_flip = np.diff(np.sign(io), axis=1, prepend=np.sign(io[:, -1:])) != 0
+    first = np.argmax(np.where(pulldown[:, None], on_off, sign_flip), axis=1)
     level = np.where(handover, v_out[np.arange(p), first], np.nan)
     when = np.where(handover, t_rec[first], np.nan)
     return SimResult(
@@ -339,4 +346,5 @@ def simulate(
         handover=handover,
         handover_level_v=level,
         handover_time_s=when,
+        unconverged=unconverged,
     )

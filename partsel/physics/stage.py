@@ -90,6 +90,9 @@ class StageParams:
     topology: np.ndarray  #: int codes, see :data:`TOPOLOGIES`
     dead_band_v: np.ndarray
     stage_current_a: np.ndarray
+    stage_current_high_a: np.ndarray
+    """Stage current on the side that is pessimistic for checks that the stage current *adds*
+    to (source-side swing headroom, source limit): the maximum on the worst-case basis."""
     source_limit_a: np.ndarray
     sink_limit_a: np.ndarray
     gbw_hz: np.ndarray
@@ -173,6 +176,7 @@ class StageParams:
             topology=topo,
             dead_band_v=db,
             stage_current_a=vals["stage_current"],
+            stage_current_high_a=_resolve(cols, "stage_current", basis, "high", n)[0],
             source_limit_a=vals["source_limit"],
             sink_limit_a=vals["sink_limit"],
             gbw_hz=vals["gbw"],
