@@ -307,7 +307,7 @@ def rank(
         chk.put(apply_rows, fixed.take(pos))
     if req.conduction != "no-change":
         chk.status[needed & ~in_fix, C.IDX["fix_resistor"]] = C.SKIPPED
-    fix = _replace(fix, applied=use_fix)
+    fix = _replace(fix, applied=use_fix & fix.works)
 
     n_failing, binding, tightest, min_ratio = _binding_and_tightest(chk)
 
