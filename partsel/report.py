@@ -66,6 +66,11 @@ def prediction_text(d: dict[str, Any]) -> str:
                 f"{_q(c['slope_v_per_s'], 'V/s')}: glitch ≈ {_q(c['glitch_v'], 'V')} "
                 f"(closed form), THD ≈ {_pct(c['thd_estimate'], 2)} (estimate)"
             )
+    if c["biased_crossover"]:
+        lines.append(
+            f"  Residual    biased stage: crossover THD_F at most about "
+            f"{_pct(c['thd_estimate'], 2)} (a bound from the loop gain, not a prediction)"
+        )
     if sim:
         lines.append(
             f"  Simulation  THD_F {_pct(sim['thd_f'])}, peak residual "

@@ -56,7 +56,9 @@ class ClosedForm:
     slope_v_per_s: np.ndarray  #: |output slope| at the steeper of the two handovers
     handover_time_s: np.ndarray  #: time to cross the dead band (tau)
     glitch_v: np.ndarray  #: output glitch, deviation from the ideal waveform
-    thd_estimate: np.ndarray  #: THD_F estimate from the glitch shape (ratio); see notes
+    thd_estimate: np.ndarray
+    """THD_F estimate, ratio: class B from the glitch shape, class A from the clipped sine,
+    class AB / CMOS an upper bound of the crossover residual (see the code comments)."""
     # swing / input / dynamics
     swing_pos_margin_v: np.ndarray
     swing_neg_margin_v: np.ndarray
@@ -211,6 +213,16 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     # RMS = g sqrt(4 tau f / 3); THD_F estimate = RMS / (amp / sqrt 2).
     with np.errstate(divide="ignore", invalid="ignore"):
         thd_est = np.where(amp > 0, glitch * np.sqrt(4.0 * tau * f / 3.0) / (amp / np.sqrt(2)), 0.0)
+    # Biased stages (class AB / CMOS): no dead band, but the stage's incremental resistance
+    # changes near zero current. Bound rather than a precise-looking number: take the whole
+    # stage drop V_x asinh(i_pk / 2 I_q) as nonlinear, suppressed by the loop gain
+    # GBW / (noise gain * f); THD_F <= e_pk / (A / sqrt 2).
+    with np.errstate(divide="ignore", invalid="ignore"):
+        loop_gain = stage.gbw_hz / (design.noise_gain * f)
+        i_pk = max(abs(i_min), abs(i_max))
+        e_pk = stage.device_scale_v * np.arcsinh(i_pk / (2.0 * i_stage)) / loop_gain
+        thd_bound = np.where(amp > 0, e_pk * np.sqrt(2.0) / amp, 0.0)
+    thd_est = np.where(crossover_biased, thd_bound, thd_est)
     # Class A: the output flattens at the flat level instead of crossing a dead band.
     clipped = np.flatnonzero(is_a & handover)
     if clipped.size:
@@ -284,7 +296,7 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
         slope_v_per_s=np.where(active, slope, np.nan),
         handover_time_s=tau,
         glitch_v=glitch,
-        thd_estimate=np.where(handover, thd_est, 0.0),
+        thd_estimate=np.where(handover | crossover_biased, thd_est, 0.0),
         swing_pos_margin_v=swing_pos,
         swing_neg_margin_v=swing_neg,
         cm_low_margin_v=cm_low,
