@@ -1,25 +1,39 @@
-"""Catalogue database: engine from a URL, Alembic migrations, the default SQLite file.
+"""Catalogue database: engine from a URL, Alembic migrations, write transactions, access errors.
 
 Nothing here runs at import time. :func:`open_catalogue` is the one entry point for callers:
 it picks the URL (argument, else ``PARTSEL_DB``, else the default file), makes the engine,
 brings the schema up to date and, on first use of the default file, fills it from the bundled
 sample catalogue.
+
+Two backends take the same code paths: SQLite (the default file, WAL journal) and PostgreSQL
+through psycopg 3 (``postgresql+psycopg://user@host/db``; install ``partsel[postgres]``).
+Every change goes through :func:`write_transaction`, which serialises writers: SQLite takes its
+write lock at ``BEGIN IMMEDIATE``, PostgreSQL takes a table lock on ``part`` that conflicts with
+other writers but not with readers. Readers are never blocked and see committed states only.
 """
 
 from __future__ import annotations
 
 import logging
 import os
+import sqlite3
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
+from typing import Any, Literal
 
 import platformdirs
 import sqlalchemy as sa
 from alembic import command
 from alembic.config import Config
-from sqlalchemy.engine import Engine
+from alembic.migration import MigrationContext
+from alembic.script import ScriptDirectory
+from sqlalchemy.engine import Connection, Engine
 from sqlalchemy.pool import StaticPool
 
 from partsel.catalogue.files import CATALOGUE_SUFFIXES
+from partsel.catalogue.tables import part_table
+from partsel.errors import InputError
 
 #: Environment variable naming the database URL.
 DB_ENV = "PARTSEL_DB"
@@ -27,10 +41,28 @@ DB_ENV = "PARTSEL_DB"
 SAMPLE_ENV = "PARTSEL_SAMPLE_CATALOG"
 #: SQLite busy timeout, ms: how long a writer waits for another writer's lock.
 SQLITE_BUSY_TIMEOUT_MS = 5000
+#: PostgreSQL lock timeout, ms: how long a writer waits for another writer before giving up.
+PG_LOCK_TIMEOUT_MS = 60_000
+#: Key of the PostgreSQL advisory lock that serialises schema migrations.
+_PG_MIGRATION_LOCK = 0x7061_7274  # "part"
+#: Execution option marking an engine opened read-only.
+_READ_ONLY_OPTION = "partsel_read_only"
+#: Execution option choosing the SQLite ``BEGIN`` mode of a connection.
+_BEGIN_OPTION = "partsel_sqlite_begin"
 
 MIGRATIONS_DIR = Path(__file__).resolve().parent / "migrations"
 
+Backend = Literal["sqlite", "postgresql"]
+
 log = logging.getLogger(__name__)
+
+
+class ReadOnlyError(InputError):
+    """A change was asked of a catalogue that may only be read (``--read-only`` or the role)."""
+
+
+class BusyError(InputError):
+    """Another writer held the catalogue longer than the lock timeout; nothing was changed."""
 
 
 def default_db_path() -> Path:
@@ -48,30 +80,115 @@ def resolve_db_url(url: str | None = None) -> str:
     return url or os.environ.get(DB_ENV) or sqlite_url(default_db_path())
 
 
-def _sqlite_on_connect(dbapi_conn: object, _record: object) -> None:
-    cur = dbapi_conn.cursor()  # type: ignore[attr-defined]
-    cur.execute("PRAGMA journal_mode=WAL")
+def describe_url(url: str | sa.URL) -> str:
+    """The URL for messages, with any password hidden."""
+    try:
+        return sa.make_url(url).render_as_string(hide_password=True)
+    except sa.exc.ArgumentError:
+        return str(url)
+
+
+def _parse_url(url: str) -> sa.URL:
+    """Parse ``url``; ``postgres://`` and ``postgresql://`` mean psycopg 3."""
+    try:
+        u = sa.make_url(url)
+    except sa.exc.ArgumentError as exc:
+        raise InputError(f"not a database URL: {url!r} ({exc})", pointer="/db") from exc
+    if u.drivername in ("postgres", "postgresql"):
+        u = u.set(drivername="postgresql+psycopg")
+    return u
+
+
+def backend(engine: Engine | Connection) -> Backend:
+    """Which backend ``engine`` talks to: ``"sqlite"`` or ``"postgresql"``."""
+    name = engine.dialect.name
+    if name not in ("sqlite", "postgresql"):
+        raise InputError(f"unsupported database backend {name!r}: use SQLite or PostgreSQL")
+    return name  # type: ignore[return-value]
+
+
+def is_read_only(engine: Engine | Connection) -> bool:
+    """True when ``engine`` was opened read-only (see :func:`make_engine`)."""
+    return bool(engine.get_execution_options().get(_READ_ONLY_OPTION, False))
+
+
+def _sqlite_on_connect(dbapi_conn: Any, _record: object, *, read_only: bool) -> None:
+    # Transactions are begun by _sqlite_on_begin (pysqlite's own implicit BEGIN is off), so
+    # that writers can take the write lock up front with BEGIN IMMEDIATE.
+    dbapi_conn.isolation_level = None
+    cur = dbapi_conn.cursor()
+    if not read_only:
+        cur.execute("PRAGMA journal_mode=WAL")
     cur.execute(f"PRAGMA busy_timeout={SQLITE_BUSY_TIMEOUT_MS}")
     cur.close()
 
 
-def make_engine(url: str) -> Engine:
-    """Create an engine for ``url`` (SQLite gets WAL journal mode and a busy timeout).
+def _sqlite_on_begin(conn: Connection) -> None:
+    mode = conn.get_execution_options().get(_BEGIN_OPTION, "DEFERRED")
+    # Straight to the driver: a BEGIN is no query, and statement hooks should not see one.
+    conn.connection.driver_connection.execute(f"BEGIN {mode}")  # type: ignore[union-attr]
 
-    An in-memory SQLite URL (``sqlite://``) keeps one shared connection (``StaticPool``), so
-    that every session sees the same database.
+
+def make_engine(url: str, *, read_only: bool = False) -> Engine:
+    """Create an engine for ``url`` (SQLite or PostgreSQL); nothing is connected yet.
+
+    SQLite gets WAL journal mode and a busy timeout; an in-memory URL (``sqlite://``) keeps one
+    shared connection (``StaticPool``), so that every session sees the same database.
+    ``read_only`` opens an SQLite file with ``mode=ro`` and PostgreSQL sessions with
+    ``default_transaction_read_only``, and marks the engine so that every write is refused
+    with a :class:`ReadOnlyError` before it reaches the database.
     """
-    u = sa.make_url(url)
-    if u.get_backend_name() != "sqlite":
-        return sa.create_engine(u)
+    u = _parse_url(url)
+    options = {_READ_ONLY_OPTION: read_only}
+    name = u.get_backend_name()
+    if name == "postgresql":
+        try:
+            import psycopg  # noqa: F401
+        except ImportError as exc:
+            raise InputError(
+                "PostgreSQL catalogues need psycopg 3: pip install 'partsel[postgres]'",
+                pointer="/db",
+            ) from exc
+        connect_args: dict[str, Any] = {}
+        if read_only:
+            extra = u.query.get("options", "")
+            extra = extra if isinstance(extra, str) else " ".join(extra)
+            connect_args["options"] = f"{extra} -c default_transaction_read_only=on".strip()
+            u = u.difference_update_query(["options"])
+        return sa.create_engine(
+            u, connect_args=connect_args, execution_options=options, pool_pre_ping=True
+        )
+    if name != "sqlite":
+        raise InputError(
+            f"unsupported database {describe_url(u)}: use sqlite:///FILE or "
+            "postgresql+psycopg://USER@HOST/DATABASE",
+            pointer="/db",
+        )
     if u.database in (None, "", ":memory:"):
         engine = sa.create_engine(
-            u, poolclass=StaticPool, connect_args={"check_same_thread": False}
+            u,
+            poolclass=StaticPool,
+            connect_args={"check_same_thread": False},
+            execution_options=options,
+        )
+    elif read_only:
+        path = Path(u.database)
+        engine = sa.create_engine(
+            "sqlite://",
+            creator=lambda: sqlite3.connect(
+                f"{path.resolve().as_uri()}?mode=ro", uri=True, check_same_thread=False
+            ),
+            execution_options=options,
         )
     else:
         Path(u.database).parent.mkdir(parents=True, exist_ok=True)
-        engine = sa.create_engine(u)
-    sa.event.listen(engine, "connect", _sqlite_on_connect)
+        engine = sa.create_engine(u, execution_options=options)
+    sa.event.listen(
+        engine,
+        "connect",
+        lambda c, r: _sqlite_on_connect(c, r, read_only=read_only),
+    )
+    sa.event.listen(engine, "begin", _sqlite_on_begin)
     return engine
 
 
@@ -82,12 +199,112 @@ def alembic_config() -> Config:
     return cfg
 
 
+def head_revision() -> str:
+    """The newest schema revision this version of partsel knows."""
+    head = ScriptDirectory.from_config(alembic_config()).get_current_head()
+    assert head is not None
+    return head
+
+
+def _known_revisions() -> set[str]:
+    return {s.revision for s in ScriptDirectory.from_config(alembic_config()).walk_revisions()}
+
+
+def schema_revision(engine: Engine) -> str | None:
+    """The schema revision the database is at (None: no partsel tables yet)."""
+    with engine.connect() as conn:
+        return MigrationContext.configure(conn).get_current_revision()
+
+
+def _begin_serialised(conn: Connection) -> None:
+    """Begin a transaction on ``conn`` that excludes other writers (see module docstring)."""
+    if backend(conn) == "sqlite":
+        conn.execution_options(**{_BEGIN_OPTION: "IMMEDIATE"})
+        conn.begin()
+    else:
+        conn.begin()
+        conn.exec_driver_sql(f"SET LOCAL lock_timeout = {int(PG_LOCK_TIMEOUT_MS)}")
+
+
 def migrate(engine: Engine, revision: str = "head") -> None:
-    """Upgrade the database schema to ``revision`` (Alembic)."""
+    """Upgrade the database schema to ``revision`` (Alembic), one migrating process at a time."""
+    if is_read_only(engine):
+        raise ReadOnlyError(
+            f"the catalogue {describe_url(engine.url)} is open read-only: its schema cannot be "
+            "upgraded"
+        )
     cfg = alembic_config()
-    with engine.begin() as conn:
-        cfg.attributes["connection"] = conn
-        command.upgrade(cfg, revision)
+    with engine.connect() as conn:
+        _begin_serialised(conn)
+        try:
+            if backend(conn) == "postgresql":
+                conn.execute(sa.select(sa.func.pg_advisory_xact_lock(_PG_MIGRATION_LOCK)))
+            cfg.attributes["connection"] = conn
+            command.upgrade(cfg, revision)
+        except BaseException:
+            conn.rollback()
+            raise
+        conn.commit()
+
+
+def _first_line(exc: BaseException) -> str:
+    orig = getattr(exc, "orig", None) or exc
+    text = str(orig).strip()
+    return text.splitlines()[0] if text else type(orig).__name__
+
+
+def access_error(
+    engine: Engine | Connection, exc: sa.exc.DBAPIError, what: str
+) -> InputError | None:
+    """A clear error for a database refusal of a change (no write access, busy), else None."""
+    where = describe_url(engine.url)
+    orig = exc.orig
+    state = getattr(orig, "sqlstate", None)
+    text = str(orig).casefold()
+    if state in ("42501", "25006") or "readonly database" in text:
+        return ReadOnlyError(
+            f"the catalogue {where} refused {what}: {_first_line(exc)} "
+            "(this connection may only read)"
+        )
+    if state in ("55P03", "40001", "40P01") or "database is locked" in text:
+        return BusyError(
+            f"the catalogue {where} is busy: another writer held it for longer than the lock "
+            f"timeout, so {what} was not done; try again ({_first_line(exc)})"
+        )
+    return None
+
+
+@contextmanager
+def write_transaction(engine: Engine, what: str) -> Iterator[Connection]:
+    """One transaction that may change the catalogue, with the writer lock held.
+
+    ``what`` names the change for messages ("load", "edit QFA-2210"). Commits when the block
+    ends, rolls back on any exception. Raises :class:`ReadOnlyError` at once for a read-only
+    engine (and when the database refuses the change for lack of rights), :class:`BusyError`
+    when another writer holds the lock longer than the timeout.
+    """
+    if is_read_only(engine):
+        raise ReadOnlyError(
+            f"the catalogue {describe_url(engine.url)} is open read-only (--read-only): "
+            f"{what} would change it"
+        )
+    try:
+        with engine.connect() as conn:
+            _begin_serialised(conn)
+            try:
+                if backend(conn) == "postgresql":
+                    name = conn.dialect.identifier_preparer.quote(part_table.name)
+                    conn.exec_driver_sql(f"LOCK TABLE {name} IN SHARE ROW EXCLUSIVE MODE")
+                yield conn
+            except BaseException:
+                conn.rollback()
+                raise
+            conn.commit()
+    except sa.exc.DBAPIError as exc:
+        err = access_error(engine, exc, what)
+        if err is None:
+            raise
+        raise err from exc
 
 
 def find_sample_catalogue() -> Path | None:
@@ -118,21 +335,70 @@ def _remove_sqlite_file(path: Path) -> None:
         p.unlink(missing_ok=True)
 
 
-def open_catalogue(url: str | None = None) -> Engine:
+def _bring_up_to_date(engine: Engine) -> None:
+    """Check that the database answers and its schema is current; upgrade it if allowed."""
+    where = describe_url(engine.url)
+    try:
+        current = schema_revision(engine)
+    except sa.exc.DBAPIError as exc:
+        raise InputError(
+            f"cannot open the catalogue database {where}: {_first_line(exc)}", pointer="/db"
+        ) from exc
+    head = head_revision()
+    if current == head:
+        return
+    if current is not None and current not in _known_revisions():
+        raise InputError(
+            f"the catalogue {where} has schema revision {current}, made by a newer partsel "
+            f"(this one knows up to {head}): upgrade partsel",
+            pointer="/db",
+        )
+    if is_read_only(engine):
+        state = "has no partsel tables" if current is None else f"is at revision {current}"
+        raise ReadOnlyError(
+            f"the catalogue {where} {state} and this partsel needs revision {head}: open it "
+            "once without --read-only, with a role that may change the schema, to create or "
+            "upgrade it"
+        )
+    try:
+        migrate(engine)
+    except sa.exc.DBAPIError as exc:
+        err = access_error(engine, exc, f"the schema upgrade to revision {head}")
+        if err is None:
+            raise
+        raise err from exc
+
+
+def open_catalogue(url: str | None = None, *, read_only: bool = False) -> Engine:
     """Engine of the catalogue database at ``url`` (see :func:`resolve_db_url`), schema current.
 
     The first use of the default SQLite file creates it and loads the sample catalogue into it;
     if that catalogue does not validate the new file is removed again and the InputError raised.
+    With ``read_only`` nothing is created, upgraded or changed (see :func:`make_engine`).
+    Raises InputError when the database cannot be opened or its schema is not usable.
     """
     explicit = url or os.environ.get(DB_ENV)
     if explicit:
-        engine = make_engine(explicit)
-        migrate(engine)
+        engine = make_engine(explicit, read_only=read_only)
+        try:
+            _bring_up_to_date(engine)
+        except BaseException:
+            engine.dispose()
+            raise
         return engine
     path = default_db_path()
     fresh = not path.exists()
-    engine = make_engine(sqlite_url(path))
-    migrate(engine)
+    if fresh and read_only:
+        raise ReadOnlyError(
+            f"there is no catalogue at {path} yet: run partsel once without --read-only to "
+            "create it"
+        )
+    engine = make_engine(sqlite_url(path), read_only=read_only)
+    try:
+        _bring_up_to_date(engine)
+    except BaseException:
+        engine.dispose()
+        raise
     if fresh:
         sample = find_sample_catalogue()
         if sample is None:
@@ -141,7 +407,7 @@ def open_catalogue(url: str | None = None) -> Engine:
         from partsel.catalogue.store import load_paths  # store imports this module
 
         try:
-            load_paths(engine, [sample])
+            load_paths(engine, [sample], user="partsel (sample catalogue)")
         except Exception:
             engine.dispose()
             _remove_sqlite_file(path)

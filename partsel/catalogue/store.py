@@ -1,9 +1,15 @@
-"""Load, read back and export the stored catalogue.
+"""Load, edit, restore, read back and export the stored catalogue.
 
 Loading is one transaction: every file is validated first, then parts are inserted or updated;
 any error rolls back, so nothing is stored. A part counts as unchanged when its canonical form
 (SI floats, see :mod:`partsel.catalogue.validate`) equals the stored one, so ``"50 uA"`` and
 ``5e-05`` are the same value.
+
+Every change runs in :func:`partsel.catalogue.db.write_transaction` (one writer at a time, on
+SQLite and PostgreSQL alike), bumps the part's version and keeps a history row (who, when, old
+and new record; see :mod:`partsel.catalogue.history`). :func:`edit_part` and
+:func:`restore_part` change one part only if it is still at the version the caller read, and
+raise :class:`~partsel.catalogue.history.ConflictError` otherwise.
 """
 
 from __future__ import annotations
@@ -31,10 +37,22 @@ from partsel.catalogue.columns import (
     FLOAT_COLUMN_NAMES,
     OTHER_COLUMN_NAMES,
 )
+from partsel.catalogue.db import backend, write_transaction
+from partsel.catalogue.history import (
+    Action,
+    FieldChange,
+    as_utc,
+    conflict_error,
+    current_user,
+    history_row,
+    read_history,
+    record_changes,
+)
 from partsel.catalogue.normalise import flatten_canonical
 from partsel.catalogue.schema import FORMAT_NAME
-from partsel.catalogue.tables import maker_table, part_table
-from partsel.catalogue.validate import CatalogueDocument, read_and_validate
+from partsel.catalogue.tables import history_table, maker_table, part_table
+from partsel.catalogue.validate import CatalogueDocument, read_and_validate, validate_documents
+from partsel.errors import InputError, Problem
 
 ExportFormat = Literal["yaml", "json"]
 
@@ -63,12 +81,46 @@ class LoadReport:
 
 @dataclass(frozen=True)
 class StoredPart:
-    """One stored part: the record as given, its flat SI row, version and last change."""
+    """One stored part: the record as given, its flat SI row, version and last change (UTC)."""
 
     record: dict[str, Any]
     flat: dict[str, Any]
     version: int
     updated_at: datetime
+    updated_by: str | None = None
+
+
+@dataclass(frozen=True)
+class EditResult:
+    """What :func:`edit_part` or :func:`restore_part` did to one part.
+
+    ``action`` is None when the new record means the same as the stored one (nothing stored);
+    ``version`` is the part's version afterwards; ``changes`` the fields that differ from the
+    record stored before.
+    """
+
+    part_number: str
+    version: int
+    action: Action | None
+    changes: list[FieldChange] = field(default_factory=list)
+
+    @property
+    def changed(self) -> bool:
+        """True when a new version was stored."""
+        return self.action is not None
+
+
+@dataclass(frozen=True)
+class _Change:
+    """Who makes a change, when, and through which command (None in a dry run)."""
+
+    user: str
+    when: datetime
+    via: str
+
+
+#: Rows per ``IN (...)`` list when reading records by id (below SQLite's variable limit).
+_ID_CHUNK = 900
 
 
 def part_key(part_number: str) -> str:
@@ -94,7 +146,9 @@ def _table_row(part: dict[str, Any], canon: dict[str, Any]) -> dict[str, Any]:
     return row
 
 
-def _load_makers(conn: Connection, docs: Sequence[CatalogueDocument], report: LoadReport) -> None:
+def _load_makers(
+    conn: Connection, docs: Sequence[CatalogueDocument], report: LoadReport, write: bool = True
+) -> None:
     existing = {r.name_key: r for r in conn.execute(sa.select(maker_table))}
     wanted: dict[str, dict[str, Any]] = {}
     for doc in docs:
@@ -111,20 +165,40 @@ def _load_makers(conn: Connection, docs: Sequence[CatalogueDocument], report: Lo
         row = existing.get(key)
         rules = m["suffix_rules"]
         if row is None:
-            conn.execute(
-                sa.insert(maker_table).values(
-                    name=m["name"], name_key=key, suffix_rules=rules or []
+            if write:
+                conn.execute(
+                    sa.insert(maker_table).values(
+                        name=m["name"], name_key=key, suffix_rules=rules or []
+                    )
                 )
-            )
             report.makers_added.append(m["name"])
         elif rules is not None and list(row.suffix_rules) != list(rules):
-            conn.execute(
-                sa.update(maker_table).where(maker_table.c.id == row.id).values(suffix_rules=rules)
-            )
+            if write:
+                conn.execute(
+                    sa.update(maker_table)
+                    .where(maker_table.c.id == row.id)
+                    .values(suffix_rules=rules)
+                )
             report.makers_changed.append(row.name)
 
 
-def _load_parts(conn: Connection, docs: Sequence[CatalogueDocument], report: LoadReport) -> None:
+def _records_by_id(conn: Connection, ids: Sequence[int]) -> dict[int, str]:
+    t = part_table
+    out: dict[int, str] = {}
+    for k in range(0, len(ids), _ID_CHUNK):
+        chunk = ids[k : k + _ID_CHUNK]
+        rows = conn.execute(sa.select(t.c.id, t.c.record_json).where(t.c.id.in_(chunk)))
+        out.update((i, text) for i, text in rows)
+    return out
+
+
+def _load_parts(
+    conn: Connection,
+    docs: Sequence[CatalogueDocument],
+    report: LoadReport,
+    change: _Change | None,
+) -> None:
+    """Add or update the documents' parts (``change`` None: only fill the report)."""
     t = part_table
     existing = {
         k: (i, h, v)
@@ -132,66 +206,283 @@ def _load_parts(conn: Connection, docs: Sequence[CatalogueDocument], report: Loa
             sa.select(t.c.part_key, t.c.id, t.c.content_hash, t.c.version)
         )
     }
-    now = datetime.now(UTC)
     inserts: list[dict[str, Any]] = []
     updates: list[dict[str, Any]] = []
+    history: list[dict[str, Any]] = []
+    old_ids: list[tuple[dict[str, Any], int]] = []  # history row of a changed part, its id
     for doc in docs:
         for part, canon in zip(doc.parts, doc.canonical_parts, strict=True):
             digest = content_hash(canon)
-            old = existing.get(part_key(part["part_number"]))
-            if old is None:
-                row = _table_row(part, canon)
-                inserts.append({**row, "content_hash": digest, "version": 1, "updated_at": now})
-                report.added.append(part["part_number"])
-            elif old[1] != digest:
-                row = _table_row(part, canon)
-                updates.append(
-                    {
-                        **row,
-                        "content_hash": digest,
-                        "version": old[2] + 1,
-                        "updated_at": now,
-                        "_pk": old[0],
-                    }
-                )
-                report.changed.append(part["part_number"])
-            else:
+            key = part_key(part["part_number"])
+            old = existing.get(key)
+            if old is not None and old[1] == digest:
                 report.unchanged.append(part["part_number"])
+                continue
+            (report.added if old is None else report.changed).append(part["part_number"])
+            if change is None:
+                continue
+            row = _table_row(part, canon)
+            row.update(
+                content_hash=digest,
+                version=1 if old is None else old[2] + 1,
+                updated_at=change.when,
+                updated_by=change.user,
+            )
+            (inserts if old is None else updates).append(
+                row if old is None else {**row, "_pk": old[0]}
+            )
+            history.append(
+                history_row(
+                    key=key,
+                    part_number=part["part_number"],
+                    version=row["version"],
+                    action="added" if old is None else "changed",
+                    user=change.user,
+                    when=change.when,
+                    source=f"{change.via} {doc.file}",
+                    old_json=None,  # filled in below for changed parts
+                    new_json=row["record_json"],
+                )
+            )
+            if old is not None:
+                old_ids.append((history[-1], old[0]))
+    if change is None:
+        return
+    old_records = _records_by_id(conn, [pk for _, pk in old_ids])
+    for h, pk in old_ids:
+        h["old_record_json"] = old_records[pk]
     if inserts:
         conn.execute(sa.insert(t), inserts)
     if updates:
         conn.execute(sa.update(t).where(t.c.id == sa.bindparam("_pk")), updates)
+    if history:
+        conn.execute(sa.insert(history_table), history)
 
 
 def load_documents(
-    engine: Engine, docs: Sequence[CatalogueDocument], *, dry_run: bool = False
+    engine: Engine,
+    docs: Sequence[CatalogueDocument],
+    *,
+    dry_run: bool = False,
+    user: str | None = None,
+    via: str = "load",
 ) -> LoadReport:
-    """Store validated documents in one transaction (``dry_run``: roll back, report only)."""
+    """Store validated documents in one transaction (``dry_run``: read only, report only).
+
+    ``user`` is who makes the change (default: the OS user), ``via`` names the command in the
+    history ("load", "import-sheet"). Raises ReadOnlyError for a read-only catalogue (a dry run
+    is allowed there) and BusyError when another writer holds the catalogue too long.
+    """
     report = LoadReport(dry_run=dry_run)
-    with engine.connect() as conn:
-        trans = conn.begin()
-        try:
-            _load_makers(conn, docs, report)
-            _load_parts(conn, docs, report)
-        except BaseException:
-            trans.rollback()
-            raise
-        if dry_run:
-            trans.rollback()
-        else:
-            trans.commit()
+    if dry_run:
+        with engine.connect() as conn:
+            _load_makers(conn, docs, report, False)
+            _load_parts(conn, docs, report, None)
+        return report
+    change = _Change(current_user(user), datetime.now(UTC), via)
+    with write_transaction(engine, via) as conn:
+        _load_makers(conn, docs, report, True)
+        _load_parts(conn, docs, report, change)
     return report
 
 
-def load_paths(engine: Engine, paths: Iterable[str | Path], *, dry_run: bool = False) -> LoadReport:
+def load_paths(
+    engine: Engine,
+    paths: Iterable[str | Path],
+    *,
+    dry_run: bool = False,
+    user: str | None = None,
+) -> LoadReport:
     """Validate catalogue files and folders, then store them (see :func:`load_documents`).
 
     Raises InputError listing every problem of every file; nothing is stored then.
     """
-    return load_documents(engine, read_and_validate(paths), dry_run=dry_run)
+    return load_documents(engine, read_and_validate(paths), dry_run=dry_run, user=user)
+
+
+# --- one part at a time, against a known version ----------------------------------------------
+
+
+def _replace_part(
+    conn: Connection,
+    part: dict[str, Any],
+    canon: dict[str, Any],
+    expected_version: int,
+    change: _Change,
+    action: Action,
+    source: str,
+    file: str | None,
+) -> EditResult:
+    """Store ``part`` if its stored version is ``expected_version`` (0: not stored yet)."""
+    t = part_table
+    pn = part["part_number"]
+    key = part_key(pn)
+    row = conn.execute(
+        sa.select(t.c.id, t.c.version, t.c.record_json, t.c.content_hash).where(t.c.part_key == key)
+    ).first()
+    current = 0 if row is None else row.version
+    old_record = None if row is None else json.loads(row.record_json)
+    if current != expected_version:
+        raise conflict_error(conn, key, pn, expected_version, current, old_record, file=file)
+    digest = content_hash(canon)
+    if row is not None and row.content_hash == digest:
+        return EditResult(pn, current, None, [])
+    new = _table_row(part, canon)
+    new.update(
+        content_hash=digest, version=current + 1, updated_at=change.when, updated_by=change.user
+    )
+    if row is None:
+        conn.execute(sa.insert(t).values(**new))
+        action = "added"
+    else:
+        done = conn.execute(
+            sa.update(t).where(t.c.id == row.id, t.c.version == current).values(**new)
+        )
+        if done.rowcount != 1:  # cannot happen under the writer lock; never overwrite blindly
+            raise conflict_error(conn, key, pn, expected_version, current + 1, None, file=file)
+    conn.execute(
+        sa.insert(history_table).values(
+            history_row(
+                key=key,
+                part_number=pn,
+                version=current + 1,
+                action=action,
+                user=change.user,
+                when=change.when,
+                source=source,
+                old_json=None if row is None else row.record_json,
+                new_json=new["record_json"],
+            )
+        )
+    )
+    return EditResult(pn, current + 1, action, record_changes(old_record or {}, part))
+
+
+def edit_document(
+    engine: Engine,
+    doc: CatalogueDocument,
+    expected_version: int,
+    *,
+    user: str | None = None,
+    source: str | None = None,
+) -> EditResult:
+    """Replace one part with the single part of validated ``doc`` (its makers are stored too).
+
+    Refused with :class:`~partsel.catalogue.history.ConflictError` unless the stored part is at
+    ``expected_version`` (0: the part must not exist yet, and is added).
+    """
+    if len(doc.parts) != 1:
+        raise InputError(
+            f"an edit holds exactly one part; this one holds {len(doc.parts)} (use load for "
+            "several)",
+            file=doc.file,
+            pointer="/parts",
+        )
+    part, canon = doc.parts[0], doc.canonical_parts[0]
+    change = _Change(current_user(user), datetime.now(UTC), "edit")
+    src = source or f"edit {doc.file}"
+    with write_transaction(engine, f"edit {part['part_number']}") as conn:
+        _load_makers(conn, [doc], LoadReport(), True)
+        return _replace_part(conn, part, canon, expected_version, change, "changed", src, doc.file)
+
+
+def _record_problems(exc: InputError, label: str) -> InputError:
+    """Problems of a record validated as ``/parts/0`` of a document, with record pointers."""
+    probs = [
+        Problem(
+            p.message,
+            p.file if p.file != label else None,
+            p.record,
+            p.pointer.removeprefix("/parts/0") if p.pointer.startswith("/parts/0") else p.pointer,
+        )
+        for p in exc.problems
+    ]
+    return InputError(problems=probs)
+
+
+def _validated_record(record: dict[str, Any], label: str) -> CatalogueDocument:
+    try:
+        (doc,) = validate_documents([(label, {"parts": [record]})])
+    except InputError as exc:
+        raise _record_problems(exc, label) from None
+    return doc
+
+
+def edit_part(
+    engine: Engine,
+    record: dict[str, Any],
+    expected_version: int,
+    *,
+    user: str | None = None,
+    source: str | None = None,
+) -> EditResult:
+    """Replace the stored part ``record["part_number"]`` with ``record``, if still unchanged.
+
+    ``expected_version`` is the version the record was read at (:attr:`StoredPart.version`;
+    0 to add a new part). The record is validated first (InputError with pointers into the
+    record); then, in one write transaction, the edit is refused with
+    :class:`~partsel.catalogue.history.ConflictError` (who changed what since) if the part has
+    moved on, else stored as the next version with a history row. A record that means the same
+    as the stored one stores nothing (``action`` None).
+    """
+    label = "edited record"
+    doc = _validated_record(record, label)
+    return edit_document(engine, doc, expected_version, user=user, source=source or "edit")
+
+
+def restore_part(
+    engine: Engine,
+    part_number: str,
+    version: int,
+    *,
+    expected_version: int | None = None,
+    user: str | None = None,
+) -> EditResult:
+    """Store the record ``part_number`` had at ``version`` again, as a new version.
+
+    The history keeps every version, so a restore can itself be undone. With
+    ``expected_version`` the restore is refused (ConflictError) if the part has moved on since
+    the caller looked. Raises InputError for an unknown part or version, or when the old record
+    does not pass today's validation.
+    """
+    key = part_key(part_number)
+    change = _Change(current_user(user), datetime.now(UTC), "restore")
+    with write_transaction(engine, f"restore {part_number}") as conn:
+        t = part_table
+        current = conn.execute(sa.select(t.c.version).where(t.c.part_key == key)).scalar()
+        if current is None:
+            raise InputError(f"no part {part_number!r} in the catalogue", record=part_number)
+        then = read_history(conn, key, version=version)
+        if not then:
+            kept = [e.version for e in read_history(conn, key)]
+            raise InputError(
+                f"no version {version} of {part_number} is kept; kept versions: "
+                + (", ".join(map(str, kept)) or "none"),
+                record=part_number,
+                pointer="/version",
+            )
+        record = then[0].new_record
+        label = f"version {version} of {part_number}"
+        doc = _validated_record(record, label)
+        return _replace_part(
+            conn,
+            doc.parts[0],
+            doc.canonical_parts[0],
+            current if expected_version is None else expected_version,
+            change,
+            "restored",
+            f"restore of version {version}",
+            None,
+        )
 
 
 _FRAME_DTYPES = {"int": "int64", "bool": "bool", "str": "str"}
+
+
+def _key_order(engine: Engine, column: sa.ColumnElement[str]) -> sa.ColumnElement[str]:
+    """``column`` for ORDER BY in code-point order on every backend (PostgreSQL databases
+    usually sort text by a language collation, SQLite by code points)."""
+    return column.collate("C") if backend(engine) == "postgresql" else column
 
 
 def parts_frame(engine: Engine, where: sa.ColumnElement[bool] | None = None) -> pd.DataFrame:
@@ -204,7 +495,7 @@ def parts_frame(engine: Engine, where: sa.ColumnElement[bool] | None = None) -> 
     """
     t = part_table
     stmt = sa.select(*(t.c[n] for n in OTHER_COLUMN_NAMES), t.c.float_block)
-    stmt = stmt.order_by(t.c.part_key)
+    stmt = stmt.order_by(_key_order(engine, t.c.part_key))
     if where is not None:
         stmt = stmt.where(where)
     with engine.connect() as conn:
@@ -215,7 +506,7 @@ def parts_frame(engine: Engine, where: sa.ColumnElement[bool] | None = None) -> 
         name: pd.array(list(values), dtype=_FRAME_DTYPES[COLUMN_BY_NAME[name].kind])
         for name, values in zip(OTHER_COLUMN_NAMES, cols, strict=False)
     }
-    floats = np.frombuffer(b"".join(cols[-1]), dtype=FLOAT_BLOCK_DTYPE)
+    floats = np.frombuffer(b"".join(map(bytes, cols[-1])), dtype=FLOAT_BLOCK_DTYPE)
     floats = floats.reshape(n, len(FLOAT_COLUMN_NAMES)).astype("float64")
     for j, name in enumerate(FLOAT_COLUMN_NAMES):
         data[name] = floats[:, j]
@@ -237,21 +528,31 @@ def get_part(engine: Engine, part_number: str) -> StoredPart | None:
         row = conn.execute(sa.select(t).where(t.c.part_key == part_key(part_number))).first()
     if row is None:
         return None
-    return StoredPart(json.loads(row.record_json), _flat_from_row(row), row.version, row.updated_at)
+    return StoredPart(
+        json.loads(row.record_json),
+        _flat_from_row(row),
+        row.version,
+        as_utc(row.updated_at),
+        row.updated_by,
+    )
 
 
 def part_numbers(engine: Engine) -> list[str]:
     """Every stored part number, sorted case-insensitively."""
     t = part_table
     with engine.connect() as conn:
-        return list(conn.scalars(sa.select(t.c.part_number).order_by(t.c.part_key)))
+        return list(
+            conn.scalars(sa.select(t.c.part_number).order_by(_key_order(engine, t.c.part_key)))
+        )
 
 
 def makers(engine: Engine) -> list[dict[str, Any]]:
     """Every maker record ``{name, suffix_rules}``, sorted by name."""
     t = maker_table
     with engine.connect() as conn:
-        rows = conn.execute(sa.select(t.c.name, t.c.suffix_rules).order_by(t.c.name_key))
+        rows = conn.execute(
+            sa.select(t.c.name, t.c.suffix_rules).order_by(_key_order(engine, t.c.name_key))
+        )
         return [{"name": n, "suffix_rules": list(r)} for n, r in rows]
 
 

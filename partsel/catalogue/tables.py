@@ -1,11 +1,13 @@
-"""SQLModel tables of the catalogue: ``part`` (one wide row per part) and ``maker``.
+"""SQLModel tables of the catalogue: ``part`` (one wide row per part), ``maker`` and
+``part_history`` (every version of every part).
 
 The ``part`` table holds the flat columns of :mod:`partsel.catalogue.columns` (queryable in
 SQL), the same float columns packed into one binary ``float_block`` (little-endian float64 in
 the order of ``FLOAT_COLUMN_NAMES``; a frame of 100k parts reads it in one query far faster than
 a hundred separate columns), the record as given (``record_json``, so a dump gives it back), a
-hash of its canonical form (to tell changed from unchanged on load), a version counter and the
-time of the last change.
+hash of its canonical form (to tell changed from unchanged on load), a version counter, the
+time of the last change and who made it. ``part_history`` keeps one row per version of a part:
+who, when, how, and the record before and after (see migration 0002).
 The schema itself is created and migrated by Alembic (``partsel/catalogue/migrations``); a test
 checks that the migrations and these classes agree.
 """
@@ -58,6 +60,7 @@ def _part_body(ns: dict[str, Any]) -> None:
         "float_block": bytes,
         "version": int,
         "updated_at": datetime,
+        "updated_by": str | None,
     }
     ns["__tablename__"] = "part"
     ns["__doc__"] = "One part: flat columns, the record as given, version and update time."
@@ -78,6 +81,9 @@ def _part_body(ns: dict[str, Any]) -> None:
     )
     ns["version"] = Field(default=1, nullable=False)
     ns["updated_at"] = Field(sa_type=sa.DateTime(timezone=True), nullable=False)
+    ns["updated_by"] = Field(
+        default=None, sa_type=sa.String, nullable=True, description="who made the last change"
+    )
     for col in FLAT_COLUMNS:
         required = col.name in REQUIRED_FLAT
         py = _PY_TYPE[col.kind]
@@ -91,10 +97,35 @@ def _part_body(ns: dict[str, Any]) -> None:
     ns["__annotations__"] = ann
 
 
+class PartHistory(SQLModel, table=True):
+    """One version of one part: who stored it, when, how, and the record before and after."""
+
+    __tablename__ = "part_history"
+    __table_args__ = (
+        sa.UniqueConstraint("part_key", "version", name="uq_part_history_key_version"),
+    )
+
+    id: int | None = Field(default=None, primary_key=True)
+    part_key: str = Field(sa_type=sa.String, nullable=False, description="casefolded part number")
+    part_number: str = Field(sa_type=sa.String, nullable=False)
+    version: int = Field(nullable=False, description="the part's version after this change")
+    action: str = Field(
+        sa_type=sa.String, nullable=False, description="added | changed | restored | baseline"
+    )
+    changed_by: str = Field(sa_type=sa.String, nullable=False)
+    changed_at: datetime = Field(sa_type=sa.DateTime(timezone=True), nullable=False)
+    source: str | None = Field(
+        default=None, sa_type=sa.String, nullable=True, description="what made the change"
+    )
+    old_record_json: str | None = Field(default=None, sa_type=sa.Text, nullable=True)
+    new_record_json: str = Field(sa_type=sa.Text, nullable=False)
+
+
 #: The part table's model class, built from the flat column list.
 Part: type[SQLModel] = types.new_class("Part", (SQLModel,), {"table": True}, _part_body)
 
 #: Core table objects (bulk work goes through SQLAlchemy Core for speed).
 part_table: sa.Table = Part.__table__  # type: ignore[attr-defined]
 maker_table: sa.Table = Maker.__table__  # type: ignore[attr-defined]
+history_table: sa.Table = PartHistory.__table__  # type: ignore[attr-defined]
 metadata: sa.MetaData = SQLModel.metadata
