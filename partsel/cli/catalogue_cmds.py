@@ -1,4 +1,10 @@
-"""Catalogue commands: check, load, list, show, export, export-csv, import-sheet."""
+"""Catalogue commands: check, load, list, show, edit, history, restore, export, export-csv,
+import-sheet.
+
+Commands that change the catalogue (load, import-sheet, edit, restore) refuse under
+``--read-only`` and record ``--user`` (default: the OS user) in the part history; ``edit`` and
+``restore`` are refused with a conflict report when the part moved on since it was read.
+"""
 
 from __future__ import annotations
 
@@ -11,21 +17,29 @@ from typing import Annotated, Any
 
 import pandas as pd
 import typer
+import yaml
 from rich.table import Column, Table
 
 from partsel.catalogue import (
+    EditResult,
+    HistoryEntry,
+    edit_document,
     export_catalogue,
     get_part,
     load_documents,
     load_paths,
+    part_history,
     part_numbers,
     parts_frame,
     read_and_validate,
+    restore_part,
     swing_points,
 )
 from partsel.catalogue.columns import FLAT_COLUMN_NAMES
+from partsel.catalogue.history import format_time
+from partsel.catalogue.schema import FORMAT_NAME
 from partsel.catalogue.sheet import sheet_documents
-from partsel.catalogue.store import LoadReport, StoredPart
+from partsel.catalogue.store import LoadReport, StoredPart, part_key
 from partsel.catalogue.validate import canonical_part
 from partsel.cli.common import (
     JsonFlag,
@@ -35,6 +49,8 @@ from partsel.cli.common import (
     fail_bad_input,
     message,
     out_console,
+    user,
+    writable_engine,
 )
 from partsel.errors import InputError
 from partsel.params import PARAMS, SIDES, Lifecycle, Topology
@@ -104,9 +120,9 @@ def load(
     ctx: typer.Context, paths: Paths, dry_run: DryRun = False, json_out: JsonFlag = False
 ) -> None:
     """Validate catalogue files, then add or update their parts (all or nothing)."""
-    eng = engine(ctx)
+    eng = engine(ctx) if dry_run else writable_engine(ctx, "load")
     with bad_input_exits(json_out=json_out):
-        report = load_paths(eng, paths, dry_run=dry_run)
+        report = load_paths(eng, paths, dry_run=dry_run, user=user(ctx))
     _report(report, json_out)
 
 
@@ -246,7 +262,11 @@ def _show_text(stored: StoredPart) -> None:
             "—" if math.isnan(flat["min_stable_gain"]) else f"{flat['min_stable_gain']:g} V/V",
         ),
         ("price", price),
-        ("stored", f"version {stored.version}, {stored.updated_at:%Y-%m-%d %H:%M}"),
+        (
+            "stored",
+            f"version {stored.version}, {format_time(stored.updated_at)}"
+            + (f" by {stored.updated_by}" if stored.updated_by else ""),
+        ),
     ):
         info.add_row(key, val)
     con.print(info)
@@ -280,13 +300,34 @@ def _show_text(stored: StoredPart) -> None:
         con.print(f"notes: {rec['notes']}")
 
 
+def record_file_text(stored: StoredPart) -> str:
+    """The stored record as a one-part catalogue file (YAML) to edit and give to ``edit``."""
+    pn = stored.record["part_number"]
+    head = (
+        f"# {pn} at version {stored.version}. Change this file, then store it with\n"
+        f"#   partsel edit {pn} FILE --expect-version {stored.version}\n"
+    )
+    doc = {"format": FORMAT_NAME, "parts": [stored.record]}
+    return head + yaml.safe_dump(doc, sort_keys=False, allow_unicode=True, width=100)
+
+
 def show(
     ctx: typer.Context,
     part: Annotated[str, typer.Argument(help="Part number.")],
+    record: Annotated[
+        bool,
+        typer.Option(
+            "--record",
+            help="Print the record as a catalogue file (YAML) to change and give to 'edit'.",
+        ),
+    ] = False,
     json_out: JsonFlag = False,
 ) -> None:
     """Show one part in full (--json: the record as given, its flat SI row, version)."""
     stored = _lookup(ctx, part)
+    if record:
+        sys.stdout.write(record_file_text(stored))
+        return
     if json_out:
         echo_json(
             {
@@ -294,10 +335,125 @@ def show(
                 "flat": stored.flat,
                 "version": stored.version,
                 "updated_at": stored.updated_at,
+                "updated_by": stored.updated_by,
             }
         )
         return
     _show_text(stored)
+
+
+ExpectVersion = Annotated[
+    int,
+    typer.Option(
+        "--expect-version",
+        metavar="N",
+        min=0,
+        help="The version the change was made against (see 'show'); 0 adds a new part. "
+        "Refused, with what changed since, when the catalogue holds another version.",
+    ),
+]
+
+
+def _edit_report(result: EditResult, json_out: bool) -> None:
+    if json_out:
+        echo_json(
+            {
+                "part_number": result.part_number,
+                "version": result.version,
+                "action": result.action,
+                "changes": [c.to_dict() for c in result.changes],
+            }
+        )
+        return
+    if not result.changed:
+        typer.echo(f"{result.part_number}: unchanged (version {result.version})")
+        return
+    typer.echo(f"{result.part_number}: version {result.version} stored ({result.action})")
+    for c in result.changes:
+        typer.echo(f"  {c.text()}")
+
+
+def edit(
+    ctx: typer.Context,
+    part: Annotated[str, typer.Argument(help="Part number.")],
+    file: Annotated[
+        Path,
+        typer.Argument(help="Catalogue file (YAML/JSON) holding the part's new record."),
+    ],
+    expect_version: ExpectVersion,
+    json_out: JsonFlag = False,
+) -> None:
+    """Replace one part's record with the one in FILE, unless someone changed it meanwhile.
+
+    Get the file with 'partsel show PART --record > FILE'; the new version goes into the
+    part's history.
+    """
+    eng = writable_engine(ctx, f"edit {part}")
+    with bad_input_exits(json_out=json_out):
+        (doc,) = read_and_validate([file])
+        for i, rec in enumerate(doc.parts):
+            if part_key(rec["part_number"]) != part_key(part):
+                raise InputError(
+                    f"this file holds part {rec['part_number']!r}, not {part!r} (an edit "
+                    "cannot rename a part)",
+                    file=str(file),
+                    record=rec["part_number"],
+                    pointer=f"/parts/{i}/part_number",
+                )
+        result = edit_document(eng, doc, expect_version, user=user(ctx))
+    _edit_report(result, json_out)
+
+
+def _history_text(entries: list[HistoryEntry]) -> None:
+    n = len(entries)
+    typer.echo(f"{entries[-1].part_number}: {n} version{'s' if n != 1 else ''}, newest first")
+    for e in reversed(entries):
+        typer.echo(
+            f"version {e.version}  {e.action:<8}  {format_time(e.changed_at)}  by "
+            f"{e.changed_by}" + (f"  ({e.source})" if e.source else "")
+        )
+        if e.old_record is not None:
+            for c in e.changes():
+                typer.echo(f"    {c.text()}")
+
+
+def history(
+    ctx: typer.Context,
+    part: Annotated[str, typer.Argument(help="Part number.")],
+    json_out: JsonFlag = False,
+) -> None:
+    """Show every kept version of a part, newest first: who, when, how, fields changed.
+
+    --json: oldest first, each with the full record before and after.
+    """
+    stored = _lookup(ctx, part)
+    entries = part_history(engine(ctx), stored.record["part_number"])
+    if json_out:
+        echo_json([e.to_dict() for e in entries])
+        return
+    _history_text(entries)
+
+
+def restore(
+    ctx: typer.Context,
+    part: Annotated[str, typer.Argument(help="Part number.")],
+    version: Annotated[int, typer.Argument(help="Version to bring back (see 'history').")],
+    expect_version: Annotated[
+        int | None,
+        typer.Option(
+            "--expect-version",
+            metavar="N",
+            min=1,
+            help="Refuse, with what changed since, unless the part is still at version N.",
+        ),
+    ] = None,
+    json_out: JsonFlag = False,
+) -> None:
+    """Store an earlier version of a part again, as its newest version (kept in the history)."""
+    eng = writable_engine(ctx, f"restore {part}")
+    with bad_input_exits(json_out=json_out):
+        result = restore_part(eng, part, version, expected_version=expect_version, user=user(ctx))
+    _edit_report(result, json_out)
 
 
 def export(
@@ -342,9 +498,10 @@ def import_sheet(
     json_out: JsonFlag = False,
 ) -> None:
     """Turn spreadsheet rows into part records, check them and add or update them."""
+    eng = engine(ctx) if dry_run else writable_engine(ctx, "import-sheet")
     with bad_input_exits(json_out=json_out):
         docs = sheet_documents(sheet, mapping)
-        report = load_documents(engine(ctx), docs, dry_run=dry_run)
+        report = load_documents(eng, docs, dry_run=dry_run, user=user(ctx), via="import-sheet")
     _report(report, json_out)
 
 
@@ -354,6 +511,9 @@ def register(app: typer.Typer) -> None:
     app.command("load")(load)
     app.command("list")(list_parts)
     app.command("show")(show)
+    app.command("edit")(edit)
+    app.command("history")(history)
+    app.command("restore")(restore)
     app.command("export")(export)
     app.command("export-csv")(export_csv)
     app.command("import-sheet")(import_sheet)

@@ -19,6 +19,7 @@ import typer
 from rich.console import Console
 from sqlalchemy.engine import Engine
 
+from partsel.catalogue.history import ConflictError
 from partsel.errors import InputError, Problem
 
 
@@ -40,11 +41,15 @@ JsonFlag = Annotated[bool, typer.Option("--json", help="Print JSON on stdout ins
 class AppState:
     """What the main callback hands to every command (``ctx.obj``).
 
-    ``db_url`` is the ``--db`` option or ``$PARTSEL_DB`` (None: the default file). The engine
-    is opened on first use only, so commands that need no database never touch one.
+    ``db_url`` is the ``--db`` option or ``$PARTSEL_DB`` (None: the default file);
+    ``read_only`` the ``--read-only`` flag; ``user`` the ``--user`` name recorded in the history
+    (None: the OS user). The engine is opened on first use only, so commands that need no
+    database never touch one.
     """
 
     db_url: str | None = None
+    read_only: bool = False
+    user: str | None = None
     _engine: Engine | None = field(default=None, repr=False)
 
     def engine(self) -> Engine:
@@ -53,8 +58,18 @@ class AppState:
             from partsel.catalogue import open_catalogue
 
             with bad_input_exits():
-                self._engine = open_catalogue(self.db_url)
+                self._engine = open_catalogue(self.db_url, read_only=self.read_only)
         return self._engine
+
+    def writable_engine(self, what: str) -> Engine:
+        """The engine for a command that changes the catalogue; exit 2 under ``--read-only``."""
+        if self.read_only:
+            message(
+                f"error: partsel runs with --read-only: {what} would change the catalogue; "
+                "nothing was changed."
+            )
+            raise typer.Exit(ExitCode.BAD_INPUT)
+        return self.engine()
 
     def close(self) -> None:
         """Dispose of the engine, if one was opened."""
@@ -75,6 +90,16 @@ def state(ctx: typer.Context) -> AppState:
 def engine(ctx: typer.Context) -> Engine:
     """The catalogue engine selected by ``--db`` / ``$PARTSEL_DB`` / the default file."""
     return state(ctx).engine()
+
+
+def writable_engine(ctx: typer.Context, what: str) -> Engine:
+    """The catalogue engine for a command that changes it (``what``: "load", "edit X")."""
+    return state(ctx).writable_engine(what)
+
+
+def user(ctx: typer.Context) -> str | None:
+    """The ``--user`` / ``$PARTSEL_USER`` name for the history (None: the OS user)."""
+    return state(ctx).user
 
 
 def err_console() -> Console:
@@ -121,12 +146,34 @@ def problems_json(problems: list[Problem]) -> list[dict[str, Any]]:
     ]
 
 
+def _conflict_text(exc: ConflictError) -> None:
+    head, *rest = exc.problems
+    message(f"error: {head}")
+    for p in rest:
+        where = f"field {p.pointer}: " if p.pointer else ""
+        message(f"  {where}{p.message}")
+    if exc.current_version:
+        message(
+            f"nothing was changed: read the part again (partsel show {exc.part_number} "
+            f"--record), make your change on it and pass --expect-version {exc.current_version}."
+        )
+    else:
+        message("nothing was changed.")
+
+
 def fail_bad_input(exc: InputError, *, json_out: bool = False) -> NoReturn:
-    """List every problem on stderr (and as JSON on stdout with ``json_out``); exit 2."""
-    for p in exc.problems:
-        message(f"error: {p}")
-    n = len(exc.problems)
-    message(f"{n} problem{'s' if n != 1 else ''}; nothing was changed.")
+    """List every problem on stderr (and as JSON on stdout with ``json_out``); exit 2.
+
+    A :class:`~partsel.catalogue.history.ConflictError` is shown as one block: the refusal,
+    who changed the part since, and each changed field with its values then and now.
+    """
+    if isinstance(exc, ConflictError):
+        _conflict_text(exc)
+    else:
+        for p in exc.problems:
+            message(f"error: {p}")
+        n = len(exc.problems)
+        message(f"{n} problem{'s' if n != 1 else ''}; nothing was changed.")
     if json_out:
         echo_json(problems_json(exc.problems))
     raise typer.Exit(ExitCode.BAD_INPUT)

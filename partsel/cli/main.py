@@ -1,4 +1,5 @@
-"""The ``partsel`` command: main callback (``--db``) and the registered command modules.
+"""The ``partsel`` command: main callback (``--db``, ``--read-only``, ``--user``) and the
+registered command modules.
 
 Each command module has a ``register(app)`` function that adds its commands; add a module to
 :data:`COMMAND_MODULES` to register it. Commands get the database through
@@ -34,13 +35,32 @@ def main(
             "--db",
             metavar="URL",
             envvar="PARTSEL_DB",
-            help="Catalogue database URL (SQLAlchemy), e.g. sqlite:///parts.sqlite. "
+            help="Catalogue database URL (SQLAlchemy), e.g. sqlite:///parts.sqlite or "
+            "postgresql+psycopg://USER@HOST/DATABASE. "
             "Default: catalogue.sqlite in the user data folder.",
+        ),
+    ] = None,
+    read_only: Annotated[
+        bool,
+        typer.Option(
+            "--read-only",
+            envvar="PARTSEL_READ_ONLY",
+            help="Only read the catalogue: commands that would change it stop with exit "
+            "code 2 (a PostgreSQL role with SELECT rights only is enough).",
+        ),
+    ] = False,
+    user: Annotated[
+        str | None,
+        typer.Option(
+            "--user",
+            metavar="NAME",
+            envvar="PARTSEL_USER",
+            help="Name recorded in the catalogue history for changes. Default: the OS user.",
         ),
     ] = None,
 ) -> None:
     """Choose op-amps for single-supply designs."""
-    st = AppState(db_url=db)
+    st = AppState(db_url=db, read_only=read_only, user=user)
     ctx.obj = st
     ctx.call_on_close(st.close)
     if ctx.invoked_subcommand is None:
