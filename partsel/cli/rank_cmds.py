@@ -180,7 +180,7 @@ def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
             "yes" if r.pareto[i] else "",
             _crossover(r, i),
             fmt_unit(float(r.prediction.glitch_v[i]), "V") if r.prediction.handover[i] else "—",
-            fmt_thd(float(r.prediction.thd_estimate[i])),
+            fmt_thd(float(r.prediction.thd_estimate[i])) + (" →0" if r.fix.applied[i] else ""),
             _fix(r, i),
             fmt_unit(float(ch.value[i, C.IDX["supply_current"]]), "A"),
             fmt_unit(float(ch.value[i, C.IDX["price"]]), "currency unit"),
@@ -284,7 +284,10 @@ def rank_cmd(
             con.print("Relaxation hints (one requirement at a time):")
             for line in lines:
                 con.print(f"  {line}")
-    message(f"THD est.: {THD_LABEL}. Fix ✓: the verdict is for the part with that resistor.")
+    message(
+        f"THD est.: {THD_LABEL}; for class AB / CMOS an upper bound. Fix ✓ (THD →0): the "
+        "verdict is for the part with that resistor fitted, which keeps the stage in one mode."
+    )
     message(CAUTION)
     raise typer.Exit(code)
 

@@ -22,8 +22,8 @@ from partsel.solver.table import CORNERS
 FORMAT = "partsel.ranking/1"
 
 THD_LABEL = (
-    "THD_F estimate from the closed-form crossover glitch shape (partsel's macro-model, "
-    "crossover only; not a simulation or a measurement)"
+    "THD_F estimate of the crossover from partsel's closed-form macro-model (class B: from the "
+    "glitch shape; class AB / CMOS: an upper bound; not a simulation or a measurement)"
 )
 CAUTION = (
     "Estimates from partsel's behavioural macro-model: confirm on the bench or in a full "
