@@ -165,9 +165,9 @@ def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
         "Fix",
         "Supply I",
         "Price",
-        "Tightest check",
+        "Tightest",
     ):
-        t.add_column(head, no_wrap=head in ("Part", "Fix"))
+        t.add_column(head, no_wrap=head in ("Part", "Fix", "Handover", "Tightest", "THD est."))
     ch = r.checks
     for i in rows:
         j = int(r.tightest[i])
@@ -285,7 +285,7 @@ def rank_cmd(
             for line in lines:
                 con.print(f"  {line}")
     message(
-        f"THD est.: {THD_LABEL}; for class AB / CMOS an upper bound. Fix ✓ (THD →0): the "
+        f"THD est.: {THD_LABEL}. Fix ✓ (THD →0): the "
         "verdict is for the part with that resistor fitted, which keeps the stage in one mode."
     )
     message(CAUTION)
