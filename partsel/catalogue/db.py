@@ -253,12 +253,17 @@ def _first_line(exc: BaseException) -> str:
     return text.splitlines()[0] if text else type(orig).__name__
 
 
+#: Errors that :func:`access_error` looks at: SQLAlchemy's wrapped driver errors, and SQLite's
+#: own (the ``BEGIN`` of a transaction goes to the driver directly, unwrapped).
+DatabaseErrors = (sa.exc.DBAPIError, sqlite3.Error)
+
+
 def access_error(
-    engine: Engine | Connection, exc: sa.exc.DBAPIError, what: str
+    engine: Engine | Connection, exc: sa.exc.DBAPIError | sqlite3.Error, what: str
 ) -> InputError | None:
     """A clear error for a database refusal of a change (no write access, busy), else None."""
     where = describe_url(engine.url)
-    orig = exc.orig
+    orig = getattr(exc, "orig", None) or exc
     state = getattr(orig, "sqlstate", None)
     text = str(orig).casefold()
     if state in ("42501", "25006") or "readonly database" in text:
@@ -300,7 +305,7 @@ def write_transaction(engine: Engine, what: str) -> Iterator[Connection]:
                 conn.rollback()
                 raise
             conn.commit()
-    except sa.exc.DBAPIError as exc:
+    except DatabaseErrors as exc:
         err = access_error(engine, exc, what)
         if err is None:
             raise
@@ -340,7 +345,7 @@ def _bring_up_to_date(engine: Engine) -> None:
     where = describe_url(engine.url)
     try:
         current = schema_revision(engine)
-    except sa.exc.DBAPIError as exc:
+    except DatabaseErrors as exc:
         raise InputError(
             f"cannot open the catalogue database {where}: {_first_line(exc)}", pointer="/db"
         ) from exc
@@ -362,7 +367,7 @@ def _bring_up_to_date(engine: Engine) -> None:
         )
     try:
         migrate(engine)
-    except sa.exc.DBAPIError as exc:
+    except DatabaseErrors as exc:
         err = access_error(engine, exc, f"the schema upgrade to revision {head}")
         if err is None:
             raise

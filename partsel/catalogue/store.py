@@ -279,8 +279,8 @@ def load_documents(
             _load_makers(conn, docs, report, False)
             _load_parts(conn, docs, report, None)
         return report
-    change = _Change(current_user(user), datetime.now(UTC), via)
     with write_transaction(engine, via) as conn:
+        change = _Change(current_user(user), datetime.now(UTC), via)  # time taken under the lock
         _load_makers(conn, docs, report, True)
         _load_parts(conn, docs, report, change)
     return report
@@ -379,9 +379,9 @@ def edit_document(
             pointer="/parts",
         )
     part, canon = doc.parts[0], doc.canonical_parts[0]
-    change = _Change(current_user(user), datetime.now(UTC), "edit")
     src = source or f"edit {doc.file}"
     with write_transaction(engine, f"edit {part['part_number']}") as conn:
+        change = _Change(current_user(user), datetime.now(UTC), "edit")
         _load_makers(conn, [doc], LoadReport(), True)
         return _replace_part(conn, part, canon, expected_version, change, "changed", src, doc.file)
 
@@ -446,8 +446,8 @@ def restore_part(
     does not pass today's validation.
     """
     key = part_key(part_number)
-    change = _Change(current_user(user), datetime.now(UTC), "restore")
     with write_transaction(engine, f"restore {part_number}") as conn:
+        change = _Change(current_user(user), datetime.now(UTC), "restore")
         t = part_table
         current = conn.execute(sa.select(t.c.version).where(t.c.part_key == key)).scalar()
         if current is None:
