@@ -1,0 +1,1682 @@
+"""Substitute vetting and side-by-side comparison of parts (numpy / pandas only).
+
+A component engineer replacing an incumbent part asks three things of every candidate, in this
+order (design notes section 1):
+
+* **form**: does it fit the footprint: the same channel count and a package code with the same
+  pinout code (two packages of one code with different pinouts do not fit one footprint);
+* **fit**: does it cover the use: the supply range (the design's rails, or without a design the
+  incumbent's rated range), the temperature range, the lifecycle;
+* **function**: every electrical parameter of :data:`partsel.params.PARAMS` compared
+  direction-aware (:attr:`~partsel.params.ParamDef.worse`) on guaranteed values (``worst-case``
+  basis) or typicals, as better / equal / worse and by how much; plus the output swing headroom
+  at the incumbent's curve points.
+
+With a design, both the incumbent and every candidate are predicted in that circuit in one
+vectorised call of :func:`partsel.physics.analysis.predict_closed_form`, and the candidate's
+in-circuit checks are compared with the incumbent's (:func:`evaluate_circuit`): a conduction-mode
+change where the incumbent had none, a larger glitch, a swing, input or slew margin that no
+longer holds.
+
+Some differences change behaviour even when every number looks better; they are flagged for
+review: another output-stage topology, a much higher gain-bandwidth with a capacitive load, an
+input range that no longer reaches a rail the incumbent's reached (or, with a design, no longer
+covers the bias point), a part that is not unity-gain stable.
+
+Verdicts (partsel's own classes, best first, :data:`VERDICTS`):
+
+``drop-in``
+    form, fit and function all equal or better; no behaviour flag; with a design no in-circuit
+    check worse.
+``fits-this-circuit``
+    some value is worse than the incumbent's, but the design tolerates it (every in-circuit
+    check that judges it still passes); only given with a design.
+``review``
+    a difference that needs an engineer's judgement: a behaviour flag, a worse value no design
+    judges, a lifecycle of not-for-new-designs, a package the board may not use.
+``unsuitable``
+    wrong footprint or channel count, obsolete, or an in-circuit check fails that the incumbent
+    passes.
+
+Every candidate carries its reasons (:class:`Reason`), each with an aspect (form, fit,
+function, behaviour, circuit), a severity and a message for people.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from typing import Any, Literal
+
+import numpy as np
+import pandas as pd
+
+from partsel.errors import InputError
+from partsel.params import PARAMS, Lifecycle, Topology
+from partsel.physics.analysis import ClosedForm, predict_closed_form
+from partsel.physics.circuit import Design
+from partsel.physics.fix import size_fix
+from partsel.physics.stage import Basis, StageParams
+
+Verdict = Literal["drop-in", "fits-this-circuit", "review", "unsuitable"]
+#: Verdict classes, best first.
+VERDICTS: tuple[Verdict, ...] = ("drop-in", "fits-this-circuit", "review", "unsuitable")
+Severity = Literal["fail", "review", "circuit-ok", "info"]
+#: Severities of a reason, worst first; the worst one present sets the verdict.
+SEVERITIES: tuple[Severity, ...] = ("fail", "review", "circuit-ok", "info")
+_VERDICT_OF: dict[str, Verdict] = {
+    "fail": "unsuitable",
+    "review": "review",
+    "circuit-ok": "fits-this-circuit",
+}
+Aspect = Literal["form", "fit", "function", "behaviour", "circuit"]
+Change = Literal["better", "equal", "worse", "unknown", "n/a"]
+BASES: tuple[Basis, ...] = ("worst-case", "typical")
+
+#: Printed with every vetting and comparison (and in their JSON).
+CAUTION = (
+    "Verdicts compare catalogue values and partsel's behavioural macro-model predictions: "
+    "confirm a substitute against its datasheet and on the bench before release, and follow "
+    "your organisation's design rules where safety is involved."
+)
+
+#: A candidate whose gain-bandwidth is at least this many times the incumbent's is flagged when
+#: the output drives a capacitance (partsel's choice: a load pole that sat a factor of three
+#: above the incumbent's loop crossover then sits at the candidate's, and the phase margin
+#: there is gone; common practice for a single-pole loop with an output-resistance pole).
+GBW_FLAG_RATIO = 3.0
+#: Relative tolerance within which two catalogue values count as equal (parsing round-off).
+EQUAL_RTOL = 1e-6
+#: Relative change below which an in-circuit figure counts as unchanged (partsel's choice).
+CIRCUIT_RTOL = 0.01
+#: Absolute change below which an in-circuit figure counts as unchanged, per unit.
+CIRCUIT_ATOL: dict[str, float] = {
+    "V": 1e-3,
+    "A": 1e-9,
+    "degC": 0.1,
+    "Hz": 1.0,
+    "1": 1e-6,
+    "V/V": 1e-6,
+}
+
+#: SI unit of each parameter dimension (partsel.units.SI_UNIT, repeated here so that the solver
+#: does not import pint).
+_DIM_UNIT: dict[str, str] = {
+    "voltage": "V",
+    "current": "A",
+    "frequency": "Hz",
+    "slew": "V/s",
+    "capacitance": "F",
+    "noise_voltage": "V/rtHz",
+}
+#: Parameters that the in-circuit prediction judges (so a worse value can still fit a circuit).
+_JUDGED_IN_CIRCUIT: frozenset[str] = frozenset(
+    {
+        "supply_current",
+        "cm_headroom_neg",
+        "cm_headroom_pos",
+        "gbw",
+        "slew_rise",
+        "slew_fall",
+        "cap_load_limit",
+        "dead_band",
+        "stage_current",
+        "source_limit",
+        "sink_limit",
+        "swing_pos",
+        "swing_neg",
+        "junction_max_c",
+        "theta_ja_k_per_w",
+    }
+)
+#: Parameters the circuit model does not judge, with the design requirement that limits them
+#: (canonical key in ``Design.requirements["limits"]``, SI value).
+_REQUIREMENT_LIMIT: dict[str, str] = {
+    "offset_voltage": "max_offset",
+    "bias_current": "max_bias_current",
+    "noise_density": "max_noise",
+}
+#: What each output stage does, for the topology flag (design notes section 2).
+_TOPOLOGY_TEXT: dict[str, str] = {
+    Topology.CLASS_A.value: "a class-A follower: it sinks at most its bias current, and the "
+    "output flattens where the load must sink more",
+    Topology.CLASS_B_PULLDOWN.value: "a class-B stage with a pull-down: it crosses a dead band "
+    "(a crossover glitch) where the load must sink more than the pull-down current",
+    Topology.CLASS_AB.value: "a class-AB stage: no dead band, but a quiescent output current, "
+    "and its own swing and supply current",
+    Topology.CMOS_RAIL.value: "a CMOS rail-to-rail stage: no dead band; its swing to the rails "
+    "shrinks with the load current",
+}
+
+
+# ---- small helpers -----------------------------------------------------------------------------
+
+_PREFIXES = (
+    (1e12, "T"),
+    (1e9, "G"),
+    (1e6, "M"),
+    (1e3, "k"),
+    (1.0, ""),
+    (1e-3, "m"),
+    (1e-6, "u"),
+    (1e-9, "n"),
+    (1e-12, "p"),
+    (1e-15, "f"),
+)
+
+
+def fmt(value: float | None, unit: str) -> str:
+    """A value for people, with an engineering prefix (``fmt(4.7e-6, "F") == "4.7 uF"``).
+
+    Slew rates are shown in V/us, temperatures in degC, ratios (unit ``"1"``) bare.
+    """
+    if value is None or not math.isfinite(value):
+        return "n/a" if value is None or math.isnan(value) else ("inf" if value > 0 else "-inf")
+    if unit == "degC":
+        return f"{value:.4g} degC"
+    if unit == "1":
+        return f"{value:.3g}"
+    if unit == "V/s":
+        return f"{value / 1e6:.3g} V/us"
+    if value == 0:
+        return f"0 {unit}"
+    mag = abs(value)
+    for scale, prefix in _PREFIXES:
+        if mag >= scale * 0.9995:
+            return f"{value / scale:.3g} {prefix}{unit}"
+    scale, prefix = _PREFIXES[-1]
+    return f"{value / scale:.3g} {prefix}{unit}"
+
+
+def _pct(new: float, old: float) -> str:
+    """Relative change ``(new - old) / |old|`` as a signed percentage ('' when meaningless)."""
+    if not (math.isfinite(new) and math.isfinite(old)) or old == 0:
+        return ""
+    return f" ({(new - old) / abs(old) * 100:+.0f} %)"
+
+
+def _float(x: Any) -> float | None:
+    """A JSON-friendly float (None for NaN / inf / missing)."""
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def _num(frame: pd.DataFrame, name: str) -> np.ndarray:
+    """Float column ``name`` (NaN when the frame has no such column)."""
+    if name in frame.columns:
+        col = pd.to_numeric(frame[name], errors="coerce")
+        return np.array(col.to_numpy(dtype=float, na_value=np.nan), dtype=float)  # a copy
+    return np.full(len(frame), np.nan)
+
+
+def _txt(frame: pd.DataFrame, name: str, default: str = "") -> list[str]:
+    """Text column ``name`` as a list of str ('' for missing values)."""
+    if name not in frame.columns:
+        return [default] * len(frame)
+    return [
+        "" if (v is None or (isinstance(v, float) and math.isnan(v))) else str(v)
+        for v in frame[name].tolist()
+    ]
+
+
+def parse_packages(text: str) -> tuple[tuple[str, str], ...]:
+    """The ``packages`` column (``'CODE:PINOUT;CODE:PINOUT'``) as (code, pinout) pairs."""
+    out = []
+    for item in str(text or "").split(";"):
+        item = item.strip()
+        if not item:
+            continue
+        code, _, pinout = item.partition(":")
+        out.append((code.strip(), pinout.strip()))
+    return tuple(out)
+
+
+def find_part(frame: pd.DataFrame, part_number: str) -> int:
+    """Row position of ``part_number`` in ``frame`` (case-insensitive, trimmed).
+
+    Raises :class:`~partsel.errors.InputError` for an unknown part number.
+    """
+    key = str(part_number).strip().casefold()
+    keys = [s.strip().casefold() for s in _txt(frame, "part_number")]
+    try:
+        return keys.index(key)
+    except ValueError:
+        raise InputError(f"unknown part number {part_number!r}", pointer="/part_number") from None
+
+
+def _check_basis(basis: str) -> Basis:
+    if basis not in BASES:
+        raise InputError(
+            f"unknown basis {basis!r}: use 'worst-case' or 'typical'", pointer="/basis"
+        )
+    return basis  # type: ignore[return-value]
+
+
+def _requirements(design: Design | None) -> Mapping[str, Any]:
+    req = design.requirements if design is not None else None
+    return req if isinstance(req, Mapping) else {}
+
+
+# ---- parameter values on a basis ---------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class _Sides:
+    """min / typ / max arrays of one parameter (NaN where absent)."""
+
+    vmin: np.ndarray
+    vtyp: np.ndarray
+    vmax: np.ndarray
+
+    def side(self, name: str) -> np.ndarray:
+        return {"min": self.vmin, "typ": self.vtyp, "max": self.vmax}[name]
+
+
+def _sides(frame: pd.DataFrame, key: str) -> _Sides:
+    s = _Sides(_num(frame, f"{key}_min"), _num(frame, f"{key}_typ"), _num(frame, f"{key}_max"))
+    if key == "dead_band":
+        # Only a class-B stage has a dead band; a biased or class-A stage has none (stage.py).
+        zero = np.array([t != Topology.CLASS_B_PULLDOWN.value for t in _txt(frame, "topology")])
+        s = _Sides(*(np.where(zero, 0.0, a) for a in (s.vmin, s.vtyp, s.vmax)))
+    return s
+
+
+def _resolve_one(s: _Sides, k: int, order: Sequence[str]) -> tuple[float, str]:
+    for side in order:
+        v = float(s.side(side)[k])
+        if not math.isnan(v):
+            return v, side
+    return math.nan, "none"
+
+
+def _pair(
+    s: _Sides, i: int, j: int, worst: str, basis: Basis
+) -> tuple[float, str, float, str, str]:
+    """Values of part ``i`` (incumbent) and ``j`` (candidate) on a common side where possible.
+
+    Worst-case basis: both guaranteed values (``worst``) if both parts give one, else both
+    typicals, else each part's own value. Typical basis: typicals, else guaranteed values.
+    Returns (incumbent, side, candidate, side, note) with note '' (like with like),
+    'typical' (guarantee missing on the incumbent's side), 'no-guarantee' (the candidate gives
+    none where the incumbent does) or 'mixed'.
+    """
+    other = "max" if worst == "min" else "min"
+    first, second = (worst, "typ") if basis == "worst-case" else ("typ", worst)
+    for side in (first, second):
+        a, b = float(s.side(side)[i]), float(s.side(side)[j])
+        if not (math.isnan(a) or math.isnan(b)):
+            note = ""
+            if basis == "worst-case" and side == "typ":
+                cand_has = not math.isnan(float(s.side(worst)[j]))
+                inc_has = not math.isnan(float(s.side(worst)[i]))
+                note = "no-guarantee" if inc_has and not cand_has else "typical"
+            return a, side, b, side, note
+    order = (first, second, other)
+    a, sa = _resolve_one(s, i, order)
+    b, sb = _resolve_one(s, j, order)
+    return a, sa, b, sb, "mixed"
+
+
+def _change(inc: float, cand: float, worse: str) -> Change:
+    if math.isnan(inc):
+        return "n/a"
+    if math.isnan(cand):
+        return "unknown"
+    if abs(cand - inc) <= EQUAL_RTOL * max(abs(cand), abs(inc)) + 1e-18:
+        return "equal"
+    cand_worse = cand < inc if worse == "low" else cand > inc
+    return "worse" if cand_worse else "better"
+
+
+# ---- results -----------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Reason:
+    """One reason behind a verdict."""
+
+    aspect: Aspect
+    severity: Severity
+    code: str  #: stable identifier for scripts, e.g. ``"topology"``, ``"circuit-swing_low"``
+    message: str  #: one sentence for people
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "aspect": self.aspect,
+            "severity": self.severity,
+            "code": self.code,
+            "message": self.message,
+        }
+
+
+@dataclass(frozen=True)
+class ParamComparison:
+    """One parameter of a candidate against the incumbent's; SI units."""
+
+    key: str
+    unit: str
+    worse: Literal["low", "high"]  #: which direction is pessimistic
+    incumbent: float
+    candidate: float
+    side_incumbent: str  #: side of the range used ('min', 'typ', 'max', 'value', 'none')
+    side_candidate: str
+    change: Change
+    note: str = ""  #: '', 'typical', 'no-guarantee', 'mixed' (see :func:`_pair`)
+    at_current_a: float | None = None  #: swing headroom: the output current compared at
+
+    @property
+    def delta(self) -> float:
+        """Candidate minus incumbent (SI)."""
+        return self.candidate - self.incumbent
+
+    @property
+    def ratio(self) -> float | None:
+        """Candidate over incumbent where both are positive."""
+        if self.incumbent > 0 and self.candidate > 0:
+            return self.candidate / self.incumbent
+        return None
+
+    def text(self) -> str:
+        """``key a vs b (+x %)`` for people."""
+        return (
+            f"{self.key} {fmt(self.candidate, self.unit)} vs "
+            f"{fmt(self.incumbent, self.unit)}{_pct(self.candidate, self.incumbent)}"
+        )
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "parameter": self.key,
+            "unit": self.unit,
+            "worse": self.worse,
+            "incumbent": _float(self.incumbent),
+            "candidate": _float(self.candidate),
+            "side_incumbent": self.side_incumbent,
+            "side_candidate": self.side_candidate,
+            "change": self.change,
+            "delta": _float(self.delta),
+            "ratio": _float(self.ratio),
+            "note": self.note,
+            "at_current_a": _float(self.at_current_a),
+        }
+
+
+@dataclass(frozen=True)
+class CircuitCheck:
+    """One in-circuit figure used to compare parts in a design.
+
+    ``ok_rule``: how the figure passes (``">=0"``, ``">=1"``, ``"<=1"``, ``"bool"`` for a flag
+    held in ``ok`` only, ``""`` for a figure that is only compared). ``fail_severity``: what a
+    failure the incumbent does not have means for a substitute. ``worse_severity``: what a worse
+    (but passing) figure means.
+    """
+
+    name: str
+    unit: str
+    higher_is_better: bool
+    ok_rule: str
+    fail_severity: Severity
+    worse_severity: Severity
+    description: str
+
+    @property
+    def label(self) -> str:
+        """Short name for messages."""
+        return _CHECK_LABEL.get(self.name, self.name)
+
+
+_CHECK_LABEL: dict[str, str] = {
+    "supply_range": "room to the supply-range limits",
+    "temperature": "room to the rated temperature range",
+    "input_cm_low": "input common-mode margin at the bottom",
+    "input_cm_high": "input common-mode margin at the top",
+    "swing_high": "swing margin to V+",
+    "swing_low": "swing margin to V-",
+    "source_current": "source-current margin",
+    "sink_current": "sink-current margin",
+    "slew": "slew-rate margin (ratio to what the signal needs)",
+    "stability": "stability margin (noise gain over the minimum stable gain)",
+    "junction_temp": "junction-temperature margin",
+    "cap_load": "load capacitance over the stated limit",
+    "conduction": "least source-device current",
+    "glitch": "crossover glitch (closed form)",
+    "thd_estimate": "crossover THD_F estimate (closed form)",
+    "closed_loop_bw": "closed-loop bandwidth",
+    "supply_current": "supply current in the design",
+}
+
+CIRCUIT_CHECKS: tuple[CircuitCheck, ...] = (
+    CircuitCheck("supply_range", "V", True, ">=0", "fail", "info",
+                 "Room between the design's total supply and the part's supply range"),
+    CircuitCheck("temperature", "degC", True, ">=0", "fail", "info",
+                 "Room between the design's ambient range and the part's rated range"),
+    CircuitCheck("input_cm_low", "V", True, ">=0", "fail", "circuit-ok",
+                 "Lowest input level above the bottom of the input common-mode range"),
+    CircuitCheck("input_cm_high", "V", True, ">=0", "fail", "circuit-ok",
+                 "Highest input level below the top of the input common-mode range"),
+    CircuitCheck("swing_high", "V", True, ">=0", "fail", "circuit-ok",
+                 "Swing margin to V+ at the source current flowing then"),
+    CircuitCheck("swing_low", "V", True, ">=0", "fail", "circuit-ok",
+                 "Swing margin to V- at the sink current flowing then"),
+    CircuitCheck("source_current", "A", True, ">=0", "fail", "circuit-ok",
+                 "Source current limit minus the peak source current"),
+    CircuitCheck("sink_current", "A", True, ">=0", "fail", "circuit-ok",
+                 "Sink current limit minus the peak sink current"),
+    CircuitCheck("slew", "1", True, ">=1", "fail", "circuit-ok",
+                 "Slew rate (slower edge) over the 2 pi f A the signal needs"),
+    CircuitCheck("stability", "V/V", True, ">=0", "fail", "circuit-ok",
+                 "Noise gain minus the part's minimum stable gain"),
+    CircuitCheck("junction_temp", "degC", True, ">=0", "fail", "circuit-ok",
+                 "Junction temperature margin at the highest ambient"),
+    CircuitCheck("cap_load", "1", False, "<=1", "review", "circuit-ok",
+                 "Load capacitance over the part's stated capacitive-load limit"),
+    CircuitCheck("conduction", "A", True, "bool", "fail", "circuit-ok",
+                 "Least source-device current over the period; fails where the stage changes "
+                 "conduction mode (class A / B)"),
+    CircuitCheck("glitch", "V", False, "", "review", "review",
+                 "Crossover glitch (closed-form estimate)"),
+    CircuitCheck("thd_estimate", "1", False, "", "review", "review",
+                 "THD_F estimate of the crossover (closed form)"),
+    CircuitCheck("closed_loop_bw", "Hz", True, "", "circuit-ok", "circuit-ok",
+                 "Closed-loop bandwidth GBW / noise gain"),
+    CircuitCheck("supply_current", "A", False, "", "circuit-ok", "circuit-ok",
+                 "Mean supply current of the package in the design"),
+)  # fmt: skip
+CIRCUIT_CHECK_BY_NAME: dict[str, CircuitCheck] = {c.name: c for c in CIRCUIT_CHECKS}
+
+
+@dataclass(frozen=True)
+class CircuitResult:
+    """In-circuit figures of P parts in one design (arrays of shape (P,)), on one basis."""
+
+    design: Design
+    basis: Basis
+    stage: StageParams
+    closed: ClosedForm
+    value: dict[str, np.ndarray]
+    ok: dict[str, np.ndarray]  #: bool arrays for checks with a pass rule
+    known: dict[str, np.ndarray]  #: False where the catalogue lacks what the check needs
+    conduction_allowed: bool  #: the design's requirements accept a change of mode
+    fix_r_ohm: np.ndarray  #: recommended fix resistor (NaN: none / not needed)
+    fix_rail: np.ndarray  #: "negative", "positive", "none", "not-needed"
+
+    def failing(self, k: int) -> list[str]:
+        """Names of the checks part ``k`` fails (unknown values count as failing)."""
+        return [c.name for c in CIRCUIT_CHECKS if c.name in self.ok and not self.ok[c.name][k]]
+
+    def rows(self, k: int) -> list[dict[str, Any]]:
+        """Part ``k``'s figures as JSON-friendly rows ``{check, unit, value, ok}``."""
+        out = []
+        for c in CIRCUIT_CHECKS:
+            ok = self.ok.get(c.name)
+            out.append(
+                {
+                    "check": c.name,
+                    "unit": c.unit,
+                    "value": _float(self.value[c.name][k]),
+                    "ok": None if ok is None else bool(ok[k]),
+                }
+            )
+        return out
+
+    def message(self, name: str, k: int) -> str:
+        """Why part ``k`` fails check ``name``, for people."""
+        v = float(self.value[name][k])
+        cf, st, d = self.closed, self.stage, self.design
+        if not bool(self.known[name][k]):
+            return f"{name}: the catalogue lacks the values this check needs"
+        if name == "supply_range":
+            return (
+                f"supply range {fmt(st.supply_min_v[k], 'V')} .. {fmt(st.supply_max_v[k], 'V')}"
+                f" does not include the design's {fmt(d.supply.total_v, 'V')}"
+            )
+        if name == "temperature":
+            return (
+                f"rated ambient range does not cover the design's "
+                f"{d.t_ambient_min_c:g} .. {d.t_ambient_max_c:g} degC (short by {-v:.3g} K)"
+            )
+        if name in ("input_cm_low", "input_cm_high"):
+            lo = d.supply.v_neg_v + float(st.cm_headroom_neg_v[k])
+            hi = d.supply.v_pos_v - float(st.cm_headroom_pos_v[k])
+            bias = _bias_point_v(d)
+            where = "bias point" if not (lo <= bias <= hi) else "input swing"
+            return (
+                f"input common-mode range {fmt(lo, 'V')} .. {fmt(hi, 'V')} does not cover the "
+                f"{where} (bias {fmt(bias, 'V')}; short by {fmt(-v, 'V')})"
+            )
+        if name == "swing_high":
+            return f"output cannot reach the peak: short by {fmt(-v, 'V')} of headroom to V+"
+        if name == "swing_low":
+            return (
+                f"output cannot reach the trough while sinking "
+                f"{fmt(float(cf.sink_peak_a[k]), 'A')}: short by {fmt(-v, 'V')} to V-"
+            )
+        if name == "source_current":
+            return (
+                f"peak source current {fmt(float(cf.source_peak_a[k]), 'A')} exceeds the "
+                f"limit {fmt(float(st.source_limit_a[k]), 'A')}"
+            )
+        if name == "sink_current":
+            return (
+                f"peak sink current {fmt(float(cf.sink_peak_a[k]), 'A')} exceeds the limit "
+                f"{fmt(float(st.sink_limit_a[k]), 'A')}"
+            )
+        if name == "slew":
+            return (
+                f"slew-limited: has {v:.3g}x the {fmt(cf.slew_required_v_per_s, 'V/s')} the "
+                "signal needs (full-power bandwidth SR / (2 pi A))"
+            )
+        if name == "stability":
+            return (
+                f"not stable at the design's noise gain {d.noise_gain:g} (minimum stable gain "
+                f"{float(st.min_stable_gain[k]):g})"
+            )
+        if name == "junction_temp":
+            return f"junction temperature {float(cf.t_junction_c[k]):.1f} degC exceeds its maximum"
+        if name == "cap_load":
+            return f"load capacitance is {v:.3g}x the part's stated limit"
+        if name == "conduction":
+            text = (
+                f"changes conduction mode: the load sinks up to "
+                f"{fmt(-float(cf.i_out_min_a[k]), 'A')} but the stage current is "
+                f"{fmt(float(st.stage_current_a[k]), 'A')}; glitch about "
+                f"{fmt(float(cf.glitch_v[k]), 'V')} (closed form)"
+            )
+            r = float(self.fix_r_ohm[k])
+            if math.isfinite(r):
+                rail = self.fix_rail[k]
+                text += f"; a {fmt(r, 'ohm')} resistor to the {rail} rail keeps it in one mode"
+            return text
+        return f"{name} {fmt(v, CIRCUIT_CHECK_BY_NAME[name].unit)}"
+
+
+def _bias_point_v(design: Design) -> float:
+    """DC level at the non-inverting input, V (the bias point the input range must cover)."""
+    if design.closed_loop.configuration == "non-inverting":
+        return design.signal.bias_v
+    return design.reference_v
+
+
+def evaluate_circuit(
+    frame: pd.DataFrame, design: Design, basis: Basis = "worst-case"
+) -> CircuitResult:
+    """Every part of ``frame`` in ``design``: one call of predict_closed_form and size_fix.
+
+    The figures are those of :data:`CIRCUIT_CHECKS`; see the module docstring of
+    :mod:`partsel.physics.analysis` for the physics (design notes sections 3 to 6).
+    """
+    basis = _check_basis(basis)
+    stage = StageParams.from_columns(frame, basis)
+    cf = predict_closed_form(stage, design)
+    p = stage.n
+    total = design.supply.total_v
+    t_min = _num(frame, "temp_min_c")
+    t_max = _num(frame, "temp_max_c")
+    with np.errstate(invalid="ignore"):
+        val: dict[str, np.ndarray] = {
+            "supply_range": np.minimum(total - stage.supply_min_v, stage.supply_max_v - total),
+            "temperature": np.minimum(
+                design.t_ambient_min_c - t_min, t_max - design.t_ambient_max_c
+            ),
+            "input_cm_low": np.asarray(cf.cm_low_margin_v, dtype=float),
+            "input_cm_high": np.asarray(cf.cm_high_margin_v, dtype=float),
+            "swing_high": cf.swing_pos_margin_v,
+            "swing_low": cf.swing_neg_margin_v,
+            "source_current": stage.source_limit_a - cf.source_peak_a,
+            "sink_current": stage.sink_limit_a - cf.sink_peak_a,
+            "slew": cf.slew_margin_ratio,
+            "stability": design.noise_gain - stage.min_stable_gain,
+            "junction_temp": cf.t_junction_margin_c,
+            "cap_load": np.asarray(cf.cap_load_ratio, dtype=float),
+            "conduction": cf.min_source_a,
+            "glitch": cf.glitch_v,
+            "thd_estimate": cf.thd_estimate,
+            "closed_loop_bw": cf.closed_loop_bw_hz,
+            "supply_current": cf.supply_current_a,
+        }
+    val = {k: np.broadcast_to(np.asarray(v, dtype=float), (p,)).copy() for k, v in val.items()}
+    known = {k: ~np.isnan(v) for k, v in val.items()}
+    # The junction check needs theta_JA; without it the part is not judged on it (NaN margin).
+    ok: dict[str, np.ndarray] = {}
+    with np.errstate(invalid="ignore"):
+        for c in CIRCUIT_CHECKS:
+            v = val[c.name]
+            if c.ok_rule == ">=0":
+                ok[c.name] = v >= -1e-12
+            elif c.ok_rule == ">=1":
+                ok[c.name] = v >= 1.0 - 1e-12
+            elif c.ok_rule == "<=1":
+                ok[c.name] = ~(v > 1.0)  # no stated limit: not judged
+                known[c.name] = np.ones(p, dtype=bool)
+            elif c.ok_rule == "bool":
+                ok[c.name] = ~np.asarray(cf.handover, dtype=bool)
+    ok["supply_range"] = ok["supply_range"] & np.asarray(cf.supply_in_range, dtype=bool)
+    ok["stability"] = np.asarray(cf.stable_at_gain, dtype=bool)
+    # Junction temperature unknown (no theta_JA): not judged rather than failed.
+    known["junction_temp"] = np.ones(p, dtype=bool)
+    ok["junction_temp"] = ~(val["junction_temp"] < 0)
+    allowed = _requirements(design).get("conduction") == "allowed"
+    try:
+        fx = size_fix(stage, design)
+        r_fix = np.where(fx.recommended == "negative", fx.negative.r_ohm, np.nan)
+        r_fix = np.where(fx.recommended == "positive", fx.positive.r_ohm, r_fix)
+        rail = np.asarray(fx.recommended, dtype=object)
+    except ValueError:  # pragma: no cover - the default series always exists
+        r_fix, rail = np.full(p, np.nan), np.full(p, "none", dtype=object)
+    return CircuitResult(design, basis, stage, cf, val, ok, known, allowed, r_fix, rail)
+
+
+# ---- vetting -----------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class PartSummary:
+    """Identity, form and fit of one part, as plain data."""
+
+    part_number: str
+    maker: str
+    lifecycle: str
+    topology: str
+    channels: int
+    packages: tuple[tuple[str, str], ...]
+    supply_min_v: float
+    supply_max_v: float
+    temp_min_c: float
+    temp_max_c: float
+    price: float
+    currency: str
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "part_number": self.part_number,
+            "maker": self.maker,
+            "lifecycle": self.lifecycle,
+            "topology": self.topology,
+            "channels": self.channels,
+            "packages": [{"code": c, "pinout": p} for c, p in self.packages],
+            "supply_min_v": _float(self.supply_min_v),
+            "supply_max_v": _float(self.supply_max_v),
+            "temp_min_c": _float(self.temp_min_c),
+            "temp_max_c": _float(self.temp_max_c),
+            "price": _float(self.price),
+            "currency": self.currency,
+        }
+
+
+def _summaries(frame: pd.DataFrame) -> list[PartSummary]:
+    cols = {
+        n: _txt(frame, n) for n in ("part_number", "maker", "lifecycle", "topology", "packages")
+    }
+    cur = _txt(frame, "currency")
+    nums = {
+        n: _num(frame, n)
+        for n in ("channels", "supply_min_v", "supply_max_v", "temp_min_c", "temp_max_c", "price")
+    }
+    out = []
+    for k in range(len(frame)):
+        ch = nums["channels"][k]
+        out.append(
+            PartSummary(
+                part_number=cols["part_number"][k],
+                maker=cols["maker"][k],
+                lifecycle=cols["lifecycle"][k],
+                topology=cols["topology"][k],
+                channels=int(ch) if math.isfinite(ch) else 0,
+                packages=parse_packages(cols["packages"][k]),
+                supply_min_v=float(nums["supply_min_v"][k]),
+                supply_max_v=float(nums["supply_max_v"][k]),
+                temp_min_c=float(nums["temp_min_c"][k]),
+                temp_max_c=float(nums["temp_max_c"][k]),
+                price=float(nums["price"][k]),
+                currency=cur[k],
+            )
+        )
+    return out
+
+
+@dataclass(frozen=True)
+class CircuitComparison:
+    """One in-circuit figure of a candidate against the incumbent's."""
+
+    check: str
+    unit: str
+    incumbent: float
+    candidate: float
+    incumbent_ok: bool | None
+    candidate_ok: bool | None
+    change: Change
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "check": self.check,
+            "unit": self.unit,
+            "incumbent": _float(self.incumbent),
+            "candidate": _float(self.candidate),
+            "incumbent_ok": self.incumbent_ok,
+            "candidate_ok": self.candidate_ok,
+            "change": self.change,
+        }
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """One candidate substitute with its verdict and the comparisons behind it."""
+
+    part: PartSummary
+    verdict: Verdict
+    reasons: tuple[Reason, ...]
+    function: tuple[ParamComparison, ...]
+    circuit: tuple[CircuitComparison, ...] | None  #: None without a design
+    common_packages: tuple[str, ...]  #: package codes shared with the same pinout
+    circuit_pass: bool | None  #: every in-circuit check passes (None without a design)
+
+    @property
+    def part_number(self) -> str:
+        return self.part.part_number
+
+    def counts(self) -> dict[str, int]:
+        """How many parameters are better, equal, worse, unknown."""
+        out = {"better": 0, "equal": 0, "worse": 0, "unknown": 0}
+        for c in self.function:
+            if c.change in out:
+                out[c.change] += 1
+        return out
+
+    def sort_key(self) -> tuple[Any, ...]:
+        """Order of fitness: verdict; failures; form, fit and behaviour questions plus worse
+        or unknown parameters; other questions; better parameters; price; part number."""
+        n = self.counts()
+        fails = sum(r.severity == "fail" for r in self.reasons)
+        heavy = sum(r.severity == "review" and r.aspect != "function" for r in self.reasons)
+        light = sum(r.severity == "review" and r.aspect == "function" for r in self.reasons)
+        price = self.part.price if math.isfinite(self.part.price) else math.inf
+        return (
+            VERDICTS.index(self.verdict),
+            fails,
+            heavy + n["worse"] + n["unknown"],
+            light,
+            -n["better"],
+            price,
+            self.part_number.casefold(),
+        )
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            **self.part.to_dict(),
+            "verdict": self.verdict,
+            "reasons": [r.to_dict() for r in self.reasons],
+            "common_packages": list(self.common_packages),
+            "counts": self.counts(),
+            "function": [c.to_dict() for c in self.function],
+            "circuit": None if self.circuit is None else [c.to_dict() for c in self.circuit],
+            "circuit_pass": self.circuit_pass,
+        }
+
+
+@dataclass(frozen=True)
+class Vetting:
+    """Result of :func:`vet_substitutes`: the candidates, best first."""
+
+    incumbent: PartSummary
+    basis: Basis
+    design_name: str | None
+    package: str | None
+    candidates: tuple[Candidate, ...]
+    incumbent_circuit: tuple[dict[str, Any], ...] | None  #: the incumbent's in-circuit figures
+    considered: int  #: how many catalogue parts were examined
+
+    def best(self, verdicts: Sequence[str] = ("drop-in", "fits-this-circuit")) -> list[Candidate]:
+        """The candidates whose verdict is one of ``verdicts``, best first."""
+        return [c for c in self.candidates if c.verdict in verdicts]
+
+    def to_frame(self) -> pd.DataFrame:
+        """One row per candidate: rank, part number, verdict, counts, reasons (joined)."""
+        rows = []
+        for k, c in enumerate(self.candidates, 1):
+            n = c.counts()
+            rows.append(
+                {
+                    "rank": k,
+                    "part_number": c.part_number,
+                    "maker": c.part.maker,
+                    "verdict": c.verdict,
+                    "lifecycle": c.part.lifecycle,
+                    "topology": c.part.topology,
+                    "price": c.part.price,
+                    "better": n["better"],
+                    "equal": n["equal"],
+                    "worse": n["worse"],
+                    "unknown": n["unknown"],
+                    "circuit_pass": c.circuit_pass,
+                    "reasons": " | ".join(r.message for r in c.reasons if r.severity != "info"),
+                }
+            )
+        cols = [
+            "rank",
+            "part_number",
+            "maker",
+            "verdict",
+            "lifecycle",
+            "topology",
+            "price",
+            "better",
+            "equal",
+            "worse",
+            "unknown",
+            "circuit_pass",
+            "reasons",
+        ]
+        return pd.DataFrame(rows, columns=cols)
+
+    def to_dict(self) -> dict[str, Any]:
+        """The documented JSON form (``data-schema/substitutes.schema.json``)."""
+        return {
+            "format": "partsel.substitutes/1",
+            "incumbent": self.incumbent.to_dict(),
+            "basis": self.basis,
+            "design": self.design_name,
+            "package": self.package,
+            "considered": self.considered,
+            "incumbent_circuit": None
+            if self.incumbent_circuit is None
+            else list(self.incumbent_circuit),
+            "candidates": [{"rank": k, **c.to_dict()} for k, c in enumerate(self.candidates, 1)],
+            "caution": CAUTION,
+        }
+
+
+def _form_pool(frame: pd.DataFrame, inc: int) -> np.ndarray:
+    """Rows that could fit the incumbent's footprint: same channels, a shared code:pinout."""
+    ch = _num(frame, "channels")
+    pk = [
+        set((c.upper(), p.upper()) for c, p in parse_packages(t)) for t in _txt(frame, "packages")
+    ]
+    mine = pk[inc]
+    same_ch = ch == ch[inc]
+    shares = np.array([bool(mine & s) for s in pk], dtype=bool)
+    pool = same_ch & shares
+    pool[inc] = False
+    return np.flatnonzero(pool)
+
+
+def _vet_one(
+    inc: PartSummary,
+    cand: PartSummary,
+    sub: pd.DataFrame,
+    j: int,
+    basis: Basis,
+    design: Design | None,
+    package: str | None,
+    circ: CircuitResult | None,
+    like_circ: CircuitResult | None,
+    stage: StageParams,
+) -> Candidate:
+    """Vet row ``j`` of ``sub`` against row 0 (the incumbent)."""
+    reasons: list[Reason] = []
+    has_design = design is not None
+
+    def add(aspect: Aspect, severity: Severity, code: str, msg: str) -> None:
+        reasons.append(Reason(aspect, severity, code, msg))
+
+    # --- form ---------------------------------------------------------------------------------
+    if cand.channels != inc.channels:
+        add(
+            "form",
+            "fail",
+            "channels",
+            f"{cand.channels} channel(s) per package; the incumbent has {inc.channels}",
+        )
+    inc_pk = {(c.upper(), p.upper()): c for c, p in inc.packages}
+    cand_pk = {(c.upper(), p.upper()): c for c, p in cand.packages}
+    common = tuple(inc_pk[k] for k in inc_pk if k in cand_pk)
+    cand_codes = {c.upper(): p for c, p in cand.packages}
+    conflicts = [
+        f"{code} ({cand_codes[code.upper()]} instead of {pin})"
+        for code, pin in inc.packages
+        if code.upper() in cand_codes and (code.upper(), pin.upper()) not in cand_pk
+    ]
+    if package is not None:
+        want = [(c, p) for c, p in inc.packages if c.upper() == package.upper()]
+        if not any((c.upper(), p.upper()) in cand_pk for c, p in want):
+            add(
+                "form",
+                "fail",
+                "package",
+                f"not offered in {package} with the incumbent's pinout"
+                + (f"; same package, other pinout: {', '.join(conflicts)}" if conflicts else ""),
+            )
+    elif not common:
+        msg = "no package with the incumbent's code and pinout"
+        if conflicts:
+            msg += (
+                f"; same package, other pinout (will not fit the footprint): {', '.join(conflicts)}"
+            )
+        add("form", "fail", "package", msg)
+    elif len(common) < len(inc_pk):
+        missing = [c for k, c in inc_pk.items() if k not in cand_pk]
+        add(
+            "form",
+            "review",
+            "package-partial",
+            f"fits the {', '.join(common)} footprint only; the incumbent also comes in "
+            f"{', '.join(missing)}: give the package in use to decide",
+        )
+
+    # --- fit ----------------------------------------------------------------------------------
+    if cand.lifecycle == Lifecycle.OBSOLETE.value:
+        add("fit", "fail", "lifecycle", "obsolete")
+    elif cand.lifecycle == Lifecycle.NOT_FOR_NEW_DESIGNS.value:
+        add("fit", "review", "lifecycle", "not for new designs: a lifecycle risk of its own")
+    elif cand.lifecycle != Lifecycle.ACTIVE.value:
+        add("fit", "review", "lifecycle", f"lifecycle {cand.lifecycle or 'unknown'}")
+    covers_supply = cand.supply_min_v <= inc.supply_min_v and cand.supply_max_v >= inc.supply_max_v
+    covers_temp = cand.temp_min_c <= inc.temp_min_c and cand.temp_max_c >= inc.temp_max_c
+    rng_s = f"{fmt(cand.supply_min_v, 'V')} .. {fmt(cand.supply_max_v, 'V')}"
+    rng_si = f"{fmt(inc.supply_min_v, 'V')} .. {fmt(inc.supply_max_v, 'V')}"
+    rng_t = f"{cand.temp_min_c:g} .. {cand.temp_max_c:g} degC"
+    rng_ti = f"{inc.temp_min_c:g} .. {inc.temp_max_c:g} degC"
+    if not covers_supply:
+        if has_design:
+            # The circuit check 'supply_range' fails it if the design's rails are outside.
+            if bool(circ.ok["supply_range"][j]):  # type: ignore[union-attr]
+                add(
+                    "fit",
+                    "circuit-ok",
+                    "supply-range",
+                    f"supply range {rng_s} is narrower than the incumbent's {rng_si} but covers "
+                    f"the design's {fmt(design.supply.total_v, 'V')}",
+                )
+        else:
+            add(
+                "fit",
+                "review",
+                "supply-range",
+                f"supply range {rng_s} does not cover the incumbent's {rng_si}",
+            )
+    if not covers_temp:
+        if has_design:
+            if bool(circ.ok["temperature"][j]):  # type: ignore[union-attr]
+                add(
+                    "fit",
+                    "circuit-ok",
+                    "temperature",
+                    f"rated {rng_t}, narrower than the incumbent's {rng_ti}, but covers the "
+                    f"design's {design.t_ambient_min_c:g} .. {design.t_ambient_max_c:g} degC",
+                )
+        else:
+            add(
+                "fit",
+                "review",
+                "temperature",
+                f"rated {rng_t}; does not cover the incumbent's {rng_ti}",
+            )
+
+    # --- function -----------------------------------------------------------------------------
+    limits = _requirements(design).get("limits") or {}
+    comps: list[ParamComparison] = []
+    typical_only: list[str] = []
+    same_topology = cand.topology == inc.topology
+    for pdef in PARAMS:
+        unit = _DIM_UNIT.get(pdef.dimension, "")
+        s = _sides(sub, pdef.key)
+        a, sa, b, sb, note = _pair(s, 0, j, pdef.worst_side, basis)
+        change = _change(a, b, pdef.worse)
+        if pdef.key == "stage_current" and not same_topology and change not in ("unknown", "n/a"):
+            change = "n/a"  # pull-down, sink bias and quiescent current are different things
+            note = "other-topology"
+        comp = ParamComparison(pdef.key, unit, pdef.worse, a, b, sa, sb, change, note)
+        comps.append(comp)
+        if note == "typical":
+            typical_only.append(pdef.key)
+        if note == "no-guarantee" and change not in ("unknown", "worse"):
+            add(
+                "function",
+                "review",
+                f"no-guarantee-{pdef.key}",
+                f"{pdef.key}: no guaranteed value, the incumbent has one (typicals compared: "
+                f"{comp.text()})",
+            )
+        _function_reason(comp, has_design, limits, add)
+    for rail, label in (("swing_pos", "V+"), ("swing_neg", "V-")):
+        comp = _swing_comparison(stage, rail, j)
+        if comp is None:
+            continue
+        comps.append(comp)
+        if comp.change == "worse":
+            sev: Severity = "circuit-ok" if has_design else "review"
+            add(
+                "function",
+                sev,
+                f"worse-{rail}",
+                f"needs {fmt(comp.delta, 'V')} more headroom to {label} at "
+                f"{fmt(comp.at_current_a, 'A')} ({fmt(comp.candidate, 'V')} vs "
+                f"{fmt(comp.incumbent, 'V')})",
+            )
+        elif comp.change == "unknown":
+            add("function", "review", f"unknown-{rail}", f"no swing curve to {label}")
+    # theta_JA is per package (the frame keeps the largest), so it is not compared here; the
+    # junction check of the design uses it.
+    a, b = float(_num(sub, "junction_max_c")[0]), float(_num(sub, "junction_max_c")[j])
+    a, b = (150.0 if math.isnan(a) else a), (150.0 if math.isnan(b) else b)
+    comp = ParamComparison(
+        "junction_max_c", "degC", "low", a, b, "value", "value", _change(a, b, "low")
+    )
+    comps.append(comp)
+    if True:
+        key = comp.key
+        if comp.change == "worse":
+            add("function", "circuit-ok" if has_design else "review", f"worse-{key}", comp.text())
+    if typical_only:
+        add(
+            "function",
+            "info",
+            "typical-only",
+            "typical values compared (the incumbent gives no guaranteed value): "
+            + ", ".join(typical_only),
+        )
+
+    # --- behaviour ------------------------------------------------------------------------------
+    if not same_topology:
+        add(
+            "behaviour",
+            "review",
+            "topology",
+            f"another output-stage topology: {cand.topology} instead of {inc.topology}; it is "
+            f"{_TOPOLOGY_TEXT.get(cand.topology, cand.topology)}. The output behaves differently "
+            "even where its figures are better: check the circuit around it (a fix resistor or "
+            "bias chosen for the incumbent's stage)",
+        )
+    gbw_i = float(_resolve_one(_sides(sub, "gbw"), 0, ("typ", "min", "max"))[0])
+    gbw_c = float(_resolve_one(_sides(sub, "gbw"), j, ("typ", "min", "max"))[0])
+    if gbw_i > 0 and gbw_c >= GBW_FLAG_RATIO * gbw_i:
+        c_load = design.load.c_load_f if has_design else None
+        if c_load is None or c_load > 0:
+            where = (
+                f"into the design's {fmt(c_load, 'F')} load capacitance"
+                if c_load
+                else "with any capacitive load (cable, ADC input, long trace)"
+            )
+            add(
+                "behaviour",
+                "review",
+                "gbw-cap-load",
+                f"gain-bandwidth {gbw_c / gbw_i:.3g}x the incumbent's {where}: the faster loop "
+                "has less phase margin against the load pole; check stability and ringing",
+            )
+    msg_i = float(_num(sub, "min_stable_gain")[0])
+    msg_c = float(_num(sub, "min_stable_gain")[j])
+    msg_i = 1.0 if math.isnan(msg_i) else msg_i
+    msg_c = 1.0 if math.isnan(msg_c) else msg_c
+    if msg_c > msg_i * (1 + EQUAL_RTOL):
+        if has_design:
+            if bool(circ.ok["stability"][j]):  # type: ignore[union-attr]
+                add(
+                    "behaviour",
+                    "circuit-ok",
+                    "min-stable-gain",
+                    f"stable only from a gain of {msg_c:g} (incumbent {msg_i:g}); the design's "
+                    f"noise gain {design.noise_gain:g} is enough",
+                )
+        else:
+            add(
+                "behaviour",
+                "review",
+                "min-stable-gain",
+                f"stable only from a noise gain of {msg_c:g} (the incumbent from {msg_i:g})",
+            )
+    if not has_design:
+        for key, rail in (("cm_headroom_neg", "V-"), ("cm_headroom_pos", "V+")):
+            s = _sides(sub, key)
+            order = ("max", "typ", "min") if basis == "worst-case" else ("typ", "max", "min")
+            a = _resolve_one(s, 0, order)[0]
+            b = _resolve_one(s, j, order)[0]
+            if a <= 0 < b:
+                add(
+                    "behaviour",
+                    "review",
+                    f"input-range-{key}",
+                    f"input range no longer reaches {rail} (stops {fmt(b, 'V')} from it): a "
+                    f"circuit biased near {rail} stops working",
+                )
+
+    # --- in circuit -------------------------------------------------------------------------------
+    circuit: tuple[CircuitComparison, ...] | None = None
+    circuit_pass: bool | None = None
+    if circ is not None and like_circ is not None:
+        circuit, circuit_pass = _circuit_reasons(circ, like_circ, j, add)
+
+    worst = next((s for s in SEVERITIES if any(r.severity == s for r in reasons)), "info")
+    verdict: Verdict = _VERDICT_OF.get(worst, "drop-in")
+    order = {s: i for i, s in enumerate(SEVERITIES)}
+    reasons.sort(key=lambda r: order[r.severity])
+    return Candidate(cand, verdict, tuple(reasons), tuple(comps), circuit, common, circuit_pass)
+
+
+def _function_reason(
+    comp: ParamComparison, has_design: bool, limits: Mapping[str, Any], add: Any
+) -> None:
+    """Reason for a worse or unknown parameter (see the module docstring for the rules)."""
+    key = comp.key
+    if comp.change == "unknown":
+        add(
+            "function",
+            "review",
+            f"unknown-{key}",
+            f"{key}: no value in the catalogue "
+            f"(the incumbent's is {fmt(comp.incumbent, comp.unit)})",
+        )
+        return
+    if comp.change != "worse":
+        return
+    if comp.note == "no-guarantee":
+        comp_text = f"{comp.text()} (typicals: no guaranteed value, the incumbent has one)"
+        if not has_design or key not in _JUDGED_IN_CIRCUIT:
+            add("function", "review", f"worse-{key}", f"worse {comp_text}")
+            return
+    if not has_design:
+        add("function", "review", f"worse-{key}", f"worse {comp.text()}")
+        return
+    if key in _JUDGED_IN_CIRCUIT:
+        add("function", "circuit-ok", f"worse-{key}", f"worse {comp.text()}; judged in the circuit")
+        return
+    req = _REQUIREMENT_LIMIT.get(key)
+    lim = limits.get(req) if req else None
+    if isinstance(lim, int | float) and math.isfinite(float(lim)):
+        if comp.candidate <= float(lim):
+            add(
+                "function",
+                "circuit-ok",
+                f"worse-{key}",
+                f"worse {comp.text()}; within the design's {req} {fmt(float(lim), comp.unit)}",
+            )
+        else:
+            add(
+                "function",
+                "fail",
+                f"worse-{key}",
+                f"{comp.text()} exceeds the design's {req} {fmt(float(lim), comp.unit)}",
+            )
+        return
+    add(
+        "function",
+        "circuit-ok",
+        f"worse-{key}",
+        f"worse {comp.text()}; the design sets no limit on it",
+    )
+
+
+def _swing_comparison(stage: StageParams, rail: str, j: int) -> ParamComparison | None:
+    """Candidate ``j``'s headroom to ``rail`` at the incumbent's (part 0) curve currents.
+
+    The comparison keeps the current where the candidate is worst off (largest extra headroom).
+    Currents beyond the candidate's own source (sink) limit are left out: the curve says
+    nothing there, and the limit is compared as a parameter of its own.
+    """
+    ii = stage.swing_pos_i_a if rail == "swing_pos" else stage.swing_neg_i_a
+    vv = stage.swing_pos_v if rail == "swing_pos" else stage.swing_neg_v
+    pts = [
+        (float(ii[0, k]), float(vv[0, k]))
+        for k in range(ii.shape[1])
+        if not (math.isnan(ii[0, k]) or math.isnan(vv[0, k]))
+    ]
+    if not pts:
+        return None
+    sub = stage.take([0, j])
+    used = stage.used.get(rail)
+    side_i = str(used[0]) if used is not None else "typ"
+    side_c = str(used[j]) if used is not None else "typ"
+    if np.all(np.isnan(sub.swing_pos_i_a[1] if rail == "swing_pos" else sub.swing_neg_i_a[1])):
+        i0, h0 = pts[0]
+        return ParamComparison(
+            rail, "V", "high", h0, math.nan, side_i, "none", "unknown", at_current_a=i0
+        )
+    limit = float((sub.source_limit_a if rail == "swing_pos" else sub.sink_limit_a)[1])
+    inside = [(i_a, h) for i_a, h in pts if not i_a > limit]
+    if not inside:
+        i0, h0 = pts[0]
+        return ParamComparison(
+            rail, "V", "high", h0, math.nan, side_i, side_c, "n/a", "beyond-limit", i0
+        )
+    best: tuple[float, float, float, float] | None = None  # (diff, current, cand, inc)
+    diffs = []
+    for i_a, h_inc in inside:
+        cur = np.array([i_a, i_a])
+        h = sub.headroom_pos(cur) if rail == "swing_pos" else sub.headroom_neg(cur)
+        d = float(h[1]) - h_inc
+        diffs.append(d)
+        if best is None or d > best[0]:
+            best = (d, i_a, float(h[1]), h_inc)
+    assert best is not None
+    tol = 1e-6
+    if best[0] > tol:
+        change: Change = "worse"
+    elif min(diffs) < -tol:
+        change = "better"
+    else:
+        change = "equal"
+    return ParamComparison(
+        rail, "V", "high", best[3], best[2], side_i, side_c, change, at_current_a=best[1]
+    )
+
+
+def _circuit_change(c: CircuitCheck, inc: float, cand: float) -> Change:
+    if math.isnan(inc) and math.isnan(cand):
+        return "n/a"
+    if math.isnan(cand):
+        return "unknown"
+    if math.isnan(inc):
+        return "n/a"
+    if math.isinf(inc) and math.isinf(cand) and (inc > 0) == (cand > 0):
+        return "equal"
+    tol = max(CIRCUIT_RTOL * abs(inc) if math.isfinite(inc) else 0.0, CIRCUIT_ATOL.get(c.unit, 0.0))
+    diff = cand - inc if c.higher_is_better else inc - cand
+    if diff < -tol:
+        return "worse"
+    if diff > tol:
+        return "better"
+    return "equal"
+
+
+def _circuit_reasons(
+    circ: CircuitResult, like: CircuitResult, j: int, add: Any
+) -> tuple[tuple[CircuitComparison, ...], bool]:
+    """Compare candidate ``j`` with the incumbent (index 0) check by check.
+
+    ``circ`` holds every part on its own values (what the candidate guarantees); ``like`` the
+    same parts with the candidates' guaranteed values dropped wherever the incumbent gives
+    none, so that the two are compared like with like (see :func:`_like_with_like`).
+    """
+    out: list[CircuitComparison] = []
+    all_ok = True
+    cf = circ.closed
+    for c in CIRCUIT_CHECKS:
+        vi, vc = float(like.value[c.name][0]), float(like.value[c.name][j])
+        oki = circ.ok.get(c.name)
+        ok_i = None if oki is None else bool(like.ok[c.name][0])
+        ok_c = None if oki is None else bool(oki[j])  # on the candidate's own values
+        ok_cl = None if oki is None else bool(like.ok[c.name][j])
+        if ok_c is False:
+            all_ok = False
+        change = _circuit_change(c, vi, vc)
+        out.append(CircuitComparison(c.name, c.unit, vi, vc, ok_i, ok_c, change))
+        code = f"circuit-{c.name}"
+        if c.name == "conduction" and circ.conduction_allowed:
+            # The design accepts a change of mode; glitch and THD are compared instead.
+            if ok_c is False and ok_i is True:
+                add("circuit", "review", code, circ.message(c.name, j) + " (the design allows it)")
+            continue
+        if ok_c is False and ok_i is not False:
+            if ok_cl is True:
+                add(
+                    "circuit",
+                    "review",
+                    code,
+                    f"{circ.message(c.name, j)} on its guaranteed values; the incumbent gives "
+                    "only typical values here, and on those both pass",
+                )
+            else:
+                add("circuit", c.fail_severity, code, circ.message(c.name, j))
+            continue
+        if ok_c is False and ok_i is False:
+            add("circuit", "info", code, f"as the incumbent: {circ.message(c.name, j)}")
+            continue
+        if ok_c is True and ok_i is False:
+            add("circuit", "info", code, f"{c.label}: passes where the incumbent fails")
+            continue
+        if change == "worse" and c.worse_severity != "info":
+            if c.name in ("glitch", "thd_estimate") and not (vi > 0 or vc > 0):
+                continue
+            add(
+                "circuit",
+                c.worse_severity,
+                code,
+                f"{c.label}: {fmt(vc, c.unit)} vs {fmt(vi, c.unit)} for the incumbent",
+            )
+    marg_c = bool(cf.marginal[j])
+    marg_i = bool(like.closed.marginal[0]) or bool(like.closed.handover[0])
+    if marg_c and not marg_i:
+        add(
+            "circuit",
+            "review",
+            "circuit-marginal",
+            f"stays in source mode only barely: least source-device current "
+            f"{fmt(float(cf.min_source_a[j]), 'A')} of a stage current of "
+            f"{fmt(float(circ.stage.stage_current_a[j]), 'A')} (audible distortion near the "
+            "handover level)",
+        )
+    return tuple(out), all_ok
+
+
+def _like_with_like(sub: pd.DataFrame, basis: Basis) -> pd.DataFrame:
+    """``sub`` with the candidates' guaranteed values dropped where the incumbent (row 0) has
+    none (worst-case basis only), so that both fall back to their typicals.
+
+    An incumbent without a guaranteed minimum GBW, say, is otherwise judged on its typical
+    while a candidate is judged on its guarantee: the candidate would look worse only because
+    its datasheet says more.
+    """
+    if basis != "worst-case" or len(sub) < 2:
+        return sub
+    out = sub.copy()
+    for pdef in PARAMS:
+        col = f"{pdef.key}_{pdef.worst_side}"
+        typ = f"{pdef.key}_typ"
+        if col in out.columns and typ in out.columns and math.isnan(_num(out, col)[0]):
+            vals = _num(out, col)
+            has_typ = ~np.isnan(_num(out, typ))
+            vals[1:] = np.where(has_typ[1:], np.nan, vals[1:])
+            out[col] = vals
+    for rail in ("swing_pos", "swing_neg"):
+        cols = [c for c in out.columns if c.startswith(f"{rail}_v") and c.endswith("_max")]
+        if cols and all(math.isnan(_num(out, c)[0]) for c in cols):
+            for c in cols:
+                typ = c[: -len("_max")] + "_typ"
+                vals = _num(out, c)
+                has_typ = ~np.isnan(_num(out, typ))
+                vals[1:] = np.where(has_typ[1:], np.nan, vals[1:])
+                out[c] = vals
+    return out
+
+
+def vet_substitutes(
+    frame: pd.DataFrame,
+    incumbent: str,
+    design: Design | None = None,
+    basis: Basis = "worst-case",
+    *,
+    candidates: Sequence[str] | None = None,
+    package: str | None = None,
+    include_unsuitable: bool = False,
+    limit: int | None = None,
+) -> Vetting:
+    """Vet substitutes for ``incumbent`` (a part number in ``frame``), best first.
+
+    Parameters
+    ----------
+    frame: the parts table (:func:`partsel.catalogue.parts_frame`).
+    incumbent: part number to replace (case-insensitive).
+    design: optional circuit: judges fit against its rails and ambient, and compares the
+        in-circuit behaviour of every candidate with the incumbent's.
+    basis: ``"worst-case"`` (guaranteed values; default) or ``"typical"``.
+    candidates: part numbers to vet (default: every part with the incumbent's channel count and
+        a package of the same code and pinout). Named candidates are always reported.
+    package: the package code on the board (e.g. ``"SO-8"``); without it a candidate that
+        fits only some of the incumbent's packages needs review.
+    include_unsuitable: also list unsuitable candidates from the default pool.
+    limit: at most this many candidates.
+
+    Raises :class:`~partsel.errors.InputError` for an unknown part number, a package the
+    incumbent does not come in, or an unknown basis.
+    """
+    basis = _check_basis(basis)
+    inc = find_part(frame, incumbent)
+    inc_summary = _summaries(frame.iloc[[inc]])[0]
+    if package is not None and not any(
+        c.upper() == package.strip().upper() for c, _ in inc_summary.packages
+    ):
+        offered = ", ".join(c for c, _ in inc_summary.packages) or "none"
+        raise InputError(
+            f"{inc_summary.part_number} does not come in {package!r} (offered: {offered})",
+            pointer="/package",
+        )
+    package = package.strip() if package is not None else None
+    if candidates is not None:
+        rows = []
+        for pn in candidates:
+            k = find_part(frame, pn)
+            if k != inc and k not in rows:
+                rows.append(k)
+        pool = np.array(rows, dtype=int)
+        keep_unsuitable = True
+    else:
+        if include_unsuitable:
+            pool = np.flatnonzero(np.arange(len(frame)) != inc)
+        else:
+            pool = _form_pool(frame, inc)
+        keep_unsuitable = include_unsuitable
+    sub = frame.iloc[np.concatenate([[inc], pool]).astype(int)].reset_index(drop=True)
+    like = _like_with_like(sub, basis)
+    stage = StageParams.from_columns(like, basis)
+    circ = like_circ = None
+    if design is not None:
+        circ = evaluate_circuit(sub, design, basis)
+        like_circ = evaluate_circuit(like, design, basis) if like is not sub else circ
+    summaries = _summaries(sub)
+    out = [
+        _vet_one(summaries[0], summaries[j], sub, j, basis, design, package, circ, like_circ, stage)
+        for j in range(1, len(sub))
+    ]
+    if not keep_unsuitable:
+        out = [c for c in out if c.verdict != "unsuitable"]
+    out.sort(key=Candidate.sort_key)
+    if limit is not None:
+        out = out[: max(int(limit), 0)]
+    inc_circ = tuple(circ.rows(0)) if circ is not None else None
+    return Vetting(
+        incumbent=summaries[0],
+        basis=basis,
+        design_name=design.name if design is not None else None,
+        package=package,
+        candidates=tuple(out),
+        incumbent_circuit=inc_circ,
+        considered=int(pool.size),
+    )
+
+
+# ---- side-by-side comparison -------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class ComparisonRow:
+    """One row of a side-by-side comparison: one value per part."""
+
+    key: str
+    group: str  #: identity, fit, function, circuit
+    unit: str
+    values: tuple[Any, ...]
+    sides: tuple[str, ...] | None = None  #: side of the range used per part (parameters)
+    better: Literal["low", "high"] | None = None  #: which direction is better (None: no order)
+    best: tuple[int, ...] = ()  #: indices of the best parts (empty: no order or all equal)
+    ok: tuple[bool | None, ...] | None = None  #: in-circuit pass / fail per part
+
+    @property
+    def differs(self) -> bool:
+        vals = [
+            _float(v) if isinstance(v, float | int) and not isinstance(v, bool) else v
+            for v in self.values
+        ]
+        return len({repr(v) for v in vals}) > 1
+
+    def to_dict(self) -> dict[str, Any]:
+        def j(v: Any) -> Any:
+            if isinstance(v, bool) or v is None or isinstance(v, str | int):
+                return v
+            return _float(v)
+
+        return {
+            "key": self.key,
+            "group": self.group,
+            "unit": self.unit,
+            "values": [j(v) for v in self.values],
+            "sides": None if self.sides is None else list(self.sides),
+            "better": self.better,
+            "best": list(self.best),
+            "ok": None if self.ok is None else list(self.ok),
+            "differs": self.differs,
+        }
+
+
+@dataclass(frozen=True)
+class Comparison:
+    """Result of :func:`compare_parts`."""
+
+    parts: tuple[str, ...]
+    basis: Basis
+    design_name: str | None
+    rows: tuple[ComparisonRow, ...]
+
+    def to_frame(self) -> pd.DataFrame:
+        """Rows = attributes, one column per part, plus ``unit`` and ``best`` (part numbers)."""
+        data = []
+        for r in self.rows:
+            rec: dict[str, Any] = {"key": r.key, "group": r.group, "unit": r.unit}
+            for pn, v in zip(self.parts, r.values, strict=True):
+                rec[pn] = v
+            rec["best"] = ", ".join(self.parts[i] for i in r.best)
+            data.append(rec)
+        return pd.DataFrame(data).set_index("key")
+
+    def to_dict(self) -> dict[str, Any]:
+        """The documented JSON form (``data-schema/substitutes.schema.json``, comparison)."""
+        return {
+            "format": "partsel.comparison/1",
+            "parts": list(self.parts),
+            "basis": self.basis,
+            "design": self.design_name,
+            "rows": [r.to_dict() for r in self.rows],
+            "caution": CAUTION,
+        }
+
+
+def _best(values: Sequence[float], better: str) -> tuple[int, ...]:
+    arr = np.array([np.nan if v is None else float(v) for v in values], dtype=float)
+    ok = ~np.isnan(arr)
+    if ok.sum() < 2:
+        return ()
+    target = np.nanmax(arr) if better == "high" else np.nanmin(arr)
+    tol = EQUAL_RTOL * max(abs(target), 1e-300)
+    idx = tuple(int(i) for i in np.flatnonzero(ok & (np.abs(arr - target) <= tol)))
+    return () if len(idx) == ok.sum() else idx
+
+
+def compare_parts(
+    frame: pd.DataFrame,
+    parts: Sequence[str],
+    design: Design | None = None,
+    basis: Basis = "worst-case",
+) -> Comparison:
+    """Two to four named parts side by side (values on ``basis``, best marked per row).
+
+    With a design, the in-circuit figures of :data:`CIRCUIT_CHECKS` follow (one call of
+    predict_closed_form for all the parts).
+    """
+    basis = _check_basis(basis)
+    if not 2 <= len(parts) <= 4:
+        raise InputError(f"compare takes 2 to 4 parts, got {len(parts)}", pointer="/parts")
+    rows_idx = [find_part(frame, p) for p in parts]
+    if len(set(rows_idx)) != len(rows_idx):
+        raise InputError("a part is named twice", pointer="/parts")
+    sub = frame.iloc[rows_idx].reset_index(drop=True)
+    summ = _summaries(sub)
+    rows: list[ComparisonRow] = []
+
+    def ident(key: str, vals: Sequence[Any], unit: str = "", better: str | None = None) -> None:
+        best = _best(vals, better) if better else ()
+        rows.append(
+            ComparisonRow(
+                key,
+                "identity" if key in _IDENT else "fit",
+                unit,
+                tuple(vals),
+                better=better,
+                best=best,
+            )
+        )  # type: ignore[arg-type]
+
+    ident("maker", [s.maker for s in summ])
+    ident("lifecycle", [s.lifecycle for s in summ])
+    ident("topology", [s.topology for s in summ])
+    ident("channels", [s.channels for s in summ])
+    ident("packages", [";".join(f"{c}:{p}" for c, p in s.packages) for s in summ])
+    same_cur = len({s.currency for s in summ}) == 1
+    ident(
+        "price",
+        [s.price for s in summ],
+        summ[0].currency if same_cur else "",
+        "low" if same_cur else None,
+    )
+    ident("supply_min_v", [s.supply_min_v for s in summ], "V", "low")
+    ident("supply_max_v", [s.supply_max_v for s in summ], "V", "high")
+    ident("temp_min_c", [s.temp_min_c for s in summ], "degC", "low")
+    ident("temp_max_c", [s.temp_max_c for s in summ], "degC", "high")
+    ident("junction_max_c", list(_num(sub, "junction_max_c")), "degC", "high")
+    ident("theta_ja_k_per_w", list(_num(sub, "theta_ja_k_per_w")), "K/W", "low")
+    msg = _num(sub, "min_stable_gain")
+    ident("min_stable_gain", list(np.where(np.isnan(msg), 1.0, msg)), "V/V", "low")
+    n = len(sub)
+    for pdef in PARAMS:
+        s = _sides(sub, pdef.key)
+        order = (pdef.worst_side, "typ") if basis == "worst-case" else ("typ", pdef.worst_side)
+        other = "max" if pdef.worst_side == "min" else "min"
+        vals, sides = [], []
+        for k in range(n):
+            v, side = _resolve_one(s, k, (*order, other))
+            vals.append(v)
+            sides.append(side)
+        better = "high" if pdef.worse == "low" else "low"
+        rows.append(
+            ComparisonRow(
+                pdef.key,
+                "function",
+                _DIM_UNIT.get(pdef.dimension, ""),
+                tuple(vals),
+                tuple(sides),
+                better,
+                _best(vals, better),
+            )
+        )  # type: ignore[arg-type]
+    stage = StageParams.from_columns(sub, basis)
+    for rail, fn in (("swing_pos", stage.headroom_pos), ("swing_neg", stage.headroom_neg)):
+        used = stage.used.get(rail)
+        limit = stage.source_limit_a if rail == "swing_pos" else stage.sink_limit_a
+        for i_a in SWING_COMPARE_CURRENTS_A:
+            # Beyond a part's current limit its curve says nothing: n/a.
+            vals = [
+                float(v) if not i_a > lim else math.nan
+                for v, lim in zip(fn(np.full(n, i_a)), limit, strict=True)
+            ]
+            sides = tuple(str(used[k]) if used is not None else "typ" for k in range(n))
+            rows.append(
+                ComparisonRow(
+                    f"{rail}_headroom_at_{fmt(i_a, 'A').replace(' ', '')}",
+                    "function",
+                    "V",
+                    tuple(vals),
+                    sides,
+                    "low",
+                    _best(vals, "low"),
+                )
+            )
+    if design is not None:
+        circ = evaluate_circuit(sub, design, basis)
+        for c in CIRCUIT_CHECKS:
+            vals = [float(v) for v in circ.value[c.name]]
+            okc = circ.ok.get(c.name)
+            better = "high" if c.higher_is_better else "low"
+            rows.append(
+                ComparisonRow(
+                    f"circuit_{c.name}",
+                    "circuit",
+                    c.unit,
+                    tuple(vals),
+                    None,
+                    better,
+                    _best(vals, better),
+                    None if okc is None else tuple(bool(x) for x in okc),
+                )
+            )
+    return Comparison(
+        tuple(s.part_number for s in summ),
+        basis,
+        design.name if design is not None else None,
+        tuple(rows),
+    )
+
+
+_IDENT = frozenset({"maker", "lifecycle", "topology", "channels", "packages", "price"})
+#: Output currents at which a comparison shows the swing headroom, A (no load, 1 mA, 10 mA:
+#: the points a datasheet's swing curve usually covers; common practice).
+SWING_COMPARE_CURRENTS_A: tuple[float, ...] = (0.0, 1e-3, 10e-3)
