@@ -113,40 +113,62 @@ def _window(a: int, b: int, n: int, pad: int = 3, most: int = 24) -> np.ndarray:
     return idx
 
 
-def _class_a_clip(
-    design: Design, i_bias: np.ndarray, n: int = GRID
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def _class_a_clip(design: Design, i_bias: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Flat level, clip depth and THD_F of a class-A output that cannot sink more than
-    ``i_bias`` (one value per part).
+    ``i_bias`` (one value per part), in closed form.
 
     While clipped the load alone holds the output where it draws ``-i_bias``. With an
     AC-coupled load the coupling capacitor settles where its mean current is zero, i.e. its
-    far-end level ``L`` equals the mean of the clipped output (a contraction, iterated).
-    THD_F from the Fourier series of the clipped waveform on the grid (coherent, one period).
+    far-end level ``L`` equals the mean of the clipped output (solved by Newton's method).
+    The clipped sine ``A max(sin t, u)`` equals the sine plus a cosine pulse of half-width
+    ``b = acos(-u)``, whose Fourier coefficients are the classic conduction-angle series
+    (e.g. tuned power-amplifier texts): ``a_1 = (b - sin b cos b) / pi``,
+    ``a_n = [sin((n-1)b)/(n-1) + sin((n+1)b)/(n+1) - 2 cos b sin(nb)/n] / pi``, and the mean
+    ``(sin b - b cos b) / pi``. THD_F over harmonics 2..DEFAULT_HARMONICS.
     """
-    from partsel.physics.spectrum import DEFAULT_HARMONICS, thd
+    from partsel.physics.spectrum import DEFAULT_HARMONICS
 
-    _, v, _ = ideal_grid(design, n)
+    v0, amp = design.out_bias_v, design.out_amplitude_v
     ld = design.load
     ac = ld.r_load_ohm is not None and ld.coupling == "ac"
     rb = resistive_branches(design)
+
+    def pulse_mean(u: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        b = np.arccos(np.clip(-u, -1.0, 1.0))
+        return (np.sin(b) - b * np.cos(b)) / np.pi, b / np.pi  # mean, clipped fraction
+
+    if amp <= 0:
+        nan = np.full(i_bias.shape, np.nan)
+        return nan, np.zeros(i_bias.shape), np.zeros(i_bias.shape)
     if ac:
         g_ac = 1.0 / ld.r_load_ohm
-        level = np.full(i_bias.shape, design.out_bias_v)
-        for _ in range(60):
+        kappa = g_ac / (rb.g_s + g_ac)
+        level = np.full(i_bias.shape, v0)
+        for _ in range(30):
             flat = (rb.i_s + g_ac * level - i_bias) / (rb.g_s + g_ac)
-            new = np.maximum(v[None, :], flat[:, None]).mean(axis=1)
-            if float(np.max(np.abs(new - level))) < 1e-9:
-                level = new
+            m, frac = pulse_mean((flat - v0) / amp)
+            g = level - v0 - amp * m
+            step = g / (1.0 - kappa * frac)
+            level = level - step
+            if float(np.max(np.abs(step))) < 1e-9:
                 break
-            level = new
         flat = (rb.i_s + g_ac * level - i_bias) / (rb.g_s + g_ac)
     else:
         flat = (rb.i_s - i_bias) / rb.g_s if rb.g_s > 0 else np.full(i_bias.shape, -np.inf)
-    wave = np.maximum(v[None, :], flat[:, None])
-    depth = np.maximum(flat - v.min(), 0.0)
-    n_h = min(DEFAULT_HARMONICS, n // 2 - 1)
-    return flat, depth, thd(wave, 1, n_h, definition="F")
+    u = np.clip((flat - v0) / amp, -1.0, 1.0)
+    depth = np.maximum(flat - (v0 - amp), 0.0)
+    b = np.arccos(-u)[:, None]
+    n = np.arange(2, DEFAULT_HARMONICS + 1)[None, :]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        a_n = (
+            np.sin((n - 1) * b) / (n - 1)
+            + np.sin((n + 1) * b) / (n + 1)
+            - 2.0 * np.cos(b) * np.sin(n * b) / n
+        ) / np.pi
+    a_1 = (b[:, 0] - np.sin(b[:, 0]) * np.cos(b[:, 0])) / np.pi
+    with np.errstate(invalid="ignore", divide="ignore"):
+        thd_f = np.sqrt(np.sum(a_n**2, axis=1)) / np.abs(1.0 - a_1)
+    return flat, depth, np.nan_to_num(thd_f, nan=0.0)
 
 
 def ideal_grid(design: Design, n: int = GRID) -> tuple[np.ndarray, np.ndarray, np.ndarray]:

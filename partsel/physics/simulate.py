@@ -93,6 +93,8 @@ def simulate(
     *,
     steps_per_period: int | None = None,
     n_warmup: int = 2,
+    max_warmup: int = 16,
+    settle_v: float = 2e-5,
     n_record: int = 1,
     r_to_neg_ohm: float | np.ndarray | None = None,
     r_to_pos_ohm: float | np.ndarray | None = None,
@@ -122,7 +124,7 @@ def simulate(
     n = steps_per_period or default_steps(stage, design)
     n_harm = min(n_harmonics, n // 2 - 1)
     dt = period / n
-    total = n * (n_warmup + n_record)
+    max_warmup = max(max_warmup, n_warmup)
 
     # --- part parameters (one formula for every topology; see partsel.physics.stage) --------
     topo = stage.topology
@@ -166,8 +168,8 @@ def simulate(
     else:
         v_cap = np.zeros(p)
 
-    # Input drive for every step: omega_t * (v_plus - v_md) at the end of the step.
-    t_all = (np.arange(total) + 1) * dt
+    # Input drive for every step of a period (the drive is periodic and the steps align).
+    t_all = (np.arange(n) + 1) * dt
     drive_in = design.v_plus(t_all) - design.v_minus_drive(t_all)
 
     # --- state ------------------------------------------------------------------------------------
@@ -179,123 +181,149 @@ def simulate(
     i_cap_sum = np.zeros(p)
     unconverged = np.zeros(p, dtype=bool)
     shoot_prev: tuple[np.ndarray, np.ndarray] | None = None
+    shoot_ok = np.zeros(p, dtype=bool)  # shoot_prev holds a usable point for this part
+    settled = np.zeros(p, dtype=bool)
+    period_start = (v.copy(), vd.copy())
+    n_warm_done = 0
+    recording = False
+    k_total = 0
+    j = -1
 
-    for k in range(total):
-        # Per-step constants.
-        c_rate = wt * drive_in[k]
-        base = vd
-        i_const = i_s + c_l * v / dt + ((v_cap + v_ref_l) / r_l if ac else 0.0)
-        # Swing limits linearised around the last output level (one segment per step).
-        ap, sp = stage_pos_curve(vpos - v)
-        an, sn = stage_neg_curve(v - vneg)
-        kp = ap + sp * v  # avail_pos(vo) = kp - sp * vo
-        kn = an - sn * (v - vneg)  # avail_neg(vo) = kn + sn * (vo - vneg)
+    while True:
+        for k in range(n):
+            k_total += 1
+            # Per-step constants.
+            c_rate = wt * drive_in[k]
+            base = vd
+            i_const = i_s + c_l * v / dt + ((v_cap + v_ref_l) / r_l if ac else 0.0)
+            # Swing limits linearised around the last output level (one segment per step).
+            ap, sp = stage_pos_curve(vpos - v)
+            an, sn = stage_neg_curve(v - vneg)
+            kp = ap + sp * v  # avail_pos(vo) = kp - sp * vo
+            kn = an - sn * (v - vneg)  # avail_neg(vo) = kn + sn * (vo - vneg)
 
-        def resid(vo: np.ndarray) -> np.ndarray:
-            rate = np.clip(c_rate - (wt * beta) * vo, -sr_f, sr_r)
-            x = np.clip(base + dt * rate, drive_lo, drive_hi) - vo
-            avail_pos = np.maximum(kp - sp * vo, 0.0)
-            avail_neg = np.maximum(kn + sn * (vo - vneg), 0.0)
-            i_src = np.minimum(
-                np.minimum(i_src0 * np.exp(np.minimum(x * inv_vs, 60.0)), lim_src), avail_pos
-            )
-            i_pd = np.minimum(pd_const + pd_slope * vo, avail_neg)
-            e_snk = np.exp(np.minimum((-x - db) * inv_vs, 60.0))
-            i_snk = np.minimum(
-                np.minimum(i_snk0 * e_snk, lim_snk), np.maximum(avail_neg - i_pd, 0.0)
-            )
-            return i_src - i_snk - i_pd - (g_tot * vo - i_const)
+            def resid(vo: np.ndarray) -> np.ndarray:
+                rate = np.clip(c_rate - (wt * beta) * vo, -sr_f, sr_r)
+                x = np.clip(base + dt * rate, drive_lo, drive_hi) - vo
+                avail_pos = np.maximum(kp - sp * vo, 0.0)
+                avail_neg = np.maximum(kn + sn * (vo - vneg), 0.0)
+                i_src = np.minimum(
+                    np.minimum(i_src0 * np.exp(np.minimum(x * inv_vs, 60.0)), lim_src), avail_pos
+                )
+                i_pd = np.minimum(pd_const + pd_slope * vo, avail_neg)
+                e_snk = np.exp(np.minimum((-x - db) * inv_vs, 60.0))
+                i_snk = np.minimum(
+                    np.minimum(i_snk0 * e_snk, lim_snk), np.maximum(avail_neg - i_pd, 0.0)
+                )
+                return i_src - i_snk - i_pd - (g_tot * vo - i_const)
 
-        # Bracket around the linear extrapolation of the last two steps.
-        v_pred = 2.0 * v - v_old
-        width = 0.1 * np.abs(v - v_old) + 2e-6  # extrapolation is good to second order
-        lo = v_pred - width
-        hi = v_pred + width
-        flo = resid(lo)
-        fhi = resid(hi)
-        for _ in range(12):
-            below = flo < 0  # root below lo (F is decreasing)
-            above = fhi > 0  # root above hi
-            if not (below.any() or above.any()):
-                break
-            width = width * 8.0
-            hi = np.where(below, lo, hi)
-            fhi = np.where(below, flo, fhi)
-            lo = np.where(above, hi, lo)
-            flo = np.where(above, fhi, flo)
-            lo = np.where(below, lo - width, lo)
-            hi = np.where(above, hi + width, hi)
-            flo = np.where(below, resid(lo), flo)
-            fhi = np.where(above, resid(hi), fhi)
-        # Illinois (modified regula falsi) on a decreasing function, F(lo) >= 0 >= F(hi),
-        # iterated until every part's bracket is below tol_v (bisection every 4th step
-        # guarantees progress), at most max_iterations.
-        side = np.zeros(p)
-        for it in range(max_iterations):
+            # Bracket around the linear extrapolation of the last two steps.
+            v_pred = 2.0 * v - v_old
+            width = 0.1 * np.abs(v - v_old) + 2e-6  # extrapolation is good to second order
+            lo = v_pred - width
+            hi = v_pred + width
+            flo = resid(lo)
+            fhi = resid(hi)
+            for _ in range(12):
+                below = flo < 0  # root below lo (F is decreasing)
+                above = fhi > 0  # root above hi
+                if not (below.any() or above.any()):
+                    break
+                width = width * 8.0
+                hi = np.where(below, lo, hi)
+                fhi = np.where(below, flo, fhi)
+                lo = np.where(above, hi, lo)
+                flo = np.where(above, fhi, flo)
+                lo = np.where(below, lo - width, lo)
+                hi = np.where(above, hi + width, hi)
+                flo = np.where(below, resid(lo), flo)
+                fhi = np.where(above, resid(hi), fhi)
+            # Illinois (modified regula falsi) on a decreasing function, F(lo) >= 0 >= F(hi),
+            # iterated until every part's bracket is below tol_v (bisection every 4th step
+            # guarantees progress), at most max_iterations.
+            side = np.zeros(p)
+            for it in range(max_iterations):
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    c = lo + flo * (hi - lo) / (flo - fhi)
+                if it % 4 == 3:
+                    c = 0.5 * (lo + hi)
+                c = np.where((c > lo) & (c < hi), c, 0.5 * (lo + hi))
+                fc = resid(c)
+                up = fc > 0
+                lo = np.where(up, c, lo)
+                hi = np.where(up, hi, c)
+                flo = np.where(up, fc, np.where(side < 0, 0.5 * flo, flo))
+                fhi = np.where(up, np.where(side > 0, 0.5 * fhi, fhi), fc)
+                side = np.where(up, 1.0, -1.0)
+                if it + 1 >= iterations and float(np.max(hi - lo)) < tol_v:
+                    break
+            else:
+                unconverged |= (hi - lo) >= tol_v
             with np.errstate(divide="ignore", invalid="ignore"):
-                c = lo + flo * (hi - lo) / (flo - fhi)
-            if it % 4 == 3:
-                c = 0.5 * (lo + hi)
-            c = np.where((c > lo) & (c < hi), c, 0.5 * (lo + hi))
-            fc = resid(c)
-            up = fc > 0
-            lo = np.where(up, c, lo)
-            hi = np.where(up, hi, c)
-            flo = np.where(up, fc, np.where(side < 0, 0.5 * flo, flo))
-            fhi = np.where(up, np.where(side > 0, 0.5 * fhi, fhi), fc)
-            side = np.where(up, 1.0, -1.0)
-            if it + 1 >= iterations and float(np.max(hi - lo)) < tol_v:
+                v_new = lo + flo * (hi - lo) / (flo - fhi)
+            v_new = np.where((v_new >= lo) & (v_new <= hi), v_new, 0.5 * (lo + hi))
+            v_old = v
+            v = v_new
+            rate = np.clip(c_rate - (wt * beta) * v, -sr_f, sr_r)
+            vd = np.clip(base + dt * rate, drive_lo, drive_hi)
+            if ac:
+                i_c = (v - v_cap - v_ref_l) / r_l
+                v_cap = v_cap + dt * i_c / c_c
+                i_cap_sum += i_c
+            if recording:
+                j += 1
+                x = vd - v
+                avail_pos = np.maximum(kp - sp * v, 0.0)
+                avail_neg = np.maximum(kn + sn * (v - vneg), 0.0)
+                i_src = np.minimum(
+                    np.minimum(i_src0 * np.exp(np.minimum(x * inv_vs, 60.0)), lim_src), avail_pos
+                )
+                i_pd = np.minimum(pd_const + pd_slope * v, avail_neg)
+                i_snk = np.minimum(
+                    np.minimum(i_snk0 * np.exp(np.minimum((-x - db) * inv_vs, 60.0)), lim_snk),
+                    np.maximum(avail_neg - i_pd, 0.0),
+                )
+                rec["v"][j] = v
+                rec["vd"][j] = vd
+                rec["io"][j] = i_src - i_snk - i_pd
+                rec["isrc"][j] = i_src
+                rec["isnk"][j] = i_snk
+                rec["ipd"][j] = i_pd
+        # ---- end of a period -------------------------------------------------------------
+        if recording:
+            if j + 1 >= rec_n:
                 break
-        else:
-            unconverged |= (hi - lo) >= tol_v
-        with np.errstate(divide="ignore", invalid="ignore"):
-            v_new = lo + flo * (hi - lo) / (flo - fhi)
-        v_new = np.where((v_new >= lo) & (v_new <= hi), v_new, 0.5 * (lo + hi))
-        v_old = v
-        v = v_new
-        rate = np.clip(c_rate - (wt * beta) * v, -sr_f, sr_r)
-        vd = np.clip(base + dt * rate, drive_lo, drive_hi)
+            continue
+        n_warm_done += 1
+        change = np.maximum(np.abs(v - period_start[0]), np.abs(vd - period_start[1]))
+        loop_settled = change < 1e-3
         if ac:
-            i_c = (v - v_cap - v_ref_l) / r_l
-            v_cap = v_cap + dt * i_c / c_c
-            i_cap_sum += i_c
-        j = k - n * n_warmup
-        if j >= 0:
-            x = vd - v
-            avail_pos = np.maximum(kp - sp * v, 0.0)
-            avail_neg = np.maximum(kn + sn * (v - vneg), 0.0)
-            i_src = np.minimum(
-                np.minimum(i_src0 * np.exp(np.minimum(x * inv_vs, 60.0)), lim_src), avail_pos
-            )
-            i_pd = np.minimum(pd_const + pd_slope * v, avail_neg)
-            i_snk = np.minimum(
-                np.minimum(i_snk0 * np.exp(np.minimum((-x - db) * inv_vs, 60.0)), lim_snk),
-                np.maximum(avail_neg - i_pd, 0.0),
-            )
-            rec["v"][j] = v
-            rec["vd"][j] = vd
-            rec["io"][j] = i_src - i_snk - i_pd
-            rec["isrc"][j] = i_src
-            rec["isnk"][j] = i_snk
-            rec["ipd"][j] = i_pd
-        if ac and (k + 1) % n == 0 and k < n * n_warmup:
-            # Shooting on the periodicity condition: zero mean coupling-capacitor current.
-            # First step assumes d(mean i)/d(v_cap) = -1/R_L, later steps use the secant.
+            # Shooting on the periodicity condition: zero mean coupling-capacitor current, for
+            # parts whose own loop has settled (a slew-limited loop settles over several periods
+            # and would spoil the estimate). First step d(mean i)/d(v_cap) = -1/R_L, then secant.
             mean_i = i_cap_sum / n
             start = v_cap - dt * i_cap_sum / c_c
-            if shoot_prev is None:
-                slope = np.full(p, -1.0 / r_l)
-            else:
+            slope = np.full(p, -1.0 / r_l)
+            if shoot_prev is not None:
                 dv = start - shoot_prev[0]
                 with np.errstate(divide="ignore", invalid="ignore"):
-                    slope = (mean_i - shoot_prev[1]) / dv
-                slope = np.where((np.abs(dv) > 1e-12) & (slope < -0.02 / r_l), slope, -1.0 / r_l)
+                    sec = (mean_i - shoot_prev[1]) / dv
+                good = shoot_ok & (np.abs(dv) > 1e-12) & (sec < -0.02 / r_l)
+                slope = np.where(good, sec, slope)
             shoot_prev = (start, mean_i)
-            v_cap = start - mean_i / slope
+            shoot_ok = loop_settled
+            v_cap = np.where(loop_settled, start - mean_i / slope, v_cap)
             i_cap_sum[:] = 0.0
+            settled = (change < settle_v) & (np.abs(mean_i) * r_l < settle_v)
+        else:
+            settled = change < settle_v
+        period_start = (v.copy(), vd.copy())
+        if n_warm_done >= n_warmup and (settled.all() or n_warm_done >= max_warmup):
+            recording = True
+            n_warm_rec = n_warm_done
     rec = {key: val.T.copy() for key, val in rec.items()}
 
-    t_rec = (np.arange(rec_n) + 1) * dt + n * n_warmup * dt
+    t_rec = (np.arange(rec_n) + 1) * dt + n * n_warm_rec * dt
     v_id = design.v_ideal(t_rec)
     v_out = rec["v"]
     amps = harmonic_amplitudes(v_out, n_record, n_harm)

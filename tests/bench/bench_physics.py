@@ -106,7 +106,7 @@ def bench_simulate(n: int) -> float:
     """Seconds per part of simulate() (wall clock)."""
     st = synthetic_parts(n)
     t0, c0 = time.perf_counter(), time.process_time()
-    simulate(st, DESIGN, steps_per_period=STEPS, n_warmup=1, n_record=1)
+    simulate(st, DESIGN, steps_per_period=STEPS, n_warmup=1, max_warmup=1, n_record=1)
     dt, cpu = time.perf_counter() - t0, time.process_time() - c0
     print(
         f"(ii)  simulate(), {n:,} parts, 2 periods at {STEPS} steps/period: {dt:.2f} s wall, "
