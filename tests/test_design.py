@@ -162,7 +162,7 @@ def test_example_values_parsed_in_si() -> None:
     assert d.load.c_load_f == pytest.approx(220e-12)
     assert d.t_ambient_min_c == 0.0
     assert d.channels_used == 2
-    assert d.requirements is None
+    assert d.requirements is not None and d.requirements["basis"] == "worst-case"
 
 
 def test_defaults_of_omitted_fields() -> None:
@@ -189,14 +189,29 @@ def test_gain_as_quantity_string() -> None:
     assert d.closed_loop.gain == 2.0
 
 
-def test_requirements_pass_through_unchanged(tmp_path: Path) -> None:
-    req = {"thd_max": "0.1 %", "sort": ["price", "margin"], "weights": {"price": 2, "thd": 1.5}}
+def test_requirements_round_trip_through_a_file(tmp_path: Path) -> None:
+    """Requirements survive load -> save -> load unchanged (the solver checks their content)."""
+    req = {
+        "basis": "worst-case",
+        "conduction": "fix-allowed",
+        "limits": {"max_thd": "0.1 %", "lifecycle": ["active"]},
+        "objectives": {"price": 2, "thd": 1.5},
+    }
     data = base() | {"requirements": copy.deepcopy(req)}
     d = design_from_mapping(data)
-    assert d.requirements == req
+    assert d.requirements is not None
+    assert d.requirements["limits"]["max_thd"] == pytest.approx(1e-3)  # "0.1 %" in SI
+    assert d.requirements["objectives"] == req["objectives"]
     out = tmp_path / "with-req.toml"
     save_design(d, out)
-    assert load_design(out).requirements == req
+    assert load_design(out).requirements == d.requirements
+
+
+def test_unknown_requirement_is_refused_with_its_field() -> None:
+    data = base() | {"requirements": {"limits": {"max_thdd": "0.1 %"}}}
+    with pytest.raises(InputError) as exc:
+        design_from_mapping(data)
+    assert "/requirements/limits/max_thdd" in str(exc.value)
 
 
 # ---- derived closed-loop values, against hand calculation ----------------------------------
