@@ -47,6 +47,8 @@ PG_LOCK_TIMEOUT_MS = 60_000
 _PG_MIGRATION_LOCK = 0x7061_7274  # "part"
 #: Execution option marking an engine opened read-only.
 _READ_ONLY_OPTION = "partsel_read_only"
+#: Execution option holding the URL shown in messages (password hidden).
+_LABEL_OPTION = "partsel_label"
 #: Execution option choosing the SQLite ``BEGIN`` mode of a connection.
 _BEGIN_OPTION = "partsel_sqlite_begin"
 
@@ -107,6 +109,12 @@ def backend(engine: Engine | Connection) -> Backend:
     return name  # type: ignore[return-value]
 
 
+def engine_label(engine: Engine | Connection) -> str:
+    """The catalogue's URL for messages (as given, password hidden)."""
+    label = engine.get_execution_options().get(_LABEL_OPTION)
+    return label if isinstance(label, str) else describe_url(engine.url)
+
+
 def is_read_only(engine: Engine | Connection) -> bool:
     """True when ``engine`` was opened read-only (see :func:`make_engine`)."""
     return bool(engine.get_execution_options().get(_READ_ONLY_OPTION, False))
@@ -139,7 +147,7 @@ def make_engine(url: str, *, read_only: bool = False) -> Engine:
     with a :class:`ReadOnlyError` before it reaches the database.
     """
     u = _parse_url(url)
-    options = {_READ_ONLY_OPTION: read_only}
+    options = {_READ_ONLY_OPTION: read_only, _LABEL_OPTION: describe_url(u)}
     name = u.get_backend_name()
     if name == "postgresql":
         try:
@@ -173,6 +181,12 @@ def make_engine(url: str, *, read_only: bool = False) -> Engine:
         )
     elif read_only:
         path = Path(u.database)
+        if not path.is_file():
+            raise ReadOnlyError(
+                f"there is no catalogue file {path}: run partsel once without --read-only to "
+                "create it",
+                pointer="/db",
+            )
         engine = sa.create_engine(
             "sqlite://",
             creator=lambda: sqlite3.connect(
@@ -230,8 +244,7 @@ def migrate(engine: Engine, revision: str = "head") -> None:
     """Upgrade the database schema to ``revision`` (Alembic), one migrating process at a time."""
     if is_read_only(engine):
         raise ReadOnlyError(
-            f"the catalogue {describe_url(engine.url)} is open read-only: its schema cannot be "
-            "upgraded"
+            f"the catalogue {engine_label(engine)} is open read-only: its schema cannot be upgraded"
         )
     cfg = alembic_config()
     with engine.connect() as conn:
@@ -262,7 +275,7 @@ def access_error(
     engine: Engine | Connection, exc: sa.exc.DBAPIError | sqlite3.Error, what: str
 ) -> InputError | None:
     """A clear error for a database refusal of a change (no write access, busy), else None."""
-    where = describe_url(engine.url)
+    where = engine_label(engine)
     orig = getattr(exc, "orig", None) or exc
     state = getattr(orig, "sqlstate", None)
     text = str(orig).casefold()
@@ -290,7 +303,7 @@ def write_transaction(engine: Engine, what: str) -> Iterator[Connection]:
     """
     if is_read_only(engine):
         raise ReadOnlyError(
-            f"the catalogue {describe_url(engine.url)} is open read-only (--read-only): "
+            f"the catalogue {engine_label(engine)} is open read-only (--read-only): "
             f"{what} would change it"
         )
     try:
@@ -342,7 +355,7 @@ def _remove_sqlite_file(path: Path) -> None:
 
 def _bring_up_to_date(engine: Engine) -> None:
     """Check that the database answers and its schema is current; upgrade it if allowed."""
-    where = describe_url(engine.url)
+    where = engine_label(engine)
     try:
         current = schema_revision(engine)
     except DatabaseErrors as exc:

@@ -217,6 +217,7 @@ class ConflictError(InputError):
         changes: Sequence[FieldChange],
         *,
         file: str | None = None,
+        expected_record_kept: bool = True,
     ) -> None:
         self.part_number = part_number
         self.expected_version = expected_version
@@ -264,9 +265,14 @@ class ConflictError(InputError):
                     c.pointer,
                 )
             )
-        if 0 < expected_version < current_version and not self.changes and not self.since:
+        if 0 < expected_version < current_version and not expected_record_kept:
             problems.append(
-                Problem(f"version {expected_version} predates the kept history", None, part_number)
+                Problem(
+                    f"the record of version {expected_version} predates the kept history, so "
+                    "the fields changed since cannot be listed",
+                    None,
+                    part_number,
+                )
             )
         super().__init__(problems=problems)
 
@@ -303,8 +309,18 @@ def conflict_error(
     """The :class:`ConflictError` for an edit against ``expected_version`` (reads the history)."""
     since = read_history(conn, key, after=expected_version) if current_version else []
     changes: list[FieldChange] = []
+    kept = True
     if current_record is not None and 0 < expected_version < current_version:
         then = read_history(conn, key, version=expected_version)
+        kept = bool(then)
         if then:
             changes = record_changes(then[0].new_record, current_record)
-    return ConflictError(part_number, expected_version, current_version, since, changes, file=file)
+    return ConflictError(
+        part_number,
+        expected_version,
+        current_version,
+        since,
+        changes,
+        file=file,
+        expected_record_kept=kept,
+    )
