@@ -19,7 +19,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass, field
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 import pandas as pd
@@ -36,6 +36,9 @@ from partsel.physics.simulate import SimResult, simulate
 from partsel.physics.spectrum import DEFAULT_HARMONICS
 from partsel.physics.stage import Basis, StageParams
 
+if TYPE_CHECKING:
+    from partsel.solver import Ranking
+
 __all__ = [
     "CAUTION",
     "PartPrediction",
@@ -45,6 +48,7 @@ __all__ = [
     "open_catalogue",
     "predict",
     "predict_frame",
+    "rank",
     "select_parts",
     "stage_params",
 ]
@@ -308,6 +312,29 @@ def predict(
     if part_numbers is not None:
         frame = select_parts(frame, part_numbers)
     return predict_frame(frame, design, **kwargs).parts()
+
+
+def rank(
+    catalogue: Engine | pd.DataFrame | str | None,
+    design: Design | str,
+    *,
+    basis: Basis | None = None,
+) -> Ranking:
+    """Rank every part of the catalogue for ``design`` (a Design or a file path) against the
+    design's ``[requirements]``; ``basis`` overrides the requirements' value basis.
+
+    Returns a :class:`partsel.solver.Ranking`; ``partsel.solver.export.ranking_frame(r)`` and
+    ``ranking_dict(r)`` turn it into a pandas frame or the documented JSON.
+    """
+    from partsel.solver import PartTable, Requirements
+    from partsel.solver import rank as solver_rank
+
+    if not isinstance(design, Design):
+        design = load_design(design)
+    req = Requirements.from_mapping(design.requirements or {})
+    if basis is not None:
+        req = req.replace(basis=basis)
+    return solver_rank(PartTable(catalogue_frame(catalogue)), design, req)
 
 
 _ = PARAMS  # the registry documents which parameters values_used() reports
