@@ -1,0 +1,385 @@
+"""partsel's terminal UI: the app, its session state and its workers.
+
+The app is a thin shell over the same API as the command line: the catalogue frame
+(:func:`partsel.api.catalogue_frame`), the solver (:func:`partsel.solver.rank` on a
+:class:`~partsel.solver.PartTable` built once per catalogue), the prediction with the
+time-domain simulation (:func:`partsel.api.predict_frame`), the solver's export writer
+(:mod:`partsel.solver.export`) and the catalogue store. No physics or SQL here.
+
+Ranking runs in a thread worker (``exclusive=True``: a newer design cancels a stale run,
+whose result is then dropped); so does the simulation of the highlighted part, which is cached
+per design and part.
+"""
+
+from __future__ import annotations
+
+import json
+import time
+from collections import OrderedDict
+from collections.abc import Iterable
+from pathlib import Path
+from typing import Any, ClassVar
+
+import pandas as pd
+from sqlalchemy.engine import Engine
+from textual import work
+from textual.app import App, SystemCommand
+from textual.binding import Binding, BindingType
+from textual.screen import Screen
+from textual.worker import get_current_worker
+
+from partsel.api import Prediction, catalogue_frame, predict_frame, select_parts
+from partsel.catalogue import find_sample_catalogue, get_part
+from partsel.design import design_from_mapping, load_design
+from partsel.errors import InputError
+from partsel.physics.circuit import Design
+from partsel.solver import PartTable, Ranking, Requirements, rank
+from partsel.solver.export import ranking_dict, ranking_frame
+from partsel.tui.rows import RankingView
+from partsel.tui.theme import PARTSEL_THEME
+
+#: Design used when neither a design nor the sample designs are at hand.
+FALLBACK_DESIGN: dict[str, Any] = {
+    "name": "5 V line driver, AC-coupled into 2 kohm",
+    "supply": {"positive": "5 V", "negative": "0 V"},
+    "signal": {"bias": "2.5 V", "amplitude": "0.5 V", "frequency": "1 kHz"},
+    "amplifier": {"configuration": "non-inverting", "gain": 2, "feedback_resistor": "10 kohm"},
+    "load": {
+        "resistance": "2 kohm",
+        "coupling": "ac",
+        "coupling_capacitor": "10 uF",
+        "capacitance": "220 pF",
+    },
+}
+#: The sample design opened first.
+FIRST_SAMPLE = "line-driver-5v.toml"
+#: Seconds the highlight must rest on a part before its simulation starts.
+SIMULATION_DELAY_S = 0.25
+#: Simulations kept (per design, basis and parts).
+SIMULATION_CACHE = 32
+
+
+def sample_designs(sample_dir: Path | None = None) -> list[Path]:
+    """The example design files (``sample-catalog/designs``), sorted by name."""
+    if sample_dir is None:
+        parts = find_sample_catalogue()
+        if parts is None:
+            return []
+        sample_dir = parts.parent / "designs"
+    if not sample_dir.is_dir():
+        return []
+    return sorted(p for p in sample_dir.iterdir() if p.suffix in (".toml", ".yaml", ".json"))
+
+
+class PartselApp(App[None]):
+    """Describe the circuit, see the ranked parts and their predicted waveforms."""
+
+    CSS_PATH = "partsel.tcss"
+    TITLE = "partsel"
+    SUB_TITLE = "op-amps for single-supply designs"
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding(
+            "f1", "help", "Help", id="help", priority=True, tooltip="Keys and panes of partsel"
+        ),
+        Binding(
+            "f8",
+            "screenshot_svg",
+            "Screenshot",
+            id="screenshot",
+            priority=True,
+            tooltip="Save the screen as an SVG file",
+        ),
+        Binding("ctrl+q", "quit", "Quit", id="quit", priority=True, tooltip="Leave partsel"),
+    ]
+
+    def __init__(
+        self,
+        engine: Engine | None = None,
+        *,
+        frame: pd.DataFrame | None = None,
+        design: Design | str | Path | None = None,
+        simulate: bool = True,
+        sample_dir: Path | None = None,
+        work_dir: Path | None = None,
+        user: str | None = None,
+    ) -> None:
+        """``engine``: the catalogue (None: ``frame`` only, read-only); ``design``: the first
+        design (default: the sample line driver); ``simulate``: run the time-domain simulation
+        for the part view; ``work_dir``: where file dialogs start (default: the current one);
+        ``user``: the name recorded in the catalogue history for edits (default: the OS user)."""
+        super().__init__()
+        if engine is None and frame is None:
+            raise ValueError("give a catalogue engine or a parts frame")
+        self.engine = engine
+        self.frame = frame if frame is not None else catalogue_frame(engine)
+        self.table = PartTable(self.frame)
+        self.simulate = simulate
+        self.samples = sample_designs(sample_dir)
+        self.work_dir = work_dir or Path.cwd()
+        self.user = user
+        self.initial_design = self._first_design(design)
+        self.design: Design | None = None
+        self.design_gen = 0
+        self.ranking: Ranking | None = None
+        self.view: RankingView | None = None
+        self.marked: list[str] = []
+        self.rank_count = 0
+        self.last_latency_s: float | None = None
+        self._sims: OrderedDict[tuple[Any, ...], Prediction] = OrderedDict()
+        self._records: dict[str, dict[str, Any] | None] = {}
+
+    def _first_design(self, design: Design | str | Path | None) -> Design:
+        if isinstance(design, Design):
+            return design
+        if design is not None:
+            return load_design(design)
+        first = [p for p in self.samples if p.name == FIRST_SAMPLE] or self.samples[:1]
+        if first:
+            return load_design(first[0])
+        return design_from_mapping(FALLBACK_DESIGN)
+
+    # ---- screens ------------------------------------------------------------------------------
+    def get_default_screen(self) -> Screen:
+        from partsel.tui.screens.main import MainScreen
+
+        return MainScreen()
+
+    def on_mount(self) -> None:
+        self.register_theme(PARTSEL_THEME)
+        self.theme = PARTSEL_THEME.name
+
+    def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
+        """Every action with a key on the current screen, plus the app's own."""
+        seen: set[str] = set()
+        for _key, active in screen.active_bindings.items():
+            b = active.binding
+            if not b.description or b.action in seen:
+                continue
+            seen.add(b.action)
+            node = active.node
+
+            def run(node: Any = node, action: str = b.action) -> None:
+                self.call_later(node.run_action, action)
+
+            key = b.key_display or self.get_key_display(b)
+            yield SystemCommand(f"{b.description} ({key})", b.tooltip or b.description, run)
+        extra = getattr(screen, "palette_commands", None)
+        if extra is not None:
+            yield from extra()
+        yield from super().get_system_commands(screen)
+
+    def action_help(self) -> None:
+        from partsel.tui.screens.help import HelpScreen
+
+        if not isinstance(self.screen, HelpScreen):
+            self.push_screen(HelpScreen())
+
+    def action_screenshot_svg(self) -> None:
+        from partsel.tui.screens.dialogs import PathDialog
+
+        def done(path: str | None) -> None:
+            if path:
+                self.call_after_refresh(self.save_svg, Path(path))
+
+        self.push_screen(
+            PathDialog("Save a screenshot (SVG)", str(self.work_dir / "partsel-screen.svg")),
+            done,
+        )
+
+    def save_svg(self, path: Path) -> Path:
+        """Write the current screen as SVG to ``path``."""
+        path = self._resolve(path)
+        written = Path(self.save_screenshot(filename=path.name, path=str(path.parent)))
+        self.notify(f"screenshot written to {written}")
+        return written
+
+    def _resolve(self, path: Path) -> Path:
+        return path if path.is_absolute() else self.work_dir / path
+
+    # ---- the design and its ranking -----------------------------------------------------------
+    def set_design(self, design: Design) -> None:
+        """A new valid design: rank it (the previous ranking stays until this one is done)."""
+        self.design = design
+        self.design_gen += 1
+        self.request_rank()
+
+    def request_rank(self) -> None:
+        """Rank the current design on the current catalogue in a worker."""
+        if self.design is not None:
+            self._rank(self.design, self.table, self.design_gen, time.perf_counter())
+
+    @work(thread=True, exclusive=True, group="rank", exit_on_error=False)
+    def _rank(self, design: Design, table: PartTable, gen: int, t0: float) -> None:
+        worker = get_current_worker()
+        try:
+            req = Requirements.from_mapping(design.requirements)
+            r = rank(table, design, req)
+            view = RankingView(r)
+        except Exception as exc:  # an unexpected failure must not take the UI down
+            if not worker.is_cancelled:
+                self.call_from_thread(self.notify, f"ranking failed: {exc}", severity="error")
+            return
+        if not worker.is_cancelled:
+            self.call_from_thread(self._ranked, r, view, gen, t0)
+
+    def _ranked(self, r: Ranking, view: RankingView, gen: int, t0: float) -> None:
+        if gen != self.design_gen or r.table is not self.table:
+            return  # a newer design or catalogue is on its way
+        self.ranking = r
+        self.view = view
+        from partsel.tui.screens.main import MainScreen
+
+        for screen in self.screen_stack:
+            if isinstance(screen, MainScreen):
+                screen.show_ranking(view)
+        self.rank_count += 1
+        self.last_latency_s = time.perf_counter() - t0
+
+    # ---- parts --------------------------------------------------------------------------------
+    def record(self, part_number: str) -> dict[str, Any] | None:
+        """The catalogue record of a part as given (None without a database)."""
+        if self.engine is None:
+            return None
+        if part_number not in self._records:
+            stored = get_part(self.engine, part_number)
+            self._records[part_number] = stored.record if stored is not None else None
+        return self._records[part_number]
+
+    def prediction_key(self, part_numbers: tuple[str, ...]) -> tuple[Any, ...]:
+        return (self.design_gen, part_numbers)
+
+    def cached_prediction(self, part_numbers: tuple[str, ...]) -> Prediction | None:
+        return self._sims.get(self.prediction_key(part_numbers))
+
+    def request_simulation(self, part_numbers: tuple[str, ...], group: str = "simulate") -> None:
+        """Simulate ``part_numbers`` in the current design (cached); the views that show them
+        get :meth:`_simulated`."""
+        if not self.simulate or self.design is None or self.ranking is None:
+            return
+        key = self.prediction_key(part_numbers)
+        if key in self._sims:
+            self._deliver(key, self._sims[key])
+            return
+        req = self.ranking.requirements
+        self._simulate(key, self.frame, part_numbers, self.design, req, group=group)
+
+    @work(thread=True, exclusive=True, group="simulate", exit_on_error=False)
+    def _simulate_worker(
+        self,
+        key: tuple[Any, ...],
+        frame: pd.DataFrame,
+        part_numbers: tuple[str, ...],
+        design: Design,
+        req: Requirements,
+    ) -> None:
+        worker = get_current_worker()
+        time.sleep(SIMULATION_DELAY_S)
+        if worker.is_cancelled:
+            return
+        try:
+            sub = select_parts(frame, list(part_numbers))
+            pred = predict_frame(
+                sub,
+                design,
+                basis=req.basis,
+                series=req.fix_series,
+                margin=req.limit("min_source_fraction"),
+            )
+        except Exception as exc:
+            if not worker.is_cancelled:
+                self.call_from_thread(self.notify, f"simulation failed: {exc}", severity="error")
+            return
+        if not worker.is_cancelled:
+            self.call_from_thread(self._simulated, key, pred)
+
+    @work(thread=True, exclusive=True, group="compare", exit_on_error=False)
+    def _compare_worker(
+        self,
+        key: tuple[Any, ...],
+        frame: pd.DataFrame,
+        part_numbers: tuple[str, ...],
+        design: Design,
+        req: Requirements,
+    ) -> None:
+        worker = get_current_worker()
+        try:
+            sub = select_parts(frame, list(part_numbers))
+            pred = predict_frame(
+                sub,
+                design,
+                basis=req.basis,
+                series=req.fix_series,
+                margin=req.limit("min_source_fraction"),
+                simulate_fix=False,
+            )
+        except Exception as exc:
+            if not worker.is_cancelled:
+                self.call_from_thread(self.notify, f"simulation failed: {exc}", severity="error")
+            return
+        if not worker.is_cancelled:
+            self.call_from_thread(self._simulated, key, pred)
+
+    def _simulate(
+        self,
+        key: tuple[Any, ...],
+        frame: pd.DataFrame,
+        pns: tuple[str, ...],
+        design: Design,
+        req: Requirements,
+        group: str,
+    ) -> None:
+        if group == "compare":
+            self._compare_worker(key, frame, pns, design, req)
+        else:
+            self._simulate_worker(key, frame, pns, design, req)
+
+    def _simulated(self, key: tuple[Any, ...], pred: Prediction) -> None:
+        self._sims[key] = pred
+        while len(self._sims) > SIMULATION_CACHE:
+            self._sims.popitem(last=False)
+        if key[0] == self.design_gen:
+            self._deliver(key, pred)
+
+    def _deliver(self, key: tuple[Any, ...], pred: Prediction) -> None:
+        for screen in self.screen_stack:
+            receive = getattr(screen, "show_simulation", None)
+            if receive is not None:
+                receive(key[1], pred)
+
+    # ---- marks, files, catalogue --------------------------------------------------------------
+    def toggle_mark(self, part_number: str) -> None:
+        """Mark or unmark a part for the compare view (at most four; the oldest drops out)."""
+        if part_number in self.marked:
+            self.marked.remove(part_number)
+        else:
+            self.marked.append(part_number)
+            if len(self.marked) > 4:
+                self.marked.pop(0)
+
+    def export_ranking(self, path: Path) -> Path:
+        """Write the last ranking to ``path`` (``.csv`` or ``.json``) with the solver's writer."""
+        if self.ranking is None:
+            raise InputError("no ranking yet", file=str(path))
+        path = self._resolve(path)
+        suffix = path.suffix.lower()
+        if suffix == ".csv":
+            ranking_frame(self.ranking).to_csv(path, index=False)
+        elif suffix == ".json":
+            text = json.dumps(
+                ranking_dict(self.ranking), indent=2, ensure_ascii=False, allow_nan=False
+            )
+            path.write_text(text + "\n", encoding="utf-8")
+        else:
+            raise InputError("use a .csv or .json file name", file=str(path))
+        return path
+
+    def reload_catalogue(self) -> None:
+        """Read the catalogue again (after an edit) and rank the design on it."""
+        if self.engine is None:
+            return
+        self.frame = catalogue_frame(self.engine)
+        self.table = PartTable(self.frame)
+        self._sims.clear()
+        self._records.clear()
+        self.design_gen += 1
+        self.request_rank()

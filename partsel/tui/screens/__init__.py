@@ -1,0 +1,1 @@
+"""Screens of partsel's terminal UI."""

@@ -1,0 +1,412 @@
+"""The main screen: the design on the left, the ranked parts and the highlighted part on the
+right. Describe the circuit first, then read the parts."""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from functools import partial
+from pathlib import Path
+from typing import TYPE_CHECKING, ClassVar
+
+from rich.text import Text
+from textual import on
+from textual.app import ComposeResult, SystemCommand
+from textual.binding import Binding, BindingType
+from textual.containers import Horizontal, Vertical
+from textual.screen import Screen
+from textual.widgets import Footer, Input, Static
+
+from partsel.api import Prediction
+from partsel.design import load_design, save_design
+from partsel.errors import InputError
+from partsel.tui import fmt
+from partsel.tui.fields import FIELD_BY_PATH
+from partsel.tui.rows import COLUMN_BY_KEY, SORTABLE, RankingView
+from partsel.tui.widgets.design_form import DesignForm
+from partsel.tui.widgets.part_view import PartView
+from partsel.tui.widgets.ranking_pane import RankingPane
+
+if TYPE_CHECKING:
+    from partsel.tui.app import PartselApp
+
+BASIS_FIELD = FIELD_BY_PATH[("requirements", "basis")].id
+#: Field focused by F2 when no field was focused before.
+FIRST_FIELD = FIELD_BY_PATH[("load", "resistance")].id
+
+
+class MainScreen(Screen[None]):
+    """Design form, ranking and part view."""
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding(
+            "f2",
+            "focus_design",
+            "Design",
+            id="focus-design",
+            priority=True,
+            tooltip="Go to the design form (the field last edited)",
+        ),
+        Binding(
+            "f3",
+            "focus_ranking",
+            "Ranking",
+            id="focus-ranking",
+            priority=True,
+            tooltip="Go to the ranked parts",
+        ),
+        Binding(
+            "f4",
+            "part_view",
+            "Part",
+            id="part-view",
+            priority=True,
+            tooltip="Open the part view of the highlighted part (also: enter)",
+        ),
+        Binding(
+            "f5",
+            "compare",
+            "Compare",
+            id="compare",
+            priority=True,
+            tooltip="Compare the marked parts (2 to 4; mark with space)",
+        ),
+        Binding(
+            "f6",
+            "replace",
+            "Replace",
+            id="replace",
+            priority=True,
+            tooltip="Find replacements for the highlighted part",
+        ),
+        Binding(
+            "f7",
+            "catalogue",
+            "Catalogue",
+            id="catalogue",
+            priority=True,
+            tooltip="Browse, search and edit the catalogue",
+        ),
+        Binding(
+            "ctrl+o",
+            "open_design",
+            "Open",
+            id="open-design",
+            priority=True,
+            tooltip="Open a design file (or a sample design)",
+        ),
+        Binding(
+            "ctrl+s",
+            "save_design",
+            "Save",
+            id="save-design",
+            priority=True,
+            tooltip="Save the design to a file (.toml, .yaml, .json)",
+        ),
+        Binding(
+            "ctrl+t",
+            "export",
+            "Export",
+            id="export",
+            priority=True,
+            tooltip="Export the ranking to CSV or JSON",
+        ),
+        Binding(
+            "ctrl+b",
+            "toggle_basis",
+            "Basis",
+            id="toggle-basis",
+            priority=True,
+            tooltip="Toggle worst-case / typical basis",
+        ),
+        Binding(
+            "ctrl+r",
+            "toggle_rejected",
+            "Rejected",
+            id="toggle-rejected",
+            priority=True,
+            tooltip="Show or hide the rejected parts (with their binding constraint)",
+        ),
+        Binding(
+            "ctrl+f",
+            "filter",
+            "Filter",
+            id="filter",
+            priority=True,
+            tooltip="Filter the ranking by text",
+        ),
+    ]
+
+    app: PartselApp  # type: ignore[assignment]
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.last_field = FIRST_FIELD
+        self.form_ok = True
+
+    def compose(self) -> ComposeResult:
+        yield Static("", id="topbar")
+        with Horizontal(id="main"):
+            with Vertical(id="design-pane") as pane:
+                pane.border_title = "1 · Design"
+                yield DesignForm(id="design-form")
+            with Vertical(id="right"):
+                ranking = RankingPane(id="ranking-pane")
+                ranking.border_title = "2 · Ranked parts"
+                yield ranking
+                part = PartView(id="part-pane")
+                part.border_title = "3 · Part"
+                yield part
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        self.query_one(PartView).show_empty("ranking…")
+        self.form.load_design(self.app.initial_design)
+        self.query_one(RankingPane).table.focus()
+
+    @property
+    def form(self) -> DesignForm:
+        return self.query_one(DesignForm)
+
+    @property
+    def ranking_pane(self) -> RankingPane:
+        return self.query_one(RankingPane)
+
+    @property
+    def part_view(self) -> PartView:
+        return self.query_one(PartView)
+
+    # ---- top bar ------------------------------------------------------------------------------
+    def update_topbar(self) -> None:
+        app = self.app
+        d = app.design
+        text = Text()
+        text.append("partsel", style="bold")
+        if d is not None:
+            text.append(f"  design: {d.name}")
+            if d.source:
+                text.append(f" [{Path(d.source).name}]", style="dim")
+        text.append(f"  ·  catalogue: {app.table.n} parts")
+        if not self.form_ok:
+            text.append(
+                f"  ·  {fmt.BAD} design has problems: ranking is for the last valid one",
+                style="bold red",
+            )
+        self.query_one("#topbar", Static).update(text)
+
+    # ---- messages from the widgets -------------------------------------------------------------
+    @on(DesignForm.Valid)
+    def _design_valid(self, event: DesignForm.Valid) -> None:
+        self.form_ok = True
+        self.app.set_design(event.design)
+        self.update_topbar()
+
+    @on(DesignForm.Invalid)
+    def _design_invalid(self, event: DesignForm.Invalid) -> None:
+        self.form_ok = False
+        self.update_topbar()
+
+    @on(Input.Changed, ".field-input")
+    def _field_edited(self, event: Input.Changed) -> None:
+        if event.input.id:
+            self.last_field = event.input.id
+
+    @on(RankingPane.PartHighlighted)
+    def _part_highlighted(self, event: RankingPane.PartHighlighted) -> None:
+        self.show_part(event.part_number)
+
+    def show_ranking(self, view: RankingView) -> None:
+        """A new ranking from the app."""
+        self.ranking_pane.show(view)
+        self.update_topbar()
+
+    def show_part(self, part_number: str | None) -> None:
+        """Show ``part_number`` of the current ranking in the part pane."""
+        app, pv = self.app, self.part_view
+        r = app.ranking
+        if part_number is None or r is None:
+            pv.show_empty("no part highlighted" if r is not None else "ranking…")
+            return
+        try:
+            i = r.index(part_number)
+        except KeyError:
+            pv.show_empty(f"{part_number} is not in the catalogue")
+            return
+        pv.show_part(r, i, app.record(part_number))
+        cached = app.cached_prediction((part_number,))
+        if cached is not None:
+            pv.show_simulation(cached, 0, r, i)
+        elif app.simulate:
+            pv.show_plot_message(f"{part_number}: simulating one period…")
+            app.request_simulation((part_number,))
+        else:
+            pv.show_plot_message("simulation off (closed-form figures above)")
+
+    def show_simulation(self, part_numbers: tuple[str, ...], pred: Prediction) -> None:
+        """A simulation from the app: shown if it is the highlighted part's."""
+        pv, r = self.part_view, self.app.ranking
+        if r is None or len(part_numbers) != 1 or part_numbers[0] != pv.part_number:
+            return
+        pv.show_simulation(pred, 0, r, r.index(part_numbers[0]))
+
+    # ---- actions ------------------------------------------------------------------------------
+    def action_focus_design(self) -> None:
+        self.query_one(f"#{self.last_field}").focus()
+
+    def action_focus_ranking(self) -> None:
+        self.ranking_pane.table.focus()
+
+    def action_filter(self) -> None:
+        self.query_one("#rank-filter", Input).focus()
+
+    def action_part_view(self) -> None:
+        pn = self.ranking_pane.current_part
+        if pn is None:
+            self.notify("no part highlighted", severity="warning")
+            return
+        from partsel.tui.screens.part import PartScreen
+
+        self.app.push_screen(PartScreen(pn))
+
+    def action_toggle_mark(self) -> None:
+        pn = self.ranking_pane.current_part
+        if pn is None:
+            return
+        self.app.toggle_mark(pn)
+        self.ranking_pane.set_marked(self.app.marked)
+        n = len(self.app.marked)
+        self.notify(
+            f"marked for compare: {', '.join(self.app.marked) or 'none'} ({n} of 2–4)", timeout=2
+        )
+
+    def action_compare(self) -> None:
+        marked = list(self.app.marked)
+        if len(marked) < 2:
+            pn = self.ranking_pane.current_part
+            self.notify(
+                "mark 2 to 4 parts with space first"
+                + (f" (marked: {', '.join(marked)})" if marked else "")
+                + ("" if pn is None else f"; {pn} is highlighted"),
+                severity="warning",
+            )
+            return
+        from partsel.tui.screens.compare import CompareScreen
+
+        self.app.push_screen(CompareScreen(tuple(marked)))
+
+    def action_replace(self) -> None:
+        pn = self.ranking_pane.current_part
+        from partsel.tui.screens.replace import ReplacementScreen
+
+        self.app.push_screen(ReplacementScreen(pn))
+
+    def action_catalogue(self) -> None:
+        from partsel.tui.screens.catalogue import CatalogueScreen
+
+        self.app.push_screen(CatalogueScreen())
+
+    def action_toggle_basis(self) -> None:
+        from textual.widgets import Select
+
+        sel = self.query_one(f"#{BASIS_FIELD}", Select)
+        sel.value = "typical" if sel.value == "worst-case" else "worst-case"
+        self.notify(f"basis: {sel.value}", timeout=2)
+
+    def action_toggle_rejected(self) -> None:
+        pane = self.ranking_pane
+        pane.set_show_rejected(not pane.show_rejected)
+
+    def action_open_design(self) -> None:
+        from partsel.tui.screens.dialogs import PathDialog
+
+        samples = [(f"sample: {p.name}", str(p)) for p in self.app.samples]
+        self.app.push_screen(
+            PathDialog("Open a design file", "", suggestions=samples, must_exist=True),
+            self.open_design,
+        )
+
+    def open_design(self, path: str | None) -> bool:
+        """Load the design file at ``path`` into the form (False and a message if it is bad)."""
+        if not path:
+            return False
+        try:
+            design = load_design(self.app._resolve(Path(path)))
+        except InputError as exc:
+            self.notify(str(exc), title="design not opened", severity="error", timeout=10)
+            return False
+        self.form.load_design(design)
+        self.notify(f"opened {Path(path).name}", timeout=2)
+        return True
+
+    def action_save_design(self) -> None:
+        from partsel.tui.screens.dialogs import PathDialog
+
+        if not self.form_ok or self.app.design is None:
+            self.notify("the design has problems: fix them before saving", severity="error")
+            return
+        source = self.app.design.source
+        samples = {str(p) for p in self.app.samples}
+        if source and source not in samples:
+            default = source
+        else:
+            stem = Path(source).stem if source else "design"
+            default = str(self.app.work_dir / f"{stem}.toml")
+        self.app.push_screen(PathDialog("Save the design", default), self.save_design)
+
+    def save_design(self, path: str | None) -> bool:
+        """Write the current design to ``path`` (False and a message on failure)."""
+        design = self.app.design
+        if not path or design is None:
+            return False
+        target = self.app._resolve(Path(path))
+        try:
+            save_design(design, target)
+        except (InputError, OSError) as exc:
+            self.notify(str(exc), title="design not saved", severity="error", timeout=10)
+            return False
+        self.form.source = str(target)
+        self.form.validate()
+        self.notify(f"saved {target.name}", timeout=2)
+        return True
+
+    def action_export(self) -> None:
+        from partsel.tui.screens.dialogs import PathDialog
+
+        default = str(self.app.work_dir / "ranking.csv")
+        self.app.push_screen(PathDialog("Export the ranking (.csv or .json)", default), self.export)
+
+    def export(self, path: str | None) -> Path | None:
+        """Export the ranking to ``path`` (None and a message on failure)."""
+        if not path:
+            return None
+        try:
+            out = self.app.export_ranking(Path(path))
+        except (InputError, OSError) as exc:
+            self.notify(str(exc), title="not exported", severity="error", timeout=10)
+            return None
+        n = self.app.ranking.n if self.app.ranking is not None else 0
+        self.notify(f"exported {n} parts to {out.name}", timeout=3)
+        return out
+
+    # ---- command palette ----------------------------------------------------------------------
+    def palette_commands(self) -> Iterable[SystemCommand]:
+        """Commands beyond the key bindings: sort by a column, open a sample design."""
+        pane = self.ranking_pane
+        for key in SORTABLE:
+            label = COLUMN_BY_KEY[key].label
+            yield SystemCommand(
+                f"Sort ranking by {label}", COLUMN_BY_KEY[key].help, partial(pane.set_sort, key)
+            )
+        yield SystemCommand(
+            "Sort ranking: reverse order",
+            "Reverse the sort order (S)",
+            lambda: pane.set_sort(pane.sort, not pane.descending),
+        )
+        yield SystemCommand(
+            "Mark highlighted part for compare (space)",
+            "Mark or unmark the highlighted part",
+            self.action_toggle_mark,
+        )
+        for p in self.app.samples:
+            yield SystemCommand(
+                f"Open sample design {p.name}", str(p.name), partial(self.open_design, str(p))
+            )

@@ -1,0 +1,1 @@
+"""Widgets of partsel's terminal UI."""

@@ -1,0 +1,210 @@
+"""The part view: one part's verdict and prediction in the current design.
+
+The summary, the margins and the catalogue data come from the ranking at once; the waveforms
+and the spectrum come from the time-domain simulation (:func:`partsel.api.predict_frame`),
+which the app runs in a worker and hands over with :meth:`PartView.show_simulation`.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import yaml
+from rich.text import Text
+from textual.app import ComposeResult
+from textual.containers import Vertical, VerticalScroll
+from textual.widgets import Static, TabbedContent, TabPane
+
+from partsel.api import CAUTION, Prediction
+from partsel.physics.spectrum import spectrum_db
+from partsel.solver import Ranking
+from partsel.solver import checks as C
+from partsel.solver.export import part_checks, verdict_text
+from partsel.tui import fmt, theme
+from partsel.tui.widgets.margins import MarginBars
+from partsel.tui.widgets.plots import SpectrumPlot, WavePlot
+
+#: The caution in one line, for the part pane of the main screen.
+SHORT_CAUTION = (
+    "Macro-model estimates, not a transistor-level model: confirm on the bench or in a full "
+    "simulation."
+)
+#: Sections of a catalogue record shown as the part's output-stage data.
+RECORD_SECTIONS = ("output", "dynamics", "supply", "input", "packages", "temperature", "price")
+
+
+def summary_text(r: Ranking, i: int) -> Text:
+    """Verdict, crossover, fix and cost of part ``i`` in four lines."""
+    t, p, fx, ch = r.table, r.prediction, r.fix, r.checks
+    out = Text()
+    out.append(str(t.part_number[i]), style="bold")
+    out.append(f"  {t.text('maker')[i]} · {t.topology[i]} · ")
+    ch_n = t.channels[i]
+    out.append(f"{int(ch_n) if fmt.finite(ch_n) else '?'} ch · {t.lifecycle[i]}")
+    out.append(f" · {r.requirements.basis}\n", style="dim")
+    if r.feasible[i]:
+        out.append(f"{fmt.OK} feasible", style="bold green")
+        out.append(f", rank {r.rank[i]} of {r.n_feasible}, score {r.score[i]:.1f}")
+        if fx.applied[i]:
+            out.append(" (with the fix fitted)")
+    else:
+        j = int(r.binding[i])
+        out.append(f"{fmt.BAD} rejected", style="bold red")
+        c = C.CHECKS[j]
+        m = ch.margin[i, j]
+        miss = (
+            f" by {fmt.quantity(m, c.unit)} {fmt.ratio(ch.ratio[i, j])}"
+            if fmt.finite(m) and c.sense != "is"
+            else ""
+        )
+        out.append(f": binding {fmt.check_label(c.name)}{miss}; fails {int(r.n_failing[i])}")
+    out.append("\n")
+    v = verdict_text(r, i)
+    if v == "changes-mode":
+        out.append(f"{fmt.WARN} hands over", style="yellow")
+        out.append(
+            f" at {fmt.quantity(p.handover_out_v[i], 'V')} · glitch "
+            f"{fmt.quantity(p.glitch_v[i], 'V')} · THD est. {fmt.percent(p.thd_estimate[i])} · "
+            f"held near {fmt.quantity(p.flat_level_v[i], 'V')}"
+        )
+    else:
+        out.append(fmt.CONDUCTION_LABEL[v])
+        out.append(
+            f" · least source current {fmt.quantity(p.min_source_a[i], 'A')} of "
+            f"{fmt.quantity(p.stage_current_a[i], 'A')}"
+        )
+    out.append("\n")
+    if not fx.needed[i]:
+        out.append("fix not needed")
+    elif not fx.sized[i]:
+        out.append("fix not sized (rejected by other checks)", style="dim")
+    elif fx.works[i]:
+        out.append(
+            f"fix {fmt.quantity(fx.r_ohm[i], 'ohm')} ({fx.series}) to "
+            f"{fmt.rail_label(str(fx.rail[i]))}",
+            style="bold",
+        )
+        out.append(f" (+{fmt.quantity(fx.extra_supply_a[i], 'A')}/ch)")
+    else:
+        out.append(f"{fmt.BAD} no fix resistor works: {fx.reason[i]}", style="red")
+    out.append(
+        f" · supply {fmt.quantity(ch.value[i, C.IDX['supply_current']], 'A')}"
+        f" · price {fmt.quantity(ch.value[i, C.IDX['price']], 'currency unit')}"
+    )
+    return out
+
+
+def record_text(record: dict[str, Any] | None) -> Text:
+    """The output-stage sections of a catalogue record, as given in the catalogue."""
+    if record is None:
+        return Text("catalogue record not available", style="dim")
+    shown = {k: record[k] for k in RECORD_SECTIONS if k in record}
+    text = yaml.safe_dump(shown, sort_keys=False, allow_unicode=True, width=90)
+    out = Text(text)
+    if record.get("notes"):
+        out.append(f"notes: {record['notes']}\n", style="italic")
+    return out
+
+
+class PartView(Vertical):
+    """Summary, plots, margins and catalogue data of one part."""
+
+    def compose(self) -> ComposeResult:
+        yield Static("", classes="part-head")
+        with TabbedContent(classes="part-tabs"):
+            with TabPane("Waveform", classes="tab-wave"):
+                yield WavePlot(classes="plot-wave")
+            with TabPane("With fix", classes="tab-fix"):
+                yield WavePlot(classes="plot-fix")
+            with TabPane("Spectrum", classes="tab-spectrum"):
+                yield SpectrumPlot(classes="plot-spectrum")
+            with TabPane("Margins", classes="tab-margins"), VerticalScroll():
+                yield MarginBars(classes="margins")
+            with TabPane("Output stage", classes="tab-stage"), VerticalScroll():
+                yield Static("", classes="stage-data")
+        caution = CAUTION if self.full else SHORT_CAUTION
+        yield Static(Text(caution, style="italic"), classes="caution")
+
+    def __init__(self, *, full: bool = False, id: str | None = None) -> None:
+        """``full``: the view has a screen of its own (the whole caution is shown)."""
+        super().__init__(id=id)
+        self.full = full
+        self.part_number: str | None = None
+
+    def show_empty(self, message: str) -> None:
+        """No part to show."""
+        self.part_number = None
+        self.query_one(".part-head", Static).update(Text(message, style="dim"))
+        for plot in self.query(WavePlot):
+            plot.show_message(message)
+        self.query_one(SpectrumPlot).show_message(message)
+        self.query_one(MarginBars).update("")
+        self.query_one(".stage-data", Static).update("")
+
+    def show_part(self, r: Ranking, i: int, record: dict[str, Any] | None) -> None:
+        """What the ranking knows of part ``i``: summary, margins, catalogue data."""
+        self.part_number = str(r.table.part_number[i])
+        self.query_one(".part-head", Static).update(summary_text(r, i))
+        self.query_one(MarginBars).show(part_checks(r, i))
+        self.query_one(".stage-data", Static).update(record_text(record))
+
+    def show_plot_message(self, message: str) -> None:
+        """A message in place of the plots (simulation pending or off)."""
+        for plot in self.query(WavePlot):
+            plot.show_message(message)
+        self.query_one(SpectrumPlot).show_message(message)
+
+    def show_simulation(self, pred: Prediction, k: int, r: Ranking, i: int) -> None:
+        """The simulated waveforms of part ``k`` of ``pred`` (part ``i`` of the ranking)."""
+        sim = pred.sim
+        if sim is None:
+            self.show_plot_message("no simulation")
+            return
+        pn = str(pred.frame["part_number"].iloc[k])
+        t_ms = (sim.t_s - sim.t_s[0]) * 1e3
+        markers: list[tuple[float, str]] = []
+        if bool(sim.handover[k]):
+            markers.append((float((sim.handover_time_s[k] - sim.t_s[0]) * 1e3), "handover"))
+        flat = pred.closed.flat_level_v[k]
+        wave = self.query_one(".plot-wave", WavePlot)
+        wave.draw(
+            t_ms,
+            sim.v_ideal,
+            [(sim.v_out[k], "predicted", theme.PLOT_PREDICTED)],
+            title=f"{pn}: THD_F {fmt.percent(sim.thd_f[k], 3)}, peak deviation "
+            f"{fmt.quantity(sim.deviation_peak_v[k], 'V')}"
+            + (" — handover marked" if markers else " — no handover"),
+            markers_ms=markers,
+            level_v=float(flat) if markers and np.isfinite(flat) else None,
+        )
+        levels = spectrum_db(sim.v_out[k : k + 1], sim.n_record, sim.harmonics_v.shape[1] - 1)[0]
+        spectra = [(levels, "as designed", theme.PLOT_PREDICTED)]
+        fixplot = self.query_one(".plot-fix", WavePlot)
+        rec = str(pred.fix.recommended[k])
+        if pred.sim_fixed is not None and rec in ("negative", "positive"):
+            simf = pred.sim_fixed
+            r_fix = float(getattr(pred.fix, rec).r_ohm[k])
+            label = f"with {fmt.quantity(r_fix, 'ohm')} to {fmt.rail_label(rec)}"
+            note = ""
+            if r.fix.works[i] and fmt.finite(r.fix.r_ohm[i]) and r.fix.r_ohm[i] != r_fix:
+                note = f" (ranking's corner sweep: {fmt.quantity(r.fix.r_ohm[i], 'ohm')})"
+            fixplot.draw(
+                t_ms,
+                simf.v_ideal,
+                [
+                    (sim.v_out[k], "as designed", theme.PLOT_PREDICTED),
+                    (simf.v_out[k], label, theme.PLOT_FIXED),
+                ],
+                title=f"{label}{note}: THD_F {fmt.percent(simf.thd_f[k], 3)}, handover "
+                + ("yes" if simf.handover[k] else "no"),
+            )
+            lf = spectrum_db(simf.v_out[k : k + 1], simf.n_record, simf.harmonics_v.shape[1] - 1)
+            spectra.append((lf[0], label, theme.PLOT_FIXED))
+        elif rec == "none":
+            fixplot.show_message(f"{pn}: no fix resistor keeps the stage in one mode")
+        else:
+            fixplot.show_message(f"{pn}: no fix needed (the stage stays in one mode)")
+        self.query_one(SpectrumPlot).draw(
+            spectra, title=f"{pn}: harmonics 2.., dBc (THD_F {fmt.percent(sim.thd_f[k], 3)})"
+        )
