@@ -433,6 +433,7 @@ def test_default_pool_order_and_unsuitable_filter(frame: pd.DataFrame) -> None:
     assert {c.verdict for c in v.candidates} <= {"drop-in", "review"}
     ranks = [VERDICTS.index(c.verdict) for c in v.candidates]
     assert ranks == sorted(ranks)
+    assert list(v.candidates) == sorted(v.candidates, key=Candidate.sort_key)
     assert pns[:2] == ["BETTER-2", "SAME-2"]  # drop-ins, the better one first
     full = vet_substitutes(frame, "INC-2", include_unsuitable=True)
     assert {"QUAD-4", "PIN-2", "OLD-2"} <= {c.part_number for c in full.candidates}

@@ -1012,14 +1012,19 @@ def _suggest(
     if part_number is None:
         return ()
     try:
-        vet = vet_substitutes(frame, part_number, design, basis, package=package)
+        vet = vet_substitutes(
+            frame,
+            part_number,
+            design,
+            basis,
+            package=package,
+            limit=n,
+            passing_first=need_pass and design is not None,
+        )
     except InputError:
         return ()
-    cands = list(vet.candidates)
-    if design is not None and need_pass:
-        cands.sort(key=lambda c: (not bool(c.circuit_pass),))  # stable: keeps the vet order
     out = []
-    for c in cands[:n]:
+    for c in vet.candidates:
         out.append(
             SubstituteHint(
                 c.part_number,

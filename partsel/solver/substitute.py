@@ -45,8 +45,9 @@ function, behaviour, circuit), a severity and a message for people.
 from __future__ import annotations
 
 import math
-from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any, Literal
 
 import numpy as np
@@ -223,6 +224,7 @@ def _txt(frame: pd.DataFrame, name: str, default: str = "") -> list[str]:
     ]
 
 
+@lru_cache(maxsize=65536)
 def parse_packages(text: str) -> tuple[tuple[str, str], ...]:
     """The ``packages`` column (``'CODE:PINOUT;CODE:PINOUT'``) as (code, pinout) pairs."""
     out = []
@@ -285,51 +287,31 @@ def _sides(frame: pd.DataFrame, key: str) -> _Sides:
     return s
 
 
+class _Cols:
+    """The columns of a frame, each converted once (vetting reads them per candidate)."""
+
+    def __init__(self, frame: pd.DataFrame) -> None:
+        self.frame = frame
+        self._num: dict[str, np.ndarray] = {}
+        self._sides: dict[str, _Sides] = {}
+
+    def num(self, name: str) -> np.ndarray:
+        if name not in self._num:
+            self._num[name] = _num(self.frame, name)
+        return self._num[name]
+
+    def sides(self, key: str) -> _Sides:
+        if key not in self._sides:
+            self._sides[key] = _sides(self.frame, key)
+        return self._sides[key]
+
+
 def _resolve_one(s: _Sides, k: int, order: Sequence[str]) -> tuple[float, str]:
     for side in order:
         v = float(s.side(side)[k])
         if not math.isnan(v):
             return v, side
     return math.nan, "none"
-
-
-def _pair(
-    s: _Sides, i: int, j: int, worst: str, basis: Basis
-) -> tuple[float, str, float, str, str]:
-    """Values of part ``i`` (incumbent) and ``j`` (candidate) on a common side where possible.
-
-    Worst-case basis: both guaranteed values (``worst``) if both parts give one, else both
-    typicals, else each part's own value. Typical basis: typicals, else guaranteed values.
-    Returns (incumbent, side, candidate, side, note) with note '' (like with like),
-    'typical' (guarantee missing on the incumbent's side), 'no-guarantee' (the candidate gives
-    none where the incumbent does) or 'mixed'.
-    """
-    other = "max" if worst == "min" else "min"
-    first, second = (worst, "typ") if basis == "worst-case" else ("typ", worst)
-    for side in (first, second):
-        a, b = float(s.side(side)[i]), float(s.side(side)[j])
-        if not (math.isnan(a) or math.isnan(b)):
-            note = ""
-            if basis == "worst-case" and side == "typ":
-                cand_has = not math.isnan(float(s.side(worst)[j]))
-                inc_has = not math.isnan(float(s.side(worst)[i]))
-                note = "no-guarantee" if inc_has and not cand_has else "typical"
-            return a, side, b, side, note
-    order = (first, second, other)
-    a, sa = _resolve_one(s, i, order)
-    b, sb = _resolve_one(s, j, order)
-    return a, sa, b, sb, "mixed"
-
-
-def _change(inc: float, cand: float, worse: str) -> Change:
-    if math.isnan(inc):
-        return "n/a"
-    if math.isnan(cand):
-        return "unknown"
-    if abs(cand - inc) <= EQUAL_RTOL * max(abs(cand), abs(inc)) + 1e-18:
-        return "equal"
-    cand_worse = cand < inc if worse == "low" else cand > inc
-    return "worse" if cand_worse else "better"
 
 
 # ---- results -----------------------------------------------------------------------------------
@@ -365,7 +347,7 @@ class ParamComparison:
     side_incumbent: str  #: side of the range used ('min', 'typ', 'max', 'value', 'none')
     side_candidate: str
     change: Change
-    note: str = ""  #: '', 'typical', 'no-guarantee', 'mixed' (see :func:`_pair`)
+    note: str = ""  #: '', 'typical', 'no-guarantee', 'mixed' (see :func:`_pair_all`)
     at_current_a: float | None = None  #: swing headroom: the output current compared at
 
     @property
@@ -500,8 +482,21 @@ class CircuitResult:
     ok: dict[str, np.ndarray]  #: bool arrays for checks with a pass rule
     known: dict[str, np.ndarray]  #: False where the catalogue lacks what the check needs
     conduction_allowed: bool  #: the design's requirements accept a change of mode
-    fix_r_ohm: np.ndarray  #: recommended fix resistor (NaN: none / not needed)
-    fix_rail: np.ndarray  #: "negative", "positive", "none", "not-needed"
+    _fix: dict[int, tuple[float, str]] = field(default_factory=dict, repr=False)
+
+    def fix(self, k: int) -> tuple[float, str]:
+        """Part ``k``'s recommended fix resistor (ohm, NaN: none) and rail, sized on demand
+        (:func:`partsel.physics.fix.size_fix`, default E24 series and margin)."""
+        if k not in self._fix:
+            fx = size_fix(self.stage.take([k]), self.design)
+            rec = str(fx.recommended[0])
+            r = math.nan
+            if rec == "negative":
+                r = float(fx.negative.r_ohm[0])
+            elif rec == "positive":
+                r = float(fx.positive.r_ohm[0])
+            self._fix[k] = (r, rec)
+        return self._fix[k]
 
     def failing(self, k: int) -> list[str]:
         """Names of the checks part ``k`` fails (unknown values count as failing)."""
@@ -585,9 +580,8 @@ class CircuitResult:
                 f"{fmt(float(st.stage_current_a[k]), 'A')}; glitch about "
                 f"{fmt(float(cf.glitch_v[k]), 'V')} (closed form)"
             )
-            r = float(self.fix_r_ohm[k])
+            r, rail = self.fix(k)
             if math.isfinite(r):
-                rail = self.fix_rail[k]
                 text += f"; a {fmt(r, 'ohm')} resistor to the {rail} rail keeps it in one mode"
             return text
         return f"{name} {fmt(v, CIRCUIT_CHECK_BY_NAME[name].unit)}"
@@ -603,7 +597,8 @@ def _bias_point_v(design: Design) -> float:
 def evaluate_circuit(
     frame: pd.DataFrame, design: Design, basis: Basis = "worst-case"
 ) -> CircuitResult:
-    """Every part of ``frame`` in ``design``: one call of predict_closed_form and size_fix.
+    """Every part of ``frame`` in ``design``: one call of predict_closed_form for all parts
+    (the fix resistor named in a conduction message is sized on demand, per part).
 
     The figures are those of :data:`CIRCUIT_CHECKS`; see the module docstring of
     :mod:`partsel.physics.analysis` for the physics (design notes sections 3 to 6).
@@ -659,14 +654,7 @@ def evaluate_circuit(
     known["junction_temp"] = np.ones(p, dtype=bool)
     ok["junction_temp"] = ~(val["junction_temp"] < 0)
     allowed = _requirements(design).get("conduction") == "allowed"
-    try:
-        fx = size_fix(stage, design)
-        r_fix = np.where(fx.recommended == "negative", fx.negative.r_ohm, np.nan)
-        r_fix = np.where(fx.recommended == "positive", fx.positive.r_ohm, r_fix)
-        rail = np.asarray(fx.recommended, dtype=object)
-    except ValueError:  # pragma: no cover - the default series always exists
-        r_fix, rail = np.full(p, np.nan), np.full(p, "none", dtype=object)
-    return CircuitResult(design, basis, stage, cf, val, ok, known, allowed, r_fix, rail)
+    return CircuitResult(design, basis, stage, cf, val, ok, known, allowed)
 
 
 # ---- vetting -----------------------------------------------------------------------------------
@@ -891,463 +879,751 @@ class Vetting:
 def _form_pool(frame: pd.DataFrame, inc: int) -> np.ndarray:
     """Rows that could fit the incumbent's footprint: same channels, a shared code:pinout."""
     ch = _num(frame, "channels")
-    pk = [
-        set((c.upper(), p.upper()) for c, p in parse_packages(t)) for t in _txt(frame, "packages")
-    ]
-    mine = pk[inc]
-    same_ch = ch == ch[inc]
-    shares = np.array([bool(mine & s) for s in pk], dtype=bool)
-    pool = same_ch & shares
+    texts = np.array(_txt(frame, "packages"), dtype=object)
+    uniq, inverse = np.unique(texts.astype(str), return_inverse=True)
+    mine = {(c.upper(), p.upper()) for c, p in parse_packages(str(texts[inc]))}
+    shares_u = np.array(
+        [bool(mine & {(c.upper(), p.upper()) for c, p in parse_packages(str(u))}) for u in uniq],
+        dtype=bool,
+    )
+    pool = (ch == ch[inc]) & shares_u[inverse]
     pool[inc] = False
     return np.flatnonzero(pool)
 
 
-def _vet_one(
-    inc: PartSummary,
-    cand: PartSummary,
-    sub: pd.DataFrame,
-    j: int,
-    basis: Basis,
-    design: Design | None,
-    package: str | None,
-    circ: CircuitResult | None,
-    like_circ: CircuitResult | None,
-    stage: StageParams,
-) -> Candidate:
-    """Vet row ``j`` of ``sub`` against row 0 (the incumbent)."""
-    reasons: list[Reason] = []
-    has_design = design is not None
+@dataclass
+class _Rule:
+    """One reason, evaluated for every part at once: its severity per part ('' where it does not
+    apply) and a function that words it for part ``j``."""
 
-    def add(aspect: Aspect, severity: Severity, code: str, msg: str) -> None:
-        reasons.append(Reason(aspect, severity, code, msg))
+    aspect: Aspect
+    code: str
+    severity: np.ndarray  #: (P,) object array of severities or ''
+    message: Callable[[int], str]
 
-    # --- form ---------------------------------------------------------------------------------
-    if cand.channels != inc.channels:
-        add(
+
+@dataclass
+class _ParamArrays:
+    """One parameter compared for every part against part 0 (arrays of shape (P,))."""
+
+    key: str
+    unit: str
+    worse: Literal["low", "high"]
+    inc: np.ndarray
+    cand: np.ndarray
+    side_inc: np.ndarray
+    side_cand: np.ndarray
+    change: np.ndarray
+    note: np.ndarray
+    at_current_a: np.ndarray | None = None
+
+    def comparison(self, j: int) -> ParamComparison:
+        at = None if self.at_current_a is None else float(self.at_current_a[j])
+        return ParamComparison(
+            self.key,
+            self.unit,
+            self.worse,
+            float(self.inc[j]),
+            float(self.cand[j]),
+            str(self.side_inc[j]),
+            str(self.side_cand[j]),
+            self.change[j],
+            str(self.note[j]),
+            at,
+        )
+
+
+def _pair_all(s: _Sides, worst: str, basis: Basis) -> tuple[np.ndarray, ...]:
+    """Part 0's and every part's value on a common side where possible (see :func:`_pair_all`)."""
+    p = s.vtyp.shape[0]
+    other = "max" if worst == "min" else "min"
+    first, second = (worst, "typ") if basis == "worst-case" else ("typ", worst)
+    a, b = np.full(p, np.nan), np.full(p, np.nan)
+    sa, sb = np.full(p, "none", dtype=object), np.full(p, "none", dtype=object)
+    note = np.full(p, "", dtype=object)
+    done = np.zeros(p, dtype=bool)
+    for side in (first, second):
+        ai, bc = float(s.side(side)[0]), s.side(side)
+        ok = ~done & ~np.isnan(bc) & (not math.isnan(ai))
+        a[ok], b[ok], sa[ok], sb[ok] = ai, bc[ok], side, side
+        if basis == "worst-case" and side == "typ":
+            inc_has = not math.isnan(float(s.side(worst)[0]))
+            cand_has = ~np.isnan(s.side(worst))
+            note[ok] = np.where(inc_has & ~cand_has[ok], "no-guarantee", "typical")
+        done |= ok
+    rest = ~done
+    if rest.any():
+        order = (first, second, other)
+        ai, sai = _resolve_one(s, 0, order)
+        bv, sbv = np.full(p, np.nan), np.full(p, "none", dtype=object)
+        for side in order:
+            arr = s.side(side)
+            take = np.isnan(bv) & ~np.isnan(arr)
+            bv[take], sbv[take] = arr[take], side
+        a[rest], sa[rest], b[rest], sb[rest], note[rest] = ai, sai, bv[rest], sbv[rest], "mixed"
+    return a, sa, b, sb, note
+
+
+def _change_all(a: np.ndarray, b: np.ndarray, worse: str) -> np.ndarray:
+    """better / equal / worse / unknown / n/a of ``b`` against ``a``, direction-aware."""
+    out = np.full(a.shape, "better", dtype=object)
+    with np.errstate(invalid="ignore"):
+        eq = np.abs(b - a) <= EQUAL_RTOL * np.maximum(np.abs(a), np.abs(b)) + 1e-18
+        w = b < a if worse == "low" else b > a
+    out[w] = "worse"
+    out[eq] = "equal"
+    out[np.isnan(b)] = "unknown"
+    out[np.isnan(a)] = "n/a"
+    return out
+
+
+def _circuit_change_all(c: CircuitCheck, inc: np.ndarray, cand: np.ndarray) -> np.ndarray:
+    """better / equal / worse of in-circuit figures, with the tolerances of CIRCUIT_RTOL/ATOL."""
+    out = np.full(cand.shape, "equal", dtype=object)
+    with np.errstate(invalid="ignore"):
+        fin = np.isfinite(inc)
+        tol = np.maximum(
+            np.where(fin, CIRCUIT_RTOL * np.abs(inc), 0.0), CIRCUIT_ATOL.get(c.unit, 0)
+        )
+        diff = cand - inc if c.higher_is_better else inc - cand
+        out[diff < -tol] = "worse"
+        out[diff > tol] = "better"
+        same_inf = np.isinf(inc) & np.isinf(cand) & (np.sign(inc) == np.sign(cand))
+    out[same_inf] = "equal"
+    out[np.isnan(inc)] = "n/a"
+    out[np.isnan(cand)] = "unknown"
+    out[np.isnan(inc) & np.isnan(cand)] = "n/a"
+    return out
+
+
+class _Vetting:
+    """Every vetting rule for the candidates (rows 1.. of ``sub``) against row 0, as arrays.
+
+    The verdict of every candidate follows from the severities alone; messages, parameter and
+    in-circuit comparisons are built only for the candidates reported (:meth:`candidate`).
+    """
+
+    def __init__(
+        self,
+        sub: pd.DataFrame,
+        summaries: list[PartSummary],
+        basis: Basis,
+        design: Design | None,
+        package: str | None,
+        circ: CircuitResult | None,
+        like_circ: CircuitResult | None,
+        stage: StageParams,
+    ) -> None:
+        self.sub, self.s, self.basis, self.design = sub, summaries, basis, design
+        self.package, self.circ, self.like, self.stage = package, circ, like_circ, stage
+        self.cols = _Cols(sub)
+        self.p = len(sub)
+        self.rules: list[_Rule] = []
+        self.params: list[_ParamArrays] = []
+        self.common: list[tuple[str, ...]] = [()] * self.p
+        self._form()
+        self._fit()
+        self._function()
+        self._behaviour()
+        self.circuit_cmp: list[tuple[CircuitCheck, np.ndarray, np.ndarray, Any, Any, Any]] = []
+        self.circuit_pass: np.ndarray | None = None
+        if circ is not None and like_circ is not None:
+            self._circuit()
+
+    # ---- helpers -----------------------------------------------------------------------------
+    def add(
+        self,
+        aspect: Aspect,
+        code: str,
+        mask: np.ndarray,
+        severity: Severity | np.ndarray,
+        message: Callable[[int], str],
+    ) -> None:
+        sev = np.where(mask, severity, "").astype(object)
+        sev[0] = ""
+        if (sev != "").any():
+            self.rules.append(_Rule(aspect, code, sev, message))
+
+    def _str(self, attr: str) -> np.ndarray:
+        return np.array([getattr(x, attr) for x in self.s], dtype=object)
+
+    def _numattr(self, attr: str) -> np.ndarray:
+        return np.array([getattr(x, attr) for x in self.s], dtype=float)
+
+    # ---- form ----------------------------------------------------------------------------------
+    def _form(self) -> None:
+        inc, s, package = self.s[0], self.s, self.package
+        ch = np.array([x.channels for x in s])
+        self.add(
             "form",
-            "fail",
             "channels",
-            f"{cand.channels} channel(s) per package; the incumbent has {inc.channels}",
+            ch != inc.channels,
+            "fail",
+            lambda j: f"{s[j].channels} channel(s) per package; the incumbent has {inc.channels}",
         )
-    inc_pk = {(c.upper(), p.upper()): c for c, p in inc.packages}
-    cand_pk = {(c.upper(), p.upper()): c for c, p in cand.packages}
-    common = tuple(inc_pk[k] for k in inc_pk if k in cand_pk)
-    cand_codes = {c.upper(): p for c, p in cand.packages}
-    conflicts = [
-        f"{code} ({cand_codes[code.upper()]} instead of {pin})"
-        for code, pin in inc.packages
-        if code.upper() in cand_codes and (code.upper(), pin.upper()) not in cand_pk
-    ]
-    if package is not None:
-        want = [(c, p) for c, p in inc.packages if c.upper() == package.upper()]
-        if not any((c.upper(), p.upper()) in cand_pk for c, p in want):
-            add(
-                "form",
-                "fail",
-                "package",
-                f"not offered in {package} with the incumbent's pinout"
-                + (f"; same package, other pinout: {', '.join(conflicts)}" if conflicts else ""),
-            )
-    elif not common:
-        msg = "no package with the incumbent's code and pinout"
-        if conflicts:
-            msg += (
-                f"; same package, other pinout (will not fit the footprint): {', '.join(conflicts)}"
-            )
-        add("form", "fail", "package", msg)
-    elif len(common) < len(inc_pk):
-        missing = [c for k, c in inc_pk.items() if k not in cand_pk]
-        add(
-            "form",
-            "review",
-            "package-partial",
-            f"fits the {', '.join(common)} footprint only; the incumbent also comes in "
-            f"{', '.join(missing)}: give the package in use to decide",
-        )
+        inc_pk = {(c.upper(), p.upper()): c for c, p in inc.packages}
+        want = {k for k in inc_pk if package is not None and k[0] == package.upper()}
+        status = np.zeros(self.p, dtype=int)  # 0 ok, 1 partial (review), 2 no fit
+        for j, x in enumerate(s):
+            cand = {(c.upper(), p.upper()) for c, p in x.packages}
+            self.common[j] = tuple(inc_pk[k] for k in inc_pk if k in cand)
+            if package is not None:
+                status[j] = 0 if want & cand else 2
+            elif not self.common[j]:
+                status[j] = 2
+            elif len(self.common[j]) < len(inc_pk):
+                status[j] = 1
 
-    # --- fit ----------------------------------------------------------------------------------
-    if cand.lifecycle == Lifecycle.OBSOLETE.value:
-        add("fit", "fail", "lifecycle", "obsolete")
-    elif cand.lifecycle == Lifecycle.NOT_FOR_NEW_DESIGNS.value:
-        add("fit", "review", "lifecycle", "not for new designs: a lifecycle risk of its own")
-    elif cand.lifecycle != Lifecycle.ACTIVE.value:
-        add("fit", "review", "lifecycle", f"lifecycle {cand.lifecycle or 'unknown'}")
-    covers_supply = cand.supply_min_v <= inc.supply_min_v and cand.supply_max_v >= inc.supply_max_v
-    covers_temp = cand.temp_min_c <= inc.temp_min_c and cand.temp_max_c >= inc.temp_max_c
-    rng_s = f"{fmt(cand.supply_min_v, 'V')} .. {fmt(cand.supply_max_v, 'V')}"
-    rng_si = f"{fmt(inc.supply_min_v, 'V')} .. {fmt(inc.supply_max_v, 'V')}"
-    rng_t = f"{cand.temp_min_c:g} .. {cand.temp_max_c:g} degC"
-    rng_ti = f"{inc.temp_min_c:g} .. {inc.temp_max_c:g} degC"
-    if not covers_supply:
-        if has_design:
-            # The circuit check 'supply_range' fails it if the design's rails are outside.
-            if bool(circ.ok["supply_range"][j]):  # type: ignore[union-attr]
-                add(
-                    "fit",
-                    "circuit-ok",
-                    "supply-range",
-                    f"supply range {rng_s} is narrower than the incumbent's {rng_si} but covers "
-                    f"the design's {fmt(design.supply.total_v, 'V')}",
+        def conflicts(j: int) -> list[str]:
+            codes = {c.upper(): p for c, p in s[j].packages}
+            pk = {(c.upper(), p.upper()) for c, p in s[j].packages}
+            return [
+                f"{c} ({codes[c.upper()]} instead of {p})"
+                for c, p in inc.packages
+                if c.upper() in codes and (c.upper(), p.upper()) not in pk
+            ]
+
+        def no_fit(j: int) -> str:
+            other = conflicts(j)
+            if package is not None:
+                msg = f"not offered in {package} with the incumbent's pinout"
+                return msg + (f"; same package, other pinout: {', '.join(other)}" if other else "")
+            msg = "no package with the incumbent's code and pinout"
+            if other:
+                msg += (
+                    f"; same package, other pinout (will not fit the footprint): {', '.join(other)}"
                 )
-        else:
-            add(
+            return msg
+
+        def partial(j: int) -> str:
+            missing = [c for k, c in inc_pk.items() if c not in self.common[j]]
+            return (
+                f"fits the {', '.join(self.common[j])} footprint only; the incumbent also "
+                f"comes in {', '.join(missing)}: give the package in use to decide"
+            )
+
+        self.add("form", "package", status == 2, "fail", no_fit)
+        self.add("form", "package-partial", status == 1, "review", partial)
+
+    # ---- fit -----------------------------------------------------------------------------------
+    def _fit(self) -> None:
+        inc, s, d, circ = self.s[0], self.s, self.design, self.circ
+        lc = self._str("lifecycle")
+        self.add("fit", "lifecycle", lc == Lifecycle.OBSOLETE.value, "fail", lambda j: "obsolete")
+        self.add(
+            "fit",
+            "lifecycle",
+            lc == Lifecycle.NOT_FOR_NEW_DESIGNS.value,
+            "review",
+            lambda j: "not for new designs: a lifecycle risk of its own",
+        )
+        known = {
+            Lifecycle.ACTIVE.value,
+            Lifecycle.OBSOLETE.value,
+            Lifecycle.NOT_FOR_NEW_DESIGNS.value,
+        }
+        self.add(
+            "fit",
+            "lifecycle",
+            np.array([x not in known for x in lc]),
+            "review",
+            lambda j: f"lifecycle {s[j].lifecycle or 'unknown'}",
+        )
+        smin, smax = self._numattr("supply_min_v"), self._numattr("supply_max_v")
+        tmin, tmax = self._numattr("temp_min_c"), self._numattr("temp_max_c")
+        with np.errstate(invalid="ignore"):
+            cover_s = (smin <= inc.supply_min_v) & (smax >= inc.supply_max_v)
+            cover_t = (tmin <= inc.temp_min_c) & (tmax >= inc.temp_max_c)
+
+        def rng_s(x: PartSummary) -> str:
+            return f"{fmt(x.supply_min_v, 'V')} .. {fmt(x.supply_max_v, 'V')}"
+
+        def rng_t(x: PartSummary) -> str:
+            return f"{x.temp_min_c:g} .. {x.temp_max_c:g} degC"
+
+        if d is not None and circ is not None:
+            self.add(
                 "fit",
-                "review",
                 "supply-range",
-                f"supply range {rng_s} does not cover the incumbent's {rng_si}",
+                ~cover_s & circ.ok["supply_range"],
+                "circuit-ok",
+                lambda j: (
+                    f"supply range {rng_s(s[j])} is narrower than the incumbent's "
+                    f"{rng_s(inc)} but covers the design's {fmt(d.supply.total_v, 'V')}"
+                ),
             )
-    if not covers_temp:
-        if has_design:
-            if bool(circ.ok["temperature"][j]):  # type: ignore[union-attr]
-                add(
-                    "fit",
-                    "circuit-ok",
-                    "temperature",
-                    f"rated {rng_t}, narrower than the incumbent's {rng_ti}, but covers the "
-                    f"design's {design.t_ambient_min_c:g} .. {design.t_ambient_max_c:g} degC",
-                )
-        else:
-            add(
+            self.add(
                 "fit",
-                "review",
                 "temperature",
-                f"rated {rng_t}; does not cover the incumbent's {rng_ti}",
+                ~cover_t & circ.ok["temperature"],
+                "circuit-ok",
+                lambda j: (
+                    f"rated {rng_t(s[j])}, narrower than the incumbent's "
+                    f"{rng_t(inc)}, but covers the design's {d.t_ambient_min_c:g} .. "
+                    f"{d.t_ambient_max_c:g} degC"
+                ),
             )
-
-    # --- function -----------------------------------------------------------------------------
-    limits = _requirements(design).get("limits") or {}
-    comps: list[ParamComparison] = []
-    typical_only: list[str] = []
-    same_topology = cand.topology == inc.topology
-    for pdef in PARAMS:
-        unit = _DIM_UNIT.get(pdef.dimension, "")
-        s = _sides(sub, pdef.key)
-        a, sa, b, sb, note = _pair(s, 0, j, pdef.worst_side, basis)
-        change = _change(a, b, pdef.worse)
-        if pdef.key == "stage_current" and not same_topology and change not in ("unknown", "n/a"):
-            change = "n/a"  # pull-down, sink bias and quiescent current are different things
-            note = "other-topology"
-        comp = ParamComparison(pdef.key, unit, pdef.worse, a, b, sa, sb, change, note)
-        comps.append(comp)
-        if note == "typical":
-            typical_only.append(pdef.key)
-        if note == "no-guarantee" and change not in ("unknown", "worse"):
-            add(
-                "function",
+        else:
+            self.add(
+                "fit",
+                "supply-range",
+                ~cover_s,
                 "review",
-                f"no-guarantee-{pdef.key}",
-                f"{pdef.key}: no guaranteed value, the incumbent has one (typicals compared: "
-                f"{comp.text()})",
+                lambda j: f"supply range {rng_s(s[j])} does not cover the incumbent's {rng_s(inc)}",
             )
-        _function_reason(comp, has_design, limits, add)
-    for rail, label in (("swing_pos", "V+"), ("swing_neg", "V-")):
-        comp = _swing_comparison(stage, rail, j)
-        if comp is None:
-            continue
-        comps.append(comp)
-        if comp.change == "worse":
+            self.add(
+                "fit",
+                "temperature",
+                ~cover_t,
+                "review",
+                lambda j: f"rated {rng_t(s[j])}; does not cover the incumbent's {rng_t(inc)}",
+            )
+
+    # ---- function ------------------------------------------------------------------------------
+    def _function(self) -> None:
+        has_design = self.design is not None
+        limits = _requirements(self.design).get("limits") or {}
+        topo = self._str("topology")
+        other_topo = topo != self.s[0].topology
+        typical = np.zeros((self.p, 0), dtype=bool)
+        typical_keys: list[str] = []
+        for pdef in PARAMS:
+            a, sa, b, sb, note = _pair_all(self.cols.sides(pdef.key), pdef.worst_side, self.basis)
+            change = _change_all(a, b, pdef.worse)
+            if pdef.key == "stage_current":
+                # pull-down, sink bias and quiescent current are different things
+                mask = other_topo & (change != "unknown") & (change != "n/a")
+                change[mask], note[mask] = "n/a", "other-topology"
+            pa = _ParamArrays(
+                pdef.key,
+                _DIM_UNIT.get(pdef.dimension, ""),
+                pdef.worse,
+                np.broadcast_to(a, (self.p,)),
+                b,
+                sa,
+                sb,
+                change,
+                note,
+            )
+            self.params.append(pa)
+            typical = np.column_stack([typical, note == "typical"])
+            typical_keys.append(pdef.key)
+            self._param_rules(pa, has_design, limits)
+        for rail, label in (("swing_pos", "V+"), ("swing_neg", "V-")):
+            pa = self._swing(rail)
+            if pa is None:
+                continue
+            self.params.append(pa)
             sev: Severity = "circuit-ok" if has_design else "review"
-            add(
+            self.add(
                 "function",
-                sev,
                 f"worse-{rail}",
-                f"needs {fmt(comp.delta, 'V')} more headroom to {label} at "
-                f"{fmt(comp.at_current_a, 'A')} ({fmt(comp.candidate, 'V')} vs "
-                f"{fmt(comp.incumbent, 'V')})",
+                pa.change == "worse",
+                sev,
+                lambda j, pa=pa, label=label: (
+                    f"needs {fmt(pa.cand[j] - pa.inc[j], 'V')} "
+                    f"more headroom to {label} at {fmt(float(pa.at_current_a[j]), 'A')} "  # type: ignore[index]
+                    f"({fmt(pa.cand[j], 'V')} vs {fmt(pa.inc[j], 'V')})"
+                ),
             )
-        elif comp.change == "unknown":
-            add("function", "review", f"unknown-{rail}", f"no swing curve to {label}")
-    # theta_JA is per package (the frame keeps the largest), so it is not compared here; the
-    # junction check of the design uses it.
-    a, b = float(_num(sub, "junction_max_c")[0]), float(_num(sub, "junction_max_c")[j])
-    a, b = (150.0 if math.isnan(a) else a), (150.0 if math.isnan(b) else b)
-    comp = ParamComparison(
-        "junction_max_c", "degC", "low", a, b, "value", "value", _change(a, b, "low")
-    )
-    comps.append(comp)
-    if True:
-        key = comp.key
-        if comp.change == "worse":
-            add("function", "circuit-ok" if has_design else "review", f"worse-{key}", comp.text())
-    if typical_only:
-        add(
+            self.add(
+                "function",
+                f"unknown-{rail}",
+                pa.change == "unknown",
+                "review",
+                lambda j, label=label: f"no swing curve to {label}",
+            )
+        # theta_JA is per package (the frame keeps the largest), so it is not compared here;
+        # the junction check of the design uses it.
+        jm = self.cols.num("junction_max_c")
+        jm = np.where(np.isnan(jm), 150.0, jm)
+        pa = _ParamArrays(
+            "junction_max_c",
+            "degC",
+            "low",
+            np.full(self.p, jm[0]),
+            jm,
+            np.full(self.p, "value", dtype=object),
+            np.full(self.p, "value", dtype=object),
+            _change_all(np.full(self.p, jm[0]), jm, "low"),
+            np.full(self.p, "", dtype=object),
+        )
+        self.params.append(pa)
+        self.add(
             "function",
-            "info",
+            "worse-junction_max_c",
+            pa.change == "worse",
+            "circuit-ok" if has_design else "review",
+            lambda j, pa=pa: pa.comparison(j).text(),
+        )
+        self.add(
+            "function",
             "typical-only",
-            "typical values compared (the incumbent gives no guaranteed value): "
-            + ", ".join(typical_only),
+            typical.any(axis=1),
+            "info",
+            lambda j: (
+                "typical values compared (the incumbent gives no guaranteed value): "
+                + ", ".join(k for k, t in zip(typical_keys, typical[j], strict=True) if t)
+            ),
         )
 
-    # --- behaviour ------------------------------------------------------------------------------
-    if not same_topology:
-        add(
-            "behaviour",
+    def _param_rules(self, pa: _ParamArrays, has_design: bool, limits: Mapping[str, Any]) -> None:
+        """Reasons for a worse, unknown or unguaranteed parameter (module docstring rules)."""
+        key = pa.key
+        text = pa.comparison
+        worse = pa.change == "worse"
+        no_g = pa.note == "no-guarantee"
+        self.add(
+            "function",
+            f"unknown-{key}",
+            pa.change == "unknown",
             "review",
-            "topology",
-            f"another output-stage topology: {cand.topology} instead of {inc.topology}; it is "
-            f"{_TOPOLOGY_TEXT.get(cand.topology, cand.topology)}. The output behaves differently "
-            "even where its figures are better: check the circuit around it (a fix resistor or "
-            "bias chosen for the incumbent's stage)",
+            lambda j: (
+                f"{key}: no value in the catalogue (the incumbent's is "
+                f"{fmt(float(pa.inc[j]), pa.unit)})"
+            ),
         )
-    gbw_i = float(_resolve_one(_sides(sub, "gbw"), 0, ("typ", "min", "max"))[0])
-    gbw_c = float(_resolve_one(_sides(sub, "gbw"), j, ("typ", "min", "max"))[0])
-    if gbw_i > 0 and gbw_c >= GBW_FLAG_RATIO * gbw_i:
-        c_load = design.load.c_load_f if has_design else None
-        if c_load is None or c_load > 0:
+        self.add(
+            "function",
+            f"no-guarantee-{key}",
+            no_g & (pa.change != "unknown") & ~worse,
+            "review",
+            lambda j: (
+                f"{key}: no guaranteed value, the incumbent has one (typicals "
+                f"compared: {text(j).text()})"
+            ),
+        )
+        judged = key in _JUDGED_IN_CIRCUIT
+        if not has_design or not judged:
+            self.add(
+                "function",
+                f"worse-{key}",
+                worse & no_g,
+                "review",
+                lambda j: (
+                    f"worse {text(j).text()} (typicals: no guaranteed value, the incumbent has one)"
+                ),
+            )
+            worse = worse & ~no_g
+        if not has_design:
+            self.add(
+                "function", f"worse-{key}", worse, "review", lambda j: f"worse {text(j).text()}"
+            )
+            return
+        if judged:
+            self.add(
+                "function",
+                f"worse-{key}",
+                worse,
+                "circuit-ok",
+                lambda j: f"worse {text(j).text()}; judged in the circuit",
+            )
+            return
+        req = _REQUIREMENT_LIMIT.get(key)
+        lim = limits.get(req) if req else None
+        if isinstance(lim, int | float) and math.isfinite(float(lim)):
+            within = ~(pa.cand > float(lim))
+            self.add(
+                "function",
+                f"worse-{key}",
+                worse & within,
+                "circuit-ok",
+                lambda j: (
+                    f"worse {text(j).text()}; within the design's {req} {fmt(float(lim), pa.unit)}"
+                ),
+            )
+            self.add(
+                "function",
+                f"worse-{key}",
+                worse & ~within,
+                "fail",
+                lambda j: f"{text(j).text()} exceeds the design's {req} {fmt(float(lim), pa.unit)}",
+            )
+            return
+        self.add(
+            "function",
+            f"worse-{key}",
+            worse,
+            "circuit-ok",
+            lambda j: f"worse {text(j).text()}; the design sets no limit on it",
+        )
+
+    def _swing(self, rail: str) -> _ParamArrays | None:
+        """Every part's headroom to ``rail`` at the incumbent's curve currents, worst point kept.
+
+        Currents beyond a part's own source (sink) limit are left out: the curve says nothing
+        there, and the limit is compared as a parameter of its own.
+        """
+        st = self.stage
+        ii = st.swing_pos_i_a if rail == "swing_pos" else st.swing_neg_i_a
+        vv = st.swing_pos_v if rail == "swing_pos" else st.swing_neg_v
+        pts = [
+            (float(ii[0, k]), float(vv[0, k]))
+            for k in range(ii.shape[1])
+            if not (math.isnan(ii[0, k]) or math.isnan(vv[0, k]))
+        ]
+        if not pts:
+            return None
+        p = self.p
+        used = st.used.get(rail)
+        side_c = (
+            np.asarray(used, dtype=object) if used is not None else np.full(p, "typ", dtype=object)
+        )
+        side_i = np.full(p, side_c[0], dtype=object)
+        fn = st.headroom_pos if rail == "swing_pos" else st.headroom_neg
+        limit = st.source_limit_a if rail == "swing_pos" else st.sink_limit_a
+        h = np.column_stack([fn(np.full(p, i_a)) for i_a, _ in pts])  # (P, K)
+        cur = np.array([i_a for i_a, _ in pts])
+        h_inc = np.array([v for _, v in pts])
+        with np.errstate(invalid="ignore"):
+            inside = ~(cur[None, :] > limit[:, None])
+        diff = np.where(inside, h - h_inc[None, :], -np.inf)
+        k = np.argmax(diff, axis=1)
+        rows = np.arange(p)
+        best = diff[rows, k]
+        lo = np.min(np.where(inside, h - h_inc[None, :], np.inf), axis=1)
+        tol = 1e-6
+        change = np.where(best > tol, "worse", np.where(lo < -tol, "better", "equal")).astype(
+            object
+        )
+        note = np.full(p, "", dtype=object)
+        none_inside = ~inside.any(axis=1)
+        no_curve = np.all(np.isnan(ii), axis=1)
+        k = np.where(none_inside, 0, k)
+        cand = h[rows, k]
+        change[none_inside], note[none_inside] = "n/a", "beyond-limit"
+        cand = np.where(none_inside, np.nan, cand)
+        change[no_curve], side_c = "unknown", np.where(no_curve, "none", side_c)
+        return _ParamArrays(rail, "V", "high", h_inc[k], cand, side_i, side_c, change, note, cur[k])
+
+    # ---- behaviour -----------------------------------------------------------------------------
+    def _behaviour(self) -> None:
+        inc, s, d = self.s[0], self.s, self.design
+        topo = self._str("topology")
+        self.add(
+            "behaviour",
+            "topology",
+            topo != inc.topology,
+            "review",
+            lambda j: (
+                f"another output-stage topology: {s[j].topology} instead of "
+                f"{inc.topology}; it is {_TOPOLOGY_TEXT.get(s[j].topology, s[j].topology)}. The "
+                "output behaves differently even where its figures are better: check the "
+                "circuit around it (a fix resistor or bias chosen for the incumbent's stage)"
+            ),
+        )
+        g = self.cols.sides("gbw")
+        gbw = np.where(np.isnan(g.vtyp), np.where(np.isnan(g.vmin), g.vmax, g.vmin), g.vtyp)
+        c_load = d.load.c_load_f if d is not None else None
+        if gbw[0] > 0 and (c_load is None or c_load > 0):
             where = (
                 f"into the design's {fmt(c_load, 'F')} load capacitance"
                 if c_load
                 else "with any capacitive load (cable, ADC input, long trace)"
             )
-            add(
+            with np.errstate(invalid="ignore"):
+                fast = gbw >= GBW_FLAG_RATIO * gbw[0]
+            self.add(
                 "behaviour",
-                "review",
                 "gbw-cap-load",
-                f"gain-bandwidth {gbw_c / gbw_i:.3g}x the incumbent's {where}: the faster loop "
-                "has less phase margin against the load pole; check stability and ringing",
-            )
-    msg_i = float(_num(sub, "min_stable_gain")[0])
-    msg_c = float(_num(sub, "min_stable_gain")[j])
-    msg_i = 1.0 if math.isnan(msg_i) else msg_i
-    msg_c = 1.0 if math.isnan(msg_c) else msg_c
-    if msg_c > msg_i * (1 + EQUAL_RTOL):
-        if has_design:
-            if bool(circ.ok["stability"][j]):  # type: ignore[union-attr]
-                add(
-                    "behaviour",
-                    "circuit-ok",
-                    "min-stable-gain",
-                    f"stable only from a gain of {msg_c:g} (incumbent {msg_i:g}); the design's "
-                    f"noise gain {design.noise_gain:g} is enough",
-                )
-        else:
-            add(
-                "behaviour",
+                fast,
                 "review",
+                lambda j: (
+                    f"gain-bandwidth {gbw[j] / gbw[0]:.3g}x the incumbent's {where}: "
+                    "the faster loop has less phase margin against the load pole; check "
+                    "stability and ringing"
+                ),
+            )
+        msg = self.cols.num("min_stable_gain")
+        msg = np.where(np.isnan(msg), 1.0, msg)
+        higher = msg > msg[0] * (1 + EQUAL_RTOL)
+        if d is not None and self.circ is not None:
+            self.add(
+                "behaviour",
                 "min-stable-gain",
-                f"stable only from a noise gain of {msg_c:g} (the incumbent from {msg_i:g})",
-            )
-    if not has_design:
-        for key, rail in (("cm_headroom_neg", "V-"), ("cm_headroom_pos", "V+")):
-            s = _sides(sub, key)
-            order = ("max", "typ", "min") if basis == "worst-case" else ("typ", "max", "min")
-            a = _resolve_one(s, 0, order)[0]
-            b = _resolve_one(s, j, order)[0]
-            if a <= 0 < b:
-                add(
-                    "behaviour",
-                    "review",
-                    f"input-range-{key}",
-                    f"input range no longer reaches {rail} (stops {fmt(b, 'V')} from it): a "
-                    f"circuit biased near {rail} stops working",
-                )
-
-    # --- in circuit -------------------------------------------------------------------------------
-    circuit: tuple[CircuitComparison, ...] | None = None
-    circuit_pass: bool | None = None
-    if circ is not None and like_circ is not None:
-        circuit, circuit_pass = _circuit_reasons(circ, like_circ, j, add)
-
-    worst = next((s for s in SEVERITIES if any(r.severity == s for r in reasons)), "info")
-    verdict: Verdict = _VERDICT_OF.get(worst, "drop-in")
-    order = {s: i for i, s in enumerate(SEVERITIES)}
-    reasons.sort(key=lambda r: order[r.severity])
-    return Candidate(cand, verdict, tuple(reasons), tuple(comps), circuit, common, circuit_pass)
-
-
-def _function_reason(
-    comp: ParamComparison, has_design: bool, limits: Mapping[str, Any], add: Any
-) -> None:
-    """Reason for a worse or unknown parameter (see the module docstring for the rules)."""
-    key = comp.key
-    if comp.change == "unknown":
-        add(
-            "function",
-            "review",
-            f"unknown-{key}",
-            f"{key}: no value in the catalogue "
-            f"(the incumbent's is {fmt(comp.incumbent, comp.unit)})",
-        )
-        return
-    if comp.change != "worse":
-        return
-    if comp.note == "no-guarantee":
-        comp_text = f"{comp.text()} (typicals: no guaranteed value, the incumbent has one)"
-        if not has_design or key not in _JUDGED_IN_CIRCUIT:
-            add("function", "review", f"worse-{key}", f"worse {comp_text}")
-            return
-    if not has_design:
-        add("function", "review", f"worse-{key}", f"worse {comp.text()}")
-        return
-    if key in _JUDGED_IN_CIRCUIT:
-        add("function", "circuit-ok", f"worse-{key}", f"worse {comp.text()}; judged in the circuit")
-        return
-    req = _REQUIREMENT_LIMIT.get(key)
-    lim = limits.get(req) if req else None
-    if isinstance(lim, int | float) and math.isfinite(float(lim)):
-        if comp.candidate <= float(lim):
-            add(
-                "function",
+                higher & self.circ.ok["stability"],
                 "circuit-ok",
-                f"worse-{key}",
-                f"worse {comp.text()}; within the design's {req} {fmt(float(lim), comp.unit)}",
+                lambda j: (
+                    f"stable only from a gain of {msg[j]:g} (incumbent "
+                    f"{msg[0]:g}); the design's noise gain {d.noise_gain:g} is enough"
+                ),
             )
-        else:
-            add(
-                "function",
-                "fail",
-                f"worse-{key}",
-                f"{comp.text()} exceeds the design's {req} {fmt(float(lim), comp.unit)}",
-            )
-        return
-    add(
-        "function",
-        "circuit-ok",
-        f"worse-{key}",
-        f"worse {comp.text()}; the design sets no limit on it",
-    )
-
-
-def _swing_comparison(stage: StageParams, rail: str, j: int) -> ParamComparison | None:
-    """Candidate ``j``'s headroom to ``rail`` at the incumbent's (part 0) curve currents.
-
-    The comparison keeps the current where the candidate is worst off (largest extra headroom).
-    Currents beyond the candidate's own source (sink) limit are left out: the curve says
-    nothing there, and the limit is compared as a parameter of its own.
-    """
-    ii = stage.swing_pos_i_a if rail == "swing_pos" else stage.swing_neg_i_a
-    vv = stage.swing_pos_v if rail == "swing_pos" else stage.swing_neg_v
-    pts = [
-        (float(ii[0, k]), float(vv[0, k]))
-        for k in range(ii.shape[1])
-        if not (math.isnan(ii[0, k]) or math.isnan(vv[0, k]))
-    ]
-    if not pts:
-        return None
-    sub = stage.take([0, j])
-    used = stage.used.get(rail)
-    side_i = str(used[0]) if used is not None else "typ"
-    side_c = str(used[j]) if used is not None else "typ"
-    if np.all(np.isnan(sub.swing_pos_i_a[1] if rail == "swing_pos" else sub.swing_neg_i_a[1])):
-        i0, h0 = pts[0]
-        return ParamComparison(
-            rail, "V", "high", h0, math.nan, side_i, "none", "unknown", at_current_a=i0
-        )
-    limit = float((sub.source_limit_a if rail == "swing_pos" else sub.sink_limit_a)[1])
-    inside = [(i_a, h) for i_a, h in pts if not i_a > limit]
-    if not inside:
-        i0, h0 = pts[0]
-        return ParamComparison(
-            rail, "V", "high", h0, math.nan, side_i, side_c, "n/a", "beyond-limit", i0
-        )
-    best: tuple[float, float, float, float] | None = None  # (diff, current, cand, inc)
-    diffs = []
-    for i_a, h_inc in inside:
-        cur = np.array([i_a, i_a])
-        h = sub.headroom_pos(cur) if rail == "swing_pos" else sub.headroom_neg(cur)
-        d = float(h[1]) - h_inc
-        diffs.append(d)
-        if best is None or d > best[0]:
-            best = (d, i_a, float(h[1]), h_inc)
-    assert best is not None
-    tol = 1e-6
-    if best[0] > tol:
-        change: Change = "worse"
-    elif min(diffs) < -tol:
-        change = "better"
-    else:
-        change = "equal"
-    return ParamComparison(
-        rail, "V", "high", best[3], best[2], side_i, side_c, change, at_current_a=best[1]
-    )
-
-
-def _circuit_change(c: CircuitCheck, inc: float, cand: float) -> Change:
-    if math.isnan(inc) and math.isnan(cand):
-        return "n/a"
-    if math.isnan(cand):
-        return "unknown"
-    if math.isnan(inc):
-        return "n/a"
-    if math.isinf(inc) and math.isinf(cand) and (inc > 0) == (cand > 0):
-        return "equal"
-    tol = max(CIRCUIT_RTOL * abs(inc) if math.isfinite(inc) else 0.0, CIRCUIT_ATOL.get(c.unit, 0.0))
-    diff = cand - inc if c.higher_is_better else inc - cand
-    if diff < -tol:
-        return "worse"
-    if diff > tol:
-        return "better"
-    return "equal"
-
-
-def _circuit_reasons(
-    circ: CircuitResult, like: CircuitResult, j: int, add: Any
-) -> tuple[tuple[CircuitComparison, ...], bool]:
-    """Compare candidate ``j`` with the incumbent (index 0) check by check.
-
-    ``circ`` holds every part on its own values (what the candidate guarantees); ``like`` the
-    same parts with the candidates' guaranteed values dropped wherever the incumbent gives
-    none, so that the two are compared like with like (see :func:`_like_with_like`).
-    """
-    out: list[CircuitComparison] = []
-    all_ok = True
-    cf = circ.closed
-    for c in CIRCUIT_CHECKS:
-        vi, vc = float(like.value[c.name][0]), float(like.value[c.name][j])
-        oki = circ.ok.get(c.name)
-        ok_i = None if oki is None else bool(like.ok[c.name][0])
-        ok_c = None if oki is None else bool(oki[j])  # on the candidate's own values
-        ok_cl = None if oki is None else bool(like.ok[c.name][j])
-        if ok_c is False:
-            all_ok = False
-        change = _circuit_change(c, vi, vc)
-        out.append(CircuitComparison(c.name, c.unit, vi, vc, ok_i, ok_c, change))
-        code = f"circuit-{c.name}"
-        if c.name == "conduction" and circ.conduction_allowed:
-            # The design accepts a change of mode; glitch and THD are compared instead.
-            if ok_c is False and ok_i is True:
-                add("circuit", "review", code, circ.message(c.name, j) + " (the design allows it)")
-            continue
-        if ok_c is False and ok_i is not False:
-            if ok_cl is True:
-                add(
-                    "circuit",
-                    "review",
-                    code,
-                    f"{circ.message(c.name, j)} on its guaranteed values; the incumbent gives "
-                    "only typical values here, and on those both pass",
-                )
-            else:
-                add("circuit", c.fail_severity, code, circ.message(c.name, j))
-            continue
-        if ok_c is False and ok_i is False:
-            add("circuit", "info", code, f"as the incumbent: {circ.message(c.name, j)}")
-            continue
-        if ok_c is True and ok_i is False:
-            add("circuit", "info", code, f"{c.label}: passes where the incumbent fails")
-            continue
-        if change == "worse" and c.worse_severity != "info":
-            if c.name in ("glitch", "thd_estimate") and not (vi > 0 or vc > 0):
-                continue
-            add(
-                "circuit",
-                c.worse_severity,
-                code,
-                f"{c.label}: {fmt(vc, c.unit)} vs {fmt(vi, c.unit)} for the incumbent",
-            )
-    marg_c = bool(cf.marginal[j])
-    marg_i = bool(like.closed.marginal[0]) or bool(like.closed.handover[0])
-    if marg_c and not marg_i:
-        add(
-            "circuit",
+            return
+        self.add(
+            "behaviour",
+            "min-stable-gain",
+            higher,
             "review",
-            "circuit-marginal",
-            f"stays in source mode only barely: least source-device current "
-            f"{fmt(float(cf.min_source_a[j]), 'A')} of a stage current of "
-            f"{fmt(float(circ.stage.stage_current_a[j]), 'A')} (audible distortion near the "
-            "handover level)",
+            lambda j: (
+                f"stable only from a noise gain of {msg[j]:g} (the incumbent from {msg[0]:g})"
+            ),
         )
-    return tuple(out), all_ok
+        order = ("max", "typ", "min") if self.basis == "worst-case" else ("typ", "max", "min")
+        for key, rail in (("cm_headroom_neg", "V-"), ("cm_headroom_pos", "V+")):
+            sd = self.cols.sides(key)
+            b = np.full(self.p, np.nan)
+            for side in order:
+                b = np.where(np.isnan(b), sd.side(side), b)
+            with np.errstate(invalid="ignore"):
+                lost = (b[0] <= 0) & (b > 0)
+            self.add(
+                "behaviour",
+                f"input-range-{key}",
+                lost,
+                "review",
+                lambda j, b=b, rail=rail: (
+                    f"input range no longer reaches {rail} (stops "
+                    f"{fmt(b[j], 'V')} from it): a circuit biased near {rail} stops working"
+                ),
+            )
+
+    # ---- in the circuit ------------------------------------------------------------------------
+    def _circuit(self) -> None:
+        """Each in-circuit check against the incumbent's.
+
+        ``circ`` holds every part on its own values (what the candidate guarantees); ``like``
+        the same parts with the candidates' guaranteed values dropped wherever the incumbent
+        gives none, so that the two are compared like with like (see :func:`_like_with_like`).
+        """
+        circ, like = self.circ, self.like
+        assert circ is not None and like is not None
+        p = self.p
+        passes = np.ones(p, dtype=bool)
+        for c in CIRCUIT_CHECKS:
+            vi = np.full(p, float(like.value[c.name][0]))
+            vc = like.value[c.name]
+            has_ok = c.name in circ.ok
+            ok_i = bool(like.ok[c.name][0]) if has_ok else None
+            ok_c = circ.ok[c.name] if has_ok else None
+            ok_cl = like.ok[c.name] if has_ok else None
+            change = _circuit_change_all(c, vi, vc)
+            self.circuit_cmp.append((c, vi, vc, ok_i, ok_c, change))
+            code = f"circuit-{c.name}"
+
+            def msg(j: int, c: CircuitCheck = c) -> str:
+                return circ.message(c.name, j)
+
+            if ok_c is not None:
+                passes &= ok_c
+                fails = ~ok_c
+                if c.name == "conduction" and circ.conduction_allowed:
+                    # The design accepts a change of mode; glitch and THD are compared instead.
+                    self.add(
+                        "circuit",
+                        code,
+                        fails & bool(ok_i),
+                        "review",
+                        lambda j, m=msg: m(j) + " (the design allows it)",
+                    )
+                    continue
+                if ok_i is not False:
+                    self.add(
+                        "circuit",
+                        code,
+                        fails & ok_cl,
+                        "review",
+                        lambda j, m=msg: (
+                            f"{m(j)} on its guaranteed values; the incumbent "
+                            "gives only typical values here, and on those both pass"
+                        ),
+                    )
+                    self.add("circuit", code, fails & ~ok_cl, c.fail_severity, msg)
+                    rest = ~fails
+                else:
+                    self.add(
+                        "circuit", code, fails, "info", lambda j, m=msg: f"as the incumbent: {m(j)}"
+                    )
+                    self.add(
+                        "circuit",
+                        code,
+                        ~fails,
+                        "info",
+                        lambda j, c=c: f"{c.label}: passes where the incumbent fails",
+                    )
+                    continue
+            else:
+                rest = np.ones(p, dtype=bool)
+            if c.worse_severity == "info":
+                continue
+            worse = rest & (change == "worse")
+            if c.name in ("glitch", "thd_estimate"):
+                worse &= (vi > 0) | (vc > 0)
+            self.add(
+                "circuit",
+                code,
+                worse,
+                c.worse_severity,
+                lambda j, c=c, vc=vc, vi=vi: (
+                    f"{c.label}: {fmt(float(vc[j]), c.unit)} vs "
+                    f"{fmt(float(vi[j]), c.unit)} for the incumbent"
+                ),
+            )
+        cf = circ.closed
+        marg_i = bool(like.closed.marginal[0]) or bool(like.closed.handover[0])
+        self.add(
+            "circuit",
+            "circuit-marginal",
+            np.asarray(cf.marginal, dtype=bool) & (not marg_i),
+            "review",
+            lambda j: (
+                "stays in source mode only barely: least source-device "
+                f"current {fmt(float(cf.min_source_a[j]), 'A')} of a stage current of "
+                f"{fmt(float(circ.stage.stage_current_a[j]), 'A')} (audible distortion near "
+                "the handover level)"
+            ),
+        )
+        self.circuit_pass = passes
+
+    # ---- results -------------------------------------------------------------------------------
+    def verdicts(self) -> tuple[np.ndarray, dict[str, np.ndarray]]:
+        """Verdict index per part (into VERDICTS) and per-part counts for the ordering."""
+        rank = {sev: k for k, sev in enumerate(SEVERITIES)}
+        worst = np.full(self.p, len(SEVERITIES), dtype=int)
+        n = {k: np.zeros(self.p, dtype=int) for k in ("fail", "heavy", "light")}
+        for r in self.rules:
+            code = np.select([r.severity == sev for sev in SEVERITIES], list(rank.values()), 4)
+            worst = np.minimum(worst, code)
+            n["fail"] += r.severity == "fail"
+            is_review = r.severity == "review"
+            n["heavy" if r.aspect != "function" else "light"] += is_review
+        for key in ("better", "worse", "unknown"):
+            n[key] = sum((pa.change == key).astype(int) for pa in self.params)
+        verdict = np.select(
+            [worst == 0, worst == 1, worst == 2], [3, 2, 1], default=0
+        )  # fail, review, circuit-ok, else drop-in
+        return verdict, n
+
+    def candidate(self, j: int, verdict: Verdict) -> Candidate:
+        order = {s: i for i, s in enumerate(SEVERITIES)}
+        reasons = [
+            Reason(r.aspect, r.severity[j], r.code, r.message(j))
+            for r in self.rules
+            if r.severity[j]
+        ]
+        reasons.sort(key=lambda r: order[r.severity])
+        circuit = None
+        if self.circuit_pass is not None:
+            circuit = tuple(
+                CircuitComparison(
+                    c.name,
+                    c.unit,
+                    float(vi[j]),
+                    float(vc[j]),
+                    ok_i,
+                    None if ok_c is None else bool(ok_c[j]),
+                    change[j],
+                )
+                for c, vi, vc, ok_i, ok_c, change in self.circuit_cmp
+            )
+        return Candidate(
+            self.s[j],
+            verdict,
+            tuple(reasons),
+            tuple(pa.comparison(j) for pa in self.params),
+            circuit,
+            self.common[j],
+            None if self.circuit_pass is None else bool(self.circuit_pass[j]),
+        )
 
 
 def _like_with_like(sub: pd.DataFrame, basis: Basis) -> pd.DataFrame:
@@ -1391,6 +1667,7 @@ def vet_substitutes(
     package: str | None = None,
     include_unsuitable: bool = False,
     limit: int | None = None,
+    passing_first: bool = False,
 ) -> Vetting:
     """Vet substitutes for ``incumbent`` (a part number in ``frame``), best first.
 
@@ -1407,6 +1684,11 @@ def vet_substitutes(
         fits only some of the incumbent's packages needs review.
     include_unsuitable: also list unsuitable candidates from the default pool.
     limit: at most this many candidates.
+    passing_first: with a design, candidates that pass every in-circuit check come first
+        (for a circuit the incumbent itself fails; the BOM check uses it).
+
+    Every rule is evaluated for all candidates at once (arrays along the part axis); the
+    reasons and comparisons are worded only for the candidates returned.
 
     Raises :class:`~partsel.errors.InputError` for an unknown part number, a package the
     incumbent does not come in, or an unknown basis.
@@ -1445,15 +1727,32 @@ def vet_substitutes(
         circ = evaluate_circuit(sub, design, basis)
         like_circ = evaluate_circuit(like, design, basis) if like is not sub else circ
     summaries = _summaries(sub)
-    out = [
-        _vet_one(summaries[0], summaries[j], sub, j, basis, design, package, circ, like_circ, stage)
-        for j in range(1, len(sub))
-    ]
+    vet = _Vetting(sub, summaries, basis, design, package, circ, like_circ, stage)
+    verdict, n = vet.verdicts()
+    idx = np.arange(1, len(sub))
     if not keep_unsuitable:
-        out = [c for c in out if c.verdict != "unsuitable"]
-    out.sort(key=Candidate.sort_key)
+        idx = idx[verdict[idx] != VERDICTS.index("unsuitable")]
+    price = [x.price if math.isfinite(x.price) else math.inf for x in summaries]
+    passing = vet.circuit_pass if passing_first else None
+
+    def key(j: int) -> tuple[Any, ...]:
+        """The order of :meth:`Candidate.sort_key`, from the arrays."""
+        first = (not bool(passing[j]),) if passing is not None else ()
+        return (
+            *first,
+            int(verdict[j]),
+            int(n["fail"][j]),
+            int(n["heavy"][j] + n["worse"][j] + n["unknown"][j]),
+            int(n["light"][j]),
+            -int(n["better"][j]),
+            price[j],
+            summaries[j].part_number.casefold(),
+        )
+
+    order = sorted(idx.tolist(), key=key)
     if limit is not None:
-        out = out[: max(int(limit), 0)]
+        order = order[: max(int(limit), 0)]
+    out = [vet.candidate(j, VERDICTS[int(verdict[j])]) for j in order]
     inc_circ = tuple(circ.rows(0)) if circ is not None else None
     return Vetting(
         incumbent=summaries[0],
