@@ -261,3 +261,18 @@ def test_sqlite_and_postgresql_store_and_sort_the_same(pg_url: str, tmp_path: Pa
     finally:
         for e in engines:
             e.dispose()
+
+
+def test_a_role_missing_a_grant_gets_a_message_not_a_traceback(pg: PgServer, pg_url: str) -> None:
+    owner = open_catalogue(pg_url)
+    load_paths(owner, [CATALOGUE_DATA])
+    reader = pg.select_only_role(pg_url)
+    role = sa.make_url(reader).username
+    with owner.begin() as conn:  # e.g. a table added by an upgrade after the grant was given
+        conn.exec_driver_sql(f'REVOKE SELECT ON part_history FROM "{role}"')
+    owner.dispose()
+    assert run(reader, "show", "QFA-2210").exit_code == ExitCode.OK
+    result = run(reader, "history", "QFA-2210")
+    assert result.exit_code == ExitCode.BAD_INPUT
+    assert "permission denied for table part_history" in result.stderr
+    assert result.exception is None or isinstance(result.exception, SystemExit)

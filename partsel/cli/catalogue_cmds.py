@@ -44,6 +44,7 @@ from partsel.catalogue.validate import canonical_part
 from partsel.cli.common import (
     JsonFlag,
     bad_input_exits,
+    database_errors_exit,
     echo_json,
     engine,
     fail_bad_input,
@@ -508,12 +509,15 @@ def import_sheet(
 def register(app: typer.Typer) -> None:
     """Add the catalogue commands to ``app``."""
     app.command("check")(check)
-    app.command("load")(load)
-    app.command("list")(list_parts)
-    app.command("show")(show)
-    app.command("edit")(edit)
-    app.command("history")(history)
-    app.command("restore")(restore)
-    app.command("export")(export)
-    app.command("export-csv")(export_csv)
-    app.command("import-sheet")(import_sheet)
+    for name, command in (
+        ("load", load),
+        ("list", list_parts),
+        ("show", show),
+        ("edit", edit),
+        ("history", history),
+        ("restore", restore),
+        ("export", export),
+        ("export-csv", export_csv),
+        ("import-sheet", import_sheet),
+    ):
+        app.command(name)(database_errors_exit(command))

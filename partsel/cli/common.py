@@ -6,19 +6,21 @@ Data goes to stdout, messages to stderr. Bad input ends a command with
 
 from __future__ import annotations
 
+import functools
 import json
 import math
 import sys
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from enum import IntEnum
-from typing import Annotated, Any, NoReturn
+from typing import Annotated, Any, NoReturn, ParamSpec, TypeVar
 
 import typer
 from rich.console import Console
 from sqlalchemy.engine import Engine
 
+from partsel.catalogue.db import DatabaseErrors, engine_label
 from partsel.catalogue.history import ConflictError
 from partsel.errors import InputError, Problem
 
@@ -186,3 +188,35 @@ def bad_input_exits(*, json_out: bool = False) -> Iterator[None]:
         yield
     except InputError as exc:
         fail_bad_input(exc, json_out=json_out)
+
+
+_P = ParamSpec("_P")
+_R = TypeVar("_R")
+
+
+def database_errors_exit(command: Callable[_P, _R]) -> Callable[_P, _R]:
+    """Wrap a command so that a database refusal or failure ends it with a clear message, exit 2.
+
+    E.g. a PostgreSQL role without SELECT on a table, or a server that went away; the message
+    names the catalogue and the database's own first line of explanation.
+    """
+
+    @functools.wraps(command)
+    def run(*args: _P.args, **kwargs: _P.kwargs) -> _R:
+        try:
+            return command(*args, **kwargs)
+        except DatabaseErrors as exc:
+            ctx = next((a for a in (*args, *kwargs.values()) if isinstance(a, typer.Context)), None)
+            eng = state(ctx)._engine if ctx is not None else None
+            where = engine_label(eng) if eng is not None else "database"
+            message(f"error: the catalogue {where} failed: {_first_line(exc)}")
+            message("nothing was changed.")
+            raise typer.Exit(ExitCode.BAD_INPUT) from exc
+
+    return run
+
+
+def _first_line(exc: BaseException) -> str:
+    orig = getattr(exc, "orig", None) or exc
+    lines = str(orig).strip().splitlines()
+    return lines[0] if lines else type(orig).__name__
