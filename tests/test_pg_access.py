@@ -276,3 +276,19 @@ def test_a_role_missing_a_grant_gets_a_message_not_a_traceback(pg: PgServer, pg_
     assert result.exit_code == ExitCode.BAD_INPUT
     assert "permission denied for table part_history" in result.stderr
     assert result.exception is None or isinstance(result.exception, SystemExit)
+
+
+def test_read_only_postgresql_sessions_are_read_only_in_the_server(pg_url: str) -> None:
+    """Besides partsel's own refusal, the server itself refuses writes of a read-only engine;
+    connection options given in the URL are kept."""
+    open_catalogue(pg_url).dispose()
+    url = sa.make_url(pg_url).update_query_dict({"options": "-c statement_timeout=4321"})
+    engine = open_catalogue(url.render_as_string(hide_password=False), read_only=True)
+    try:
+        with engine.connect() as conn:
+            assert conn.exec_driver_sql("SHOW default_transaction_read_only").scalar() == "on"
+            assert conn.exec_driver_sql("SHOW statement_timeout").scalar() == "4321ms"
+            with pytest.raises(sa.exc.DBAPIError, match="read-only transaction"):
+                conn.exec_driver_sql("DELETE FROM part")
+    finally:
+        engine.dispose()
