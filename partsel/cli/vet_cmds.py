@@ -162,9 +162,13 @@ def vet(
 # ---- compare ----------------------------------------------------------------------------------
 
 
+#: Units shown with an engineering prefix (others, such as a currency, are shown as given).
+_SI_UNITS = frozenset({"V", "A", "Hz", "V/s", "F", "V/rtHz", "degC", "K/W", "V/V", "1", "ohm"})
+
+
 def comparison_text(cmp: Comparison) -> str:
     """The comparison for people: one row per value, '*' marks the best."""
-    width = max(14, *(len(p) + 2 for p in cmp.parts))
+    width = max(22, *(len(p) + 2 for p in cmp.parts))
     head = f"{'':<34}" + "".join(f"{p:>{width}}" for p in cmp.parts)
     out = [f"basis: {cmp.basis}" + (f'; design: "{cmp.design_name}"' if cmp.design_name else "")]
     out.append(head)
@@ -176,7 +180,7 @@ def comparison_text(cmp: Comparison) -> str:
         cells = []
         for k, v in enumerate(r.values):
             if isinstance(v, float):
-                text = fmt(v, r.unit) if r.unit not in ("", "USD", "EUR") else f"{v:g}"
+                text = fmt(v, r.unit) if r.unit in _SI_UNITS else f"{v:g} {r.unit}".strip()
             else:
                 text = str(v)
             if r.ok is not None and r.ok[k] is False:
