@@ -38,12 +38,16 @@ from partsel.physics.stage import Basis, StageParams
 
 if TYPE_CHECKING:
     from partsel.solver import Ranking
+    from partsel.solver.bom import BomReport
+    from partsel.solver.substitute import Comparison, Vetting
 
 __all__ = [
     "CAUTION",
     "PartPrediction",
     "Prediction",
     "catalogue_frame",
+    "check_bom",
+    "compare_parts",
     "load_design",
     "open_catalogue",
     "predict",
@@ -51,6 +55,7 @@ __all__ = [
     "rank",
     "select_parts",
     "stage_params",
+    "vet_substitutes",
 ]
 
 CAUTION = (
@@ -335,6 +340,57 @@ def rank(
     if basis is not None:
         req = req.replace(basis=basis)
     return solver_rank(PartTable(catalogue_frame(catalogue)), design, req)
+
+
+def vet_substitutes(
+    catalogue: Engine | pd.DataFrame | str | None,
+    incumbent: str,
+    design: Design | str | None = None,
+    **kwargs: Any,
+) -> Vetting:
+    """Candidates to replace ``incumbent``, best first, with verdicts and reasons
+    (see :func:`partsel.solver.substitute.vet_substitutes` for the keyword arguments)."""
+    from partsel.solver.substitute import vet_substitutes as _vet
+
+    if design is not None and not isinstance(design, Design):
+        design = load_design(design)
+    return _vet(catalogue_frame(catalogue), incumbent, design, **kwargs)
+
+
+def compare_parts(
+    catalogue: Engine | pd.DataFrame | str | None,
+    parts: Sequence[str],
+    design: Design | str | None = None,
+    **kwargs: Any,
+) -> Comparison:
+    """Two to four parts side by side (optionally in ``design``)."""
+    from partsel.solver.substitute import compare_parts as _compare
+
+    if design is not None and not isinstance(design, Design):
+        design = load_design(design)
+    return _compare(catalogue_frame(catalogue), list(parts), design, **kwargs)
+
+
+def check_bom(
+    catalogue: Engine | str | None,
+    bom: Any,
+    design: Design | str | None = None,
+    **kwargs: Any,
+) -> BomReport:
+    """Check every line of a BOM (CSV path, bytes, stream or frame) against the catalogue and
+    the maker's suffix rules; per-line design files are read with :func:`load_design`."""
+    from partsel.catalogue import makers
+    from partsel.solver.bom import check_bom as _check
+
+    engine = (
+        open_catalogue(catalogue)
+        if catalogue is None or isinstance(catalogue, str)
+        else (catalogue)
+    )
+    if design is not None and not isinstance(design, Design):
+        design = load_design(design)
+    kwargs.setdefault("design_loader", load_design)
+    return _check(parts_frame(engine), bom, makers(engine), design, **kwargs)
 
 
 _ = PARAMS  # the registry documents which parameters values_used() reports

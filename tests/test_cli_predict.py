@@ -96,3 +96,34 @@ def test_bad_inputs_exit_2(loaded, tmp_path):
     assert r.exit_code == 2 and "/signal/frequency" in r.stderr
     r = loaded("waveform", design, "BRQ-622", "--out", tmp_path / "w.jpg")
     assert r.exit_code == 2
+
+
+def test_readme_python_prediction_example_runs(tmp_path):
+    """The README's first Python script (predict and rank) runs as written on a fresh user
+    folder, where the default catalogue is created from sample-catalog/."""
+    import os
+    import re
+    import subprocess
+    import sys
+
+    text = (PROJECT / "README.md").read_text(encoding="utf-8")
+    blocks = re.findall(r"```python\n(.*?)```", text, flags=re.DOTALL)
+    code = next(b for b in blocks if "ps.rank(" in b)
+    env = dict(os.environ, XDG_DATA_HOME=str(tmp_path / "data"), HOME=str(tmp_path))
+    env.pop("PARTSEL_DB", None)
+    work = tmp_path / "work"
+    work.mkdir()
+    (work / "sample-catalog").symlink_to(PROJECT / "sample-catalog")
+    script = work / "example.py"
+    script.write_text(code, encoding="utf-8")
+    r = subprocess.run(
+        [sys.executable, str(script)],
+        cwd=work,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=300,
+    )
+    assert r.returncode == 0, r.stderr
+    assert "BRQ-622 changes-mode negative" in r.stdout
+    assert "feasible" in r.stdout

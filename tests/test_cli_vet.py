@@ -1,6 +1,6 @@
 """The substitute commands end to end on the sample catalogue: vet, compare, bom-check (text,
 JSON validated against the schemas in data-schema/, merged CSV), exit codes 0 / 1 / 2, and the
-Python example of partsel/solver/README-vetting.md."""
+Python example of the README's section on replacing a part."""
 
 from __future__ import annotations
 
@@ -195,10 +195,11 @@ def test_malformed_rows_are_findings_not_failures(loaded, tmp_path: Path) -> Non
 
 
 def test_readme_python_example_runs(tmp_path: Path) -> None:
-    """The script in partsel/solver/README-vetting.md runs as written (fresh user folder, so
-    the default catalogue is created from sample-catalog/)."""
-    text = (PROJECT / "partsel" / "solver" / "README-vetting.md").read_text(encoding="utf-8")
-    code = re.search(r"```python\n(.*?)```", text, flags=re.DOTALL)
+    """The README's vetting / BOM script runs as written (fresh user folder, so the default
+    catalogue is created from sample-catalog/)."""
+    text = (PROJECT / "README.md").read_text(encoding="utf-8")
+    blocks = re.findall(r"```python\n(.*?)```", text, flags=re.DOTALL)
+    code = next((b for b in blocks if "check_bom" in b), None)
     assert code is not None
     env = dict(os.environ, XDG_DATA_HOME=str(tmp_path / "data"), HOME=str(tmp_path))
     env.pop("PARTSEL_DB", None)
@@ -206,7 +207,7 @@ def test_readme_python_example_runs(tmp_path: Path) -> None:
     work.mkdir()
     (work / "sample-catalog").symlink_to(PROJECT / "sample-catalog")  # paths as in a checkout
     script = work / "example.py"
-    script.write_text(code.group(1), encoding="utf-8")
+    script.write_text(code, encoding="utf-8")
     r = subprocess.run(
         [sys.executable, str(script)],
         cwd=work,
