@@ -160,7 +160,7 @@ def pg_url(pg: PgServer) -> Iterator[str]:
     pg.drop_database(url)
 
 
-def test_select_only_role_ranks_predicts_and_cannot_write(
+def test_select_only_role_ranks_predicts_checks_boms_and_cannot_write(
     pg: PgServer, pg_url: str, tmp_path: Path
 ) -> None:
     owner = open_catalogue(pg_url)
@@ -175,6 +175,8 @@ def test_select_only_role_ranks_predicts_and_cannot_write(
         ("history", "BRQ-622", "--json"),
         ("predict", DESIGN, "BRQ-622", "BRQ-722", "--no-sim", "--json"),
         ("rank", DESIGN, "--json"),
+        ("vet", "BRQ-622", "--design", DESIGN, "--json"),
+        ("bom-check", PROJECT / "sample-catalog" / "bom" / "mixed-board.csv", "--json"),
         ("export-csv", "-"),
     ]
     for args in reads:
