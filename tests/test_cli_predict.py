@@ -125,5 +125,5 @@ def test_readme_python_prediction_example_runs(tmp_path):
         timeout=300,
     )
     assert r.returncode == 0, r.stderr
-    assert "BRQ-622 changes-mode negative" in r.stdout
+    assert "BRQ-622 changes-mode" in r.stdout and "BRQ-722 biased-crossover not-needed" in r.stdout
     assert "feasible" in r.stdout
