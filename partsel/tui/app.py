@@ -127,6 +127,7 @@ class PartselApp(App[None]):
         self.last_latency_s: float | None = None
         self._sims: OrderedDict[tuple[Any, ...], Prediction] = OrderedDict()
         self._records: dict[str, dict[str, Any] | None] = {}
+        self._inflight: dict[str, tuple[Any, ...]] = {}
 
     def _first_design(self, design: Design | str | Path | None) -> Design:
         if isinstance(design, Design):
@@ -260,6 +261,9 @@ class PartselApp(App[None]):
         if key in self._sims:
             self._deliver(key, self._sims[key])
             return
+        if key == self._inflight.get(group):
+            return  # already on its way
+        self._inflight[group] = key
         req = self.ranking.requirements
         self._simulate(key, self.frame, part_numbers, self.design, req, group=group)
 
@@ -285,12 +289,13 @@ class PartselApp(App[None]):
                 series=req.fix_series,
                 margin=req.limit("min_source_fraction"),
             )
-        except Exception as exc:
+        except Exception as exc:  # shown to the user; the UI stays up
+            self.call_from_thread(self._forget, key)
             if not worker.is_cancelled:
                 self.call_from_thread(self.notify, f"simulation failed: {exc}", severity="error")
             return
-        if not worker.is_cancelled:
-            self.call_from_thread(self._simulated, key, pred)
+        # a superseded run that finished is still right for its own key: keep it in the cache
+        self.call_from_thread(self._simulated, key, pred)
 
     @work(thread=True, exclusive=True, group="compare", exit_on_error=False)
     def _compare_worker(
@@ -333,7 +338,14 @@ class PartselApp(App[None]):
         else:
             self._simulate_worker(key, frame, pns, design, req)
 
+    def _forget(self, key: tuple[Any, ...]) -> None:
+        """``key`` is no longer being simulated."""
+        for group, k in list(self._inflight.items()):
+            if k == key:
+                del self._inflight[group]
+
     def _simulated(self, key: tuple[Any, ...], pred: Prediction) -> None:
+        self._forget(key)
         self._sims[key] = pred
         while len(self._sims) > SIMULATION_CACHE:
             self._sims.popitem(last=False)

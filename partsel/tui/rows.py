@@ -21,7 +21,7 @@ from partsel.solver.export import verdict_text
 from partsel.tui import fmt
 
 #: Largest number of rows put into the table (the rest stay in the ranking; filter to narrow).
-MAX_ROWS = 200
+MAX_ROWS = 100
 
 
 @dataclass(frozen=True)
@@ -91,6 +91,11 @@ class RankingView:
 
     # ---- arrays along the part axis ---------------------------------------------------------
     @cached_property
+    def maker(self) -> np.ndarray:
+        """Maker of each part."""
+        return self.r.table.text("maker")
+
+    @cached_property
     def position(self) -> np.ndarray:
         """Position of each part in the ranking order."""
         pos = np.empty(self.r.n, dtype=np.int64)
@@ -149,7 +154,7 @@ class RankingView:
         if column == "stage":
             return r.table.topology
         if column == "maker":
-            return r.table.text("maker")
+            return self.maker
         raise KeyError(column)
 
     def rows(
@@ -259,5 +264,5 @@ class RankingView:
             fmt.quantity(ch.value[i, C.IDX["price"]], "currency unit"),
             self.margin_cell(i),
             fmt.TOPOLOGY_SHORT.get(str(r.table.topology[i]), str(r.table.topology[i])),
-            str(r.table.text("maker")[i]),
+            str(self.maker[i]),
         )

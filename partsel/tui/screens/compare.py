@@ -107,8 +107,9 @@ class CompareScreen(Screen[None]):
         table = self.query_one("#compare-table", DataTable)
         table.clear(columns=True)
         table.add_column("", key="label", width=26)
+        width = {2: 40, 3: 29}.get(len(self.part_numbers), 22)
         for pn in self.part_numbers:
-            table.add_column(pn, key=pn, width=28)
+            table.add_column(pn, key=pn, width=width)
         group = None
         for k, row in enumerate(self.rows):
             if self.differences_only and len(set(row.texts)) <= 1:

@@ -16,14 +16,26 @@ from textual import on
 from textual.app import ComposeResult
 from textual.containers import Horizontal, VerticalScroll
 from textual.message import Message
+from textual.widget import Widget
 from textual.widgets import Collapsible, Input, Label, Select, Static
 
 from partsel.physics.circuit import Design
 from partsel.tui import fmt
-from partsel.tui.fields import FIELDS, FieldSpec, validate_values, values_from_design
+from partsel.tui.fields import (
+    FIELD_BY_ID,
+    FIELDS,
+    FieldSpec,
+    validate_values,
+    values_from_design,
+)
 
-#: Form groups shown folded at first (opened when one of their fields has a problem).
+#: Form groups shown folded at first (opened when one of their fields has a problem); their
+#: fields are mounted when the group is first opened, which keeps the screen quick to start.
 FOLDED_GROUPS = ("Limits", "Objectives (weights)")
+
+
+def _group_id(group: str) -> str:
+    return "group-" + group.split()[0].lower()
 
 
 class DesignForm(VerticalScroll):
@@ -47,57 +59,91 @@ class DesignForm(VerticalScroll):
         super().__init__(id=id)
         self.source: str | None = None
         self.problems: dict[str, list[str]] = {}
+        #: Text of the fields of folded groups not mounted yet (mounted on first opening).
+        self._stash: dict[str, str] = {}
+        self._mounted_groups: set[str] = set()
 
     # ---- layout -----------------------------------------------------------------------------
-    def _field(self, spec: FieldSpec) -> ComposeResult:
-        with Horizontal(classes="field-row", id=f"{spec.id}-row"):
-            yield Label(spec.label, classes="field-label", id=f"{spec.id}-label")
-            if spec.kind == "choice":
-                widget: Input | Select[str] = Select(
-                    [(c, c) for c in spec.choices],
-                    allow_blank=False,
-                    value=spec.choices[0],
-                    id=spec.id,
-                    classes="field-input",
-                    compact=True,
-                )
-            else:
-                widget = Input(
-                    placeholder=spec.placeholder,
-                    id=spec.id,
-                    classes="field-input",
-                    compact=True,
-                )
-            widget.tooltip = spec.help
-            yield widget
-            yield Label(spec.unit, classes="field-unit")
-        yield Static("", classes="field-error", id=f"{spec.id}-error")
+    @staticmethod
+    def _field(spec: FieldSpec) -> list[Widget]:
+        """The widgets of one field: the row (label, input, unit) and its problem line."""
+        if spec.kind == "choice":
+            widget: Input | Select[str] = Select(
+                [(c, c) for c in spec.choices],
+                allow_blank=False,
+                value=spec.choices[0],
+                id=spec.id,
+                classes="field-input",
+                compact=True,
+            )
+        else:
+            widget = Input(
+                placeholder=spec.placeholder, id=spec.id, classes="field-input", compact=True
+            )
+        widget.tooltip = spec.help
+        row = Horizontal(
+            Label(spec.label, classes="field-label", id=f"{spec.id}-label"),
+            widget,
+            Label(spec.unit, classes="field-unit"),
+            classes="field-row",
+            id=f"{spec.id}-row",
+        )
+        return [row, Static("", classes="field-error", id=f"{spec.id}-error")]
 
     def compose(self) -> ComposeResult:
         yield Static("", id="form-status", classes="form-status")
         for group, specs in groupby(FIELDS, key=lambda f: f.group):
             items = list(specs)
             if group in FOLDED_GROUPS:
-                slug = group.split()[0].lower()
-                with Collapsible(title=group, collapsed=True, id=f"group-{slug}"):
-                    for spec in items:
-                        yield from self._field(spec)
+                yield Collapsible(title=group, collapsed=True, id=_group_id(group))
             else:
                 yield Static(group, classes="form-group")
                 for spec in items:
                     yield from self._field(spec)
+
+    def _field_mounted(self, spec: FieldSpec) -> bool:
+        return spec.group not in FOLDED_GROUPS or spec.group in self._mounted_groups
+
+    async def open_group(self, group: str) -> None:
+        """Unfold a folded group, mounting its fields the first time."""
+        box = self.query_one(f"#{_group_id(group)}", Collapsible)
+        if group not in self._mounted_groups:
+            self._mounted_groups.add(group)
+            widgets = [w for spec in FIELDS if spec.group == group for w in self._field(spec)]
+            await box.query_one(Collapsible.Contents).mount_all(widgets)
+            with self.prevent(Input.Changed, Select.Changed):
+                for spec in FIELDS:
+                    if spec.group == group:
+                        self._set_widget(spec, self._stash.pop(spec.id, ""))
+            self._mark({}, self.problems, only_group=group)
+        box.collapsed = False
+
+    @on(Collapsible.Expanded)
+    async def _expanded(self, event: Collapsible.Expanded) -> None:
+        group = next((g for g in FOLDED_GROUPS if _group_id(g) == event.collapsible.id), None)
+        if group is not None and group not in self._mounted_groups:
+            await self.open_group(group)
 
     # ---- values -----------------------------------------------------------------------------
     def values(self) -> dict[str, str]:
         """The text of every field, by field id."""
         out: dict[str, str] = {}
         for spec in FIELDS:
-            if spec.kind == "choice":
+            if not self._field_mounted(spec):
+                out[spec.id] = self._stash.get(spec.id, "")
+            elif spec.kind == "choice":
                 v = self.query_one(f"#{spec.id}", Select).value
                 out[spec.id] = "" if v is Select.BLANK else str(v)
             else:
                 out[spec.id] = self.query_one(f"#{spec.id}", Input).value
         return out
+
+    def _set_widget(self, spec: FieldSpec, text: str) -> None:
+        if spec.kind == "choice":
+            sel = self.query_one(f"#{spec.id}", Select)
+            sel.value = text if text in spec.choices else spec.choices[0]
+        else:
+            self.query_one(f"#{spec.id}", Input).value = text
 
     def set_values(self, values: Mapping[str, str], source: str | None = None) -> None:
         """Fill the form (one validation afterwards, not one per field)."""
@@ -105,11 +151,10 @@ class DesignForm(VerticalScroll):
         with self.prevent(Input.Changed, Select.Changed):
             for spec in FIELDS:
                 text = values.get(spec.id, "")
-                if spec.kind == "choice":
-                    sel = self.query_one(f"#{spec.id}", Select)
-                    sel.value = text if text in spec.choices else spec.choices[0]
+                if self._field_mounted(spec):
+                    self._set_widget(spec, text)
                 else:
-                    self.query_one(f"#{spec.id}", Input).value = text
+                    self._stash[spec.id] = text
         self.validate()
 
     def load_design(self, design: Design) -> None:
@@ -118,12 +163,12 @@ class DesignForm(VerticalScroll):
 
     def set_field(self, field_id: str, text: str) -> None:
         """Set one field as if typed (validated at once)."""
-        widget = self.query_one(f"#{field_id}")
-        if isinstance(widget, Select):
-            widget.value = text
+        spec = FIELD_BY_ID[field_id]
+        if self._field_mounted(spec):
+            self._set_widget(spec, text)  # posts Changed: validated by the handler
         else:
-            assert isinstance(widget, Input)
-            widget.value = text
+            self._stash[field_id] = text
+            self.validate()
 
     # ---- validation -------------------------------------------------------------------------
     @on(Input.Changed, ".field-input")
@@ -132,13 +177,22 @@ class DesignForm(VerticalScroll):
         event.stop()
         self.validate()
 
-    def validate(self) -> Design | None:
-        """Read the form, mark bad fields, post Valid or Invalid; return the design or None."""
-        result = validate_values(self.values(), self.source)
-        before, self.problems = self.problems, result.problems
-        for spec in FIELDS:  # touch only the fields whose problems changed
-            msgs = result.problems.get(spec.id, [])
+    def _mark(
+        self,
+        before: dict[str, list[str]],
+        after: dict[str, list[str]],
+        only_group: str | None = None,
+    ) -> None:
+        """Mark the mounted fields whose problems changed from ``before`` to ``after``."""
+        for spec in FIELDS:
+            if only_group is not None and spec.group != only_group:
+                continue
+            msgs = after.get(spec.id, [])
             if msgs == before.get(spec.id, []):
+                continue
+            if not self._field_mounted(spec):
+                if msgs:
+                    self.call_later(self.open_group, spec.group)
                 continue
             self.query_one(f"#{spec.id}-row").set_class(bool(msgs), "bad")
             label = self.query_one(f"#{spec.id}-label", Label)
@@ -147,8 +201,13 @@ class DesignForm(VerticalScroll):
             err.update("\n".join(msgs))
             err.set_class(bool(msgs), "shown")
             if msgs and spec.group in FOLDED_GROUPS:
-                slug = spec.group.split()[0].lower()
-                self.query_one(f"#group-{slug}", Collapsible).collapsed = False
+                self.query_one(f"#{_group_id(spec.group)}", Collapsible).collapsed = False
+
+    def validate(self) -> Design | None:
+        """Read the form, mark bad fields, post Valid or Invalid; return the design or None."""
+        result = validate_values(self.values(), self.source)
+        before, self.problems = self.problems, result.problems
+        self._mark(before, result.problems)
         status = self.query_one("#form-status", Static)
         if result.design is not None:
             status.update(Text(f"{fmt.OK} design valid", style="green"))

@@ -41,8 +41,7 @@ def summary_text(r: Ranking, i: int) -> Text:
     out.append(str(t.part_number[i]), style="bold")
     out.append(f"  {t.text('maker')[i]} · {t.topology[i]} · ")
     ch_n = t.channels[i]
-    out.append(f"{int(ch_n) if fmt.finite(ch_n) else '?'} ch · {t.lifecycle[i]}")
-    out.append(f" · {r.requirements.basis}\n", style="dim")
+    out.append(f"{int(ch_n) if fmt.finite(ch_n) else '?'} ch · {t.lifecycle[i]}\n")
     if r.feasible[i]:
         out.append(f"{fmt.OK} feasible", style="bold green")
         out.append(f", rank {r.rank[i]} of {r.n_feasible}, score {r.score[i]:.1f}")
