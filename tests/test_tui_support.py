@@ -1,0 +1,127 @@
+"""Shared helpers of the terminal-UI tests (no tests here): a temporary catalogue filled from the
+invented sample catalogue, the app on it, and a way to wait until the workers are done."""
+
+from __future__ import annotations
+
+import asyncio
+import shutil
+from collections.abc import Awaitable, Callable
+from pathlib import Path
+from typing import Any
+
+import pytest
+
+PROJECT = Path(__file__).resolve().parents[1]
+SAMPLE_PARTS = PROJECT / "sample-catalog" / "parts"
+SAMPLE_DESIGNS = PROJECT / "sample-catalog" / "designs"
+LINE_DRIVER = SAMPLE_DESIGNS / "line-driver-5v.toml"
+#: Terminal size of every UI test and snapshot (columns, rows).
+SIZE = (120, 40)
+
+
+def build_sample_db(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """An SQLite catalogue filled from sample-catalog/parts (made once, copied per test)."""
+    from partsel.catalogue import load_paths, open_catalogue
+
+    path = tmp_path_factory.mktemp("tui-db") / "catalogue.sqlite"
+    engine = open_catalogue(f"sqlite:///{path}")
+    load_paths(engine, [SAMPLE_PARTS])
+    with engine.connect() as conn:  # fold the WAL into the file before copying it
+        conn.exec_driver_sql("PRAGMA wal_checkpoint(TRUNCATE)")
+    engine.dispose()
+    return path
+
+
+def copy_sample_db(sample_db_file: Path, tmp_path: Path) -> Any:
+    """A catalogue engine on a test's own copy of the sample catalogue."""
+    from partsel.catalogue import open_catalogue
+
+    path = tmp_path / "catalogue.sqlite"
+    shutil.copy(sample_db_file, path)
+    return open_catalogue(f"sqlite:///{path}")
+
+
+def make_app(engine: Any, tmp_path: Path, *, simulate: bool = False, **kw: Any) -> Any:
+    """The app on ``engine`` with the sample line driver, files going to ``tmp_path``."""
+    from partsel.tui.app import PartselApp
+
+    return PartselApp(
+        engine,
+        design=LINE_DRIVER,
+        simulate=simulate,
+        sample_dir=SAMPLE_DESIGNS,
+        work_dir=tmp_path,
+        **kw,
+    )
+
+
+async def settle(pilot: Any, rounds: int = 3) -> None:
+    """Wait until no worker runs and the screen has caught up with the messages."""
+    for _ in range(rounds):
+        await pilot.pause()
+        await pilot.app.workers.wait_for_complete()
+    await pilot.pause()
+
+
+def drive(app: Any, scenario: Callable[[Any], Awaitable[None]]) -> None:
+    """Run ``scenario(pilot)`` against ``app`` headless at :data:`SIZE`."""
+
+    async def main() -> None:
+        async with app.run_test(size=SIZE) as pilot:
+            await settle(pilot)
+            await scenario(pilot)
+
+    asyncio.run(main())
+
+
+async def type_into(pilot: Any, widget_id: str, text: str) -> None:
+    """Clear the input ``widget_id`` and type ``text`` key by key (validated as typed)."""
+    inp = pilot.app.screen.query_one(f"#{widget_id}")
+    inp.focus()
+    await pilot.pause()
+    inp.value = ""
+    await pilot.pause()
+    await pilot.press(*[{" ": "space"}.get(c, c) for c in text])
+    await settle(pilot)
+
+
+async def paste_into(pilot: Any, widget_id: str, text: str) -> None:
+    """Replace the text of input ``widget_id`` at once (as a paste does)."""
+    inp = pilot.app.screen.query_one(f"#{widget_id}")
+    inp.focus()
+    inp.value = text
+    await settle(pilot)
+
+
+_PREDICTIONS: list[tuple[tuple[Any, ...], Any]] = []
+
+
+def _prediction_key(app: Any, part_number: str) -> tuple[Any, ...]:
+    req = app.ranking.requirements
+    return (part_number, app.design, req.basis, req.fix_series, req.limit("min_source_fraction"))
+
+
+def remember_prediction(app: Any, part_number: str, pred: Any) -> None:
+    """Keep a simulation made in one test for the others (it is the slow part)."""
+    _PREDICTIONS.append((_prediction_key(app, part_number), pred))
+
+
+def reference_prediction(app: Any, part_number: str) -> Any:
+    """``partsel.api.predict_frame`` of one part in the app's current design and requirements
+    (once per test session: the time-domain simulation is the slow part)."""
+    from partsel.api import predict_frame, select_parts
+
+    key = _prediction_key(app, part_number)
+    for k, pred in _PREDICTIONS:
+        if k == key:
+            return pred
+    req = app.ranking.requirements
+    pred = predict_frame(
+        select_parts(app.frame, [part_number]),
+        app.design,
+        basis=req.basis,
+        series=req.fix_series,
+        margin=req.limit("min_source_fraction"),
+    )
+    _PREDICTIONS.append((key, pred))
+    return pred
