@@ -8,6 +8,7 @@ Each command module has a ``register(app)`` function that adds its commands; add
 
 from __future__ import annotations
 
+import sys
 from typing import Annotated
 
 import typer
@@ -64,6 +65,13 @@ def main(
     ctx.obj = st
     ctx.call_on_close(st.close)
     if ctx.invoked_subcommand is None:
+        if sys.stdin.isatty() and sys.stdout.isatty():
+            # In a terminal: the UI on the selected catalogue. Scripts and CI (no terminal)
+            # get the help instead, so they never wait on a screen.
+            from partsel.tui import run_tui
+
+            run_tui(st.engine(), user=user)
+            raise typer.Exit(ExitCode.OK)
         typer.echo(ctx.get_help())
         raise typer.Exit(ExitCode.OK)
 
