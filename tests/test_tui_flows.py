@@ -478,3 +478,42 @@ def test_folded_limits_edit_and_bad_value(tui_engine: Any, tmp_path: Path) -> No
         np.testing.assert_array_equal(app.ranking.feasible, expected.feasible)
 
     drive(app, scenario)
+
+
+def test_edit_part_refused_when_changed_meanwhile(tui_engine: Any, tmp_path: Path) -> None:
+    """An edit made in the UI against a version that another writer has replaced meanwhile is
+    refused; the catalogue keeps the other writer's record, nothing of the refused edit."""
+    from partsel.catalogue import load_documents, validate_document
+
+    app = make_app(tui_engine, tmp_path)
+    pn = "BRQ-622A"
+
+    async def scenario(pilot: Any) -> None:
+        await pilot.press("f7")
+        await settle(pilot)
+        await paste_into(pilot, "cat-search", pn.lower())
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        from partsel.tui.screens.catalogue import PartEditorScreen
+
+        editor = app.screen
+        assert isinstance(editor, PartEditorScreen)
+        before = get_part(tui_engine, pn)
+        # another writer stores a change first
+        theirs = {**before.record, "notes": "changed by another writer"}
+        doc, problems = validate_document({"parts": [theirs]}, file="other.yaml")
+        assert not problems
+        load_documents(tui_engine, [doc])
+        mine = yaml.safe_load(editor.text)
+        mine["description"] = "changed in the UI"
+        editor.query_one("#record").text = yaml.safe_dump(mine, sort_keys=False)
+        await settle(pilot)
+        await pilot.press("ctrl+s")
+        await settle(pilot)
+        assert app.screen is editor  # refused: the editor stays open
+        stored = get_part(tui_engine, pn)
+        assert stored.record["notes"] == "changed by another writer"
+        assert stored.record["description"] == before.record["description"]
+        assert stored.version == before.version + 1
+
+    drive(app, scenario)
