@@ -34,6 +34,12 @@ BASIS_FIELD = FIELD_BY_PATH[("requirements", "basis")].id
 FIRST_FIELD = FIELD_BY_PATH[("load", "resistance")].id
 
 
+#: Footer groups: related keys shown together under one label.
+NAV = Binding.Group("Design/Ranking")
+FILES = Binding.Group("Open/Save")
+VIEW = Binding.Group("Basis/Rejected")
+
+
 class MainScreen(Screen[None]):
     """Design form, ranking and part view."""
 
@@ -44,6 +50,7 @@ class MainScreen(Screen[None]):
             "Design",
             id="focus-design",
             priority=True,
+            group=NAV,
             tooltip="Go to the design form (the field last edited)",
         ),
         Binding(
@@ -52,6 +59,7 @@ class MainScreen(Screen[None]):
             "Ranking",
             id="focus-ranking",
             priority=True,
+            group=NAV,
             tooltip="Go to the ranked parts",
         ),
         Binding(
@@ -92,6 +100,7 @@ class MainScreen(Screen[None]):
             "Open",
             id="open-design",
             priority=True,
+            group=FILES,
             tooltip="Open a design file (or a sample design)",
         ),
         Binding(
@@ -100,6 +109,7 @@ class MainScreen(Screen[None]):
             "Save",
             id="save-design",
             priority=True,
+            group=FILES,
             tooltip="Save the design to a file (.toml, .yaml, .json)",
         ),
         Binding(
@@ -116,6 +126,7 @@ class MainScreen(Screen[None]):
             "Basis",
             id="toggle-basis",
             priority=True,
+            group=VIEW,
             tooltip="Toggle worst-case / typical basis",
         ),
         Binding(
@@ -124,6 +135,7 @@ class MainScreen(Screen[None]):
             "Rejected",
             id="toggle-rejected",
             priority=True,
+            group=VIEW,
             tooltip="Show or hide the rejected parts (with their binding constraint)",
         ),
         Binding(

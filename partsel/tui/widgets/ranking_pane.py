@@ -57,13 +57,16 @@ ORDER: tuple[str, ...] = (
 _POS = {c.key: k for k, c in enumerate(COLUMNS)}
 
 
+SORT = Binding.Group("Sort/Reverse", compact=True)
+
+
 class RankingTable(DataTable):
     """The table of ranked parts (keys: space marks, s / S sort)."""
 
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("space", "mark", "Mark", tooltip="Mark or unmark the part for the compare view"),
-        Binding("s", "sort_next", "Sort", tooltip="Sort by the next column"),
-        Binding("S", "sort_reverse", "Reverse", tooltip="Reverse the sort order"),
+        Binding("s", "sort_next", "Sort", tooltip="Sort by the next column", group=SORT),
+        Binding("S", "sort_reverse", "Reverse", tooltip="Reverse the sort order", group=SORT),
         Binding("slash", "filter", "Filter", show=False),
     ]
 
