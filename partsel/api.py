@@ -70,7 +70,11 @@ def catalogue_frame(catalogue: Engine | pd.DataFrame | str | None = None) -> pd.
     if isinstance(catalogue, pd.DataFrame):
         return catalogue
     if catalogue is None or isinstance(catalogue, str):
-        catalogue = open_catalogue(catalogue)
+        engine = open_catalogue(catalogue)
+        try:
+            return parts_frame(engine)
+        finally:
+            engine.dispose()  # opened here, so closed here (no pooled connections left)
     return parts_frame(catalogue)
 
 
@@ -382,15 +386,16 @@ def check_bom(
     from partsel.catalogue import makers
     from partsel.solver.bom import check_bom as _check
 
-    engine = (
-        open_catalogue(catalogue)
-        if catalogue is None or isinstance(catalogue, str)
-        else (catalogue)
-    )
-    if design is not None and not isinstance(design, Design):
-        design = load_design(design)
-    kwargs.setdefault("design_loader", load_design)
-    return _check(parts_frame(engine), bom, makers(engine), design, **kwargs)
+    own = catalogue is None or isinstance(catalogue, str)
+    engine = open_catalogue(catalogue) if own else catalogue
+    try:
+        if design is not None and not isinstance(design, Design):
+            design = load_design(design)
+        kwargs.setdefault("design_loader", load_design)
+        return _check(parts_frame(engine), bom, makers(engine), design, **kwargs)
+    finally:
+        if own:
+            engine.dispose()
 
 
 _ = PARAMS  # the registry documents which parameters values_used() reports
