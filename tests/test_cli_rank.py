@@ -30,8 +30,9 @@ SCHEMA = json.loads((ROOT / "data-schema" / "ranking.schema.json").read_text(enc
 
 
 @pytest.fixture(scope="module")
-def sample_db(tmp_path_factory: pytest.TempPathFactory) -> str:
-    url = f"sqlite:///{tmp_path_factory.mktemp('rankdb') / 'c.sqlite'}"
+def sample_db(module_db_url: str) -> str:
+    """The sample catalogue in a database of its own (SQLite, and PostgreSQL in CI)."""
+    url = module_db_url
     eng = open_catalogue(url)
     load_paths(eng, [ROOT / "sample-catalog" / "parts"])
     eng.dispose()

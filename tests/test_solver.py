@@ -196,10 +196,11 @@ def _records() -> list[dict[str, Any]]:
 
 
 @pytest.fixture(scope="module")
-def table(tmp_path_factory: pytest.TempPathFactory) -> PartTable:
+def table(module_db_url: str) -> PartTable:
+    """The hand-built catalogue, stored and read back (SQLite, and PostgreSQL in CI)."""
     from partsel.catalogue import open_catalogue
 
-    eng: Engine = open_catalogue(f"sqlite:///{tmp_path_factory.mktemp('hand') / 'c.sqlite'}")
+    eng: Engine = open_catalogue(module_db_url)
     load_documents(eng, validate_documents([("hand.json", {"parts": copy.deepcopy(_records())})]))
     t = PartTable(parts_frame(eng))
     eng.dispose()
