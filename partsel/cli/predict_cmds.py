@@ -11,7 +11,15 @@ from typing import Annotated
 import typer
 
 from partsel import api
-from partsel.cli.common import ExitCode, JsonFlag, bad_input_exits, echo_json, engine, message
+from partsel.cli.common import (
+    ExitCode,
+    JsonFlag,
+    bad_input_exits,
+    database_errors_exit,
+    echo_json,
+    engine,
+    message,
+)
 from partsel.errors import InputError
 from partsel.report import prediction_text
 
@@ -141,9 +149,9 @@ def deck(
 
 def register(app: typer.Typer) -> None:
     """Add the prediction commands to ``app``."""
-    app.command("predict")(predict)
-    app.command("waveform")(waveform)
-    app.command("deck")(deck)
+    app.command("predict")(database_errors_exit(predict))
+    app.command("waveform")(database_errors_exit(waveform))
+    app.command("deck")(database_errors_exit(deck))
 
 
 _ = ExitCode

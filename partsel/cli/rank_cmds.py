@@ -21,6 +21,7 @@ from partsel.cli.common import (
     ExitCode,
     JsonFlag,
     bad_input_exits,
+    database_errors_exit,
     echo_json,
     engine,
     fail_bad_input,
@@ -431,5 +432,5 @@ def _explain_text(r: Ranking, i: int, dom: np.ndarray, own_hints: list[Any]) -> 
 
 def register(app: typer.Typer) -> None:
     """Add the ranking commands to ``app``."""
-    app.command("rank")(rank_cmd)
-    app.command("explain")(explain)
+    app.command("rank")(database_errors_exit(rank_cmd))
+    app.command("explain")(database_errors_exit(explain))

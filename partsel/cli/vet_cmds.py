@@ -16,7 +16,15 @@ import typer
 
 from partsel import api
 from partsel.catalogue import makers as catalogue_makers
-from partsel.cli.common import ExitCode, JsonFlag, bad_input_exits, echo_json, engine, message
+from partsel.cli.common import (
+    ExitCode,
+    JsonFlag,
+    bad_input_exits,
+    database_errors_exit,
+    echo_json,
+    engine,
+    message,
+)
 from partsel.design import load_design
 from partsel.errors import InputError
 from partsel.physics.circuit import Design
@@ -336,6 +344,6 @@ def bom_check(
 
 def register(app: typer.Typer) -> None:
     """Add the substitute and BOM commands to ``app``."""
-    app.command("vet")(vet)
-    app.command("compare")(compare)
-    app.command("bom-check")(bom_check)
+    app.command("vet")(database_errors_exit(vet))
+    app.command("compare")(database_errors_exit(compare))
+    app.command("bom-check")(database_errors_exit(bom_check))
