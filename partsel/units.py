@@ -179,3 +179,35 @@ def format_si(value: float, unit: str, digits: int = 3) -> str:
             return f"{value / scale:.{digits}g} {prefix}{unit}".strip()
     scale, prefix = _PREFIXES[-1]
     return f"{value / scale:.{digits}g} {prefix}{unit}".strip()
+
+
+def format_for_people(value: object, unit: str, digits: int = 3, *, symbols: bool = False) -> str:
+    """A value with its catalogue unit label for people: engineering prefixes, slew rates in
+    V/µs, temperatures in °C, '—' when missing. ``symbols`` (screens) also writes ohm as Ω,
+    micro as µ and a bare number for an empty unit."""
+    if value is None:
+        return "—"
+    try:
+        v = float(value)  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        return str(value)
+    if math.isnan(v):
+        return "—"
+    if math.isinf(v):
+        return "∞" if v > 0 else "-∞"
+    if unit == "1" or (symbols and unit == ""):
+        return f"{v:.{digits}g}"
+    if unit == "degC":
+        return f"{v:.4g} °C"
+    if unit == "V/s":
+        return f"{v * 1e-6:.{digits}g} V/µs"
+    if unit == "currency unit":
+        return f"{v:.2f}"
+    if unit == "V/V":
+        return f"{v:.{digits}g} V/V"
+    if unit == "V/rtHz":
+        return format_si(v, "V/√Hz", digits)
+    if symbols and unit == "ohm":
+        return format_si(v, "Ω", digits)
+    text = format_si(v, unit, digits)
+    return text.replace(" u", " µ") if symbols else text

@@ -44,7 +44,7 @@ from partsel.solver.export import (
 from partsel.solver.pareto import dominators
 from partsel.solver.relax import part_relaxation
 from partsel.solver.requirements import BASES, LIMIT_BY_KEY
-from partsel.units import format_si
+from partsel.units import format_for_people, format_si
 
 DesignArg = Annotated[Path, typer.Argument(help="Design file (.toml, .yaml or .json).")]
 BasisOpt = Annotated[
@@ -74,21 +74,7 @@ def _solve(ctx: typer.Context, design_path: Path, basis: str | None) -> Ranking:
 
 def fmt_unit(value: float | None, unit: str) -> str:
     """A value with its unit for people ('—' when missing)."""
-    if value is None or (isinstance(value, float) and not math.isfinite(value)):
-        return "—" if value is None or math.isnan(value) else ("∞" if value > 0 else "-∞")
-    if unit == "1":
-        return f"{value:.3g}"
-    if unit == "degC":
-        return f"{value:.4g} °C"
-    if unit == "V/s":
-        return f"{value * 1e-6:.3g} V/µs"
-    if unit == "currency unit":
-        return f"{value:.2f}"
-    if unit == "V/V":
-        return f"{value:.3g} V/V"
-    if unit == "V/rtHz":
-        return format_si(value, "V/√Hz")
-    return format_si(value, unit)
+    return format_for_people(value, unit)
 
 
 def fmt_thd(x: float) -> str:

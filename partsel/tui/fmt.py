@@ -6,7 +6,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from partsel.units import format_si
+from partsel.units import format_for_people
 
 #: Symbols used wherever a colour also marks a state (so the screen reads without colour).
 OK = "✓"
@@ -44,31 +44,7 @@ def finite(value: Any) -> bool:
 
 def quantity(value: Any, unit: str, digits: int = 3) -> str:
     """A value with its unit for people ('—' when missing; units as in the catalogue)."""
-    if value is None:
-        return "—"
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        return str(value)
-    if math.isnan(v):
-        return "—"
-    if math.isinf(v):
-        return "∞" if v > 0 else "-∞"
-    if unit in ("1", ""):
-        return f"{v:.{digits}g}"
-    if unit == "degC":
-        return f"{v:.4g} °C"
-    if unit == "V/s":
-        return f"{v * 1e-6:.{digits}g} V/µs"
-    if unit == "currency unit":
-        return f"{v:.2f}"
-    if unit == "V/V":
-        return f"{v:.{digits}g} V/V"
-    if unit == "V/rtHz":
-        return format_si(v, "V/√Hz", digits)
-    if unit == "ohm":
-        return format_si(v, "Ω", digits)
-    return format_si(v, unit, digits).replace(" u", " µ")
+    return format_for_people(value, unit, digits, symbols=True)
 
 
 def percent(value: Any, digits: int = 2) -> str:
