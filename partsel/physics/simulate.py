@@ -202,9 +202,14 @@ def simulate(
             kp = ap + sp * v  # avail_pos(vo) = kp - sp * vo
             kn = an - sn * (v - vneg)  # avail_neg(vo) = kn + sn * (vo - vneg)
 
-            def resid(vo: np.ndarray) -> np.ndarray:
+            def drive(vo: np.ndarray) -> np.ndarray:
+                """Drive node at the end of the step: slew-limited integrator, clamped."""
                 rate = np.clip(c_rate - (wt * beta) * vo, -sr_f, sr_r)
-                x = np.clip(base + dt * rate, drive_lo, drive_hi) - vo
+                return np.clip(base + dt * rate, drive_lo, drive_hi)
+
+            def devices(x: np.ndarray, vo: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+                """Source, sink and pull-down currents at drive - output ``x`` and output
+                ``vo`` (device laws of partsel.physics.stage, swing limits of this step)."""
                 avail_pos = np.maximum(kp - sp * vo, 0.0)
                 avail_neg = np.maximum(kn + sn * (vo - vneg), 0.0)
                 i_src = np.minimum(
@@ -215,6 +220,10 @@ def simulate(
                 i_snk = np.minimum(
                     np.minimum(i_snk0 * e_snk, lim_snk), np.maximum(avail_neg - i_pd, 0.0)
                 )
+                return i_src, i_snk, i_pd
+
+            def resid(vo: np.ndarray) -> np.ndarray:
+                i_src, i_snk, i_pd = devices(drive(vo) - vo, vo)
                 return i_src - i_snk - i_pd - (g_tot * vo - i_const)
 
             # Bracket around the linear extrapolation of the last two steps.
@@ -264,25 +273,14 @@ def simulate(
             v_new = np.where((v_new >= lo) & (v_new <= hi), v_new, 0.5 * (lo + hi))
             v_old = v
             v = v_new
-            rate = np.clip(c_rate - (wt * beta) * v, -sr_f, sr_r)
-            vd = np.clip(base + dt * rate, drive_lo, drive_hi)
+            vd = drive(v)
             if ac:
                 i_c = (v - v_cap - v_ref_l) / r_l
                 v_cap = v_cap + dt * i_c / c_c
                 i_cap_sum += i_c
             if recording:
                 j += 1
-                x = vd - v
-                avail_pos = np.maximum(kp - sp * v, 0.0)
-                avail_neg = np.maximum(kn + sn * (v - vneg), 0.0)
-                i_src = np.minimum(
-                    np.minimum(i_src0 * np.exp(np.minimum(x * inv_vs, 60.0)), lim_src), avail_pos
-                )
-                i_pd = np.minimum(pd_const + pd_slope * v, avail_neg)
-                i_snk = np.minimum(
-                    np.minimum(i_snk0 * np.exp(np.minimum((-x - db) * inv_vs, 60.0)), lim_snk),
-                    np.maximum(avail_neg - i_pd, 0.0),
-                )
+                i_src, i_snk, i_pd = devices(vd - v, v)
                 rec["v"][j] = v
                 rec["vd"][j] = vd
                 rec["io"][j] = i_src - i_snk - i_pd
