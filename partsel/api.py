@@ -28,7 +28,6 @@ from sqlalchemy.engine import Engine
 from partsel.catalogue import open_catalogue, parts_frame
 from partsel.design import load_design
 from partsel.errors import InputError
-from partsel.params import PARAMS
 from partsel.physics.analysis import ClosedForm, predict_closed_form
 from partsel.physics.circuit import Design
 from partsel.physics.fix import FixResult, size_fix
@@ -396,6 +395,3 @@ def check_bom(
     finally:
         if own:
             engine.dispose()
-
-
-_ = PARAMS  # the registry documents which parameters values_used() reports

@@ -5,6 +5,7 @@ All predictions are estimates from partsel's macro-model; every output says so.
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 from typing import Annotated
 
@@ -12,7 +13,6 @@ import typer
 
 from partsel import api
 from partsel.cli.common import (
-    ExitCode,
     JsonFlag,
     bad_input_exits,
     database_errors_exit,
@@ -129,8 +129,8 @@ def deck(
     if with_fix:
         rn = float(pred.fix.r_neg_ohm[0])
         rp = float(pred.fix.r_pos_ohm[0])
-        rn = None if rn != rn else rn
-        rp = None if rp != rp else rp
+        rn = None if math.isnan(rn) else rn
+        rp = None if math.isnan(rp) else rp
         if rn is None and rp is None:
             message(f"note: {part} needs no fix resistor (or none works); deck without one")
     pn = str(pred.frame["part_number"].iloc[0])
@@ -152,6 +152,3 @@ def register(app: typer.Typer) -> None:
     app.command("predict")(database_errors_exit(predict))
     app.command("waveform")(database_errors_exit(waveform))
     app.command("deck")(database_errors_exit(deck))
-
-
-_ = ExitCode

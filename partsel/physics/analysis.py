@@ -206,9 +206,7 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     crossover_biased = ~pulldown & (i_min < 0) & (i_max > 0)
     level, g_th = thevenin_level(design)
     with np.errstate(divide="ignore", invalid="ignore"):
-        flat = (
-            np.where(g_th > 0, level - i_stage / g_th, np.nan) if g_th > 0 else np.full(p, np.nan)
-        )
+        flat = level - i_stage / g_th if g_th > 0 else np.full(p, np.nan)
         # Handover where B sin(theta) = -I_stage - I0 (class A/B) or = -I0 (biased).
         thr = np.where(pulldown, -i_stage - i0, -i0)
         k = np.clip(thr / b, -1.0, 1.0) if b > 0 else np.full(p, np.nan)
