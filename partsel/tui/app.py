@@ -71,6 +71,25 @@ def sample_designs(sample_dir: Path | None = None) -> list[Path]:
     return sorted(p for p in sample_dir.iterdir() if p.suffix in (".toml", ".yaml", ".json"))
 
 
+def _predict(
+    frame: pd.DataFrame,
+    part_numbers: tuple[str, ...],
+    design: Design,
+    req: Requirements,
+    *,
+    simulate_fix: bool,
+) -> Prediction:
+    """The simulated prediction of some parts on the ranking's basis, series and margin."""
+    return predict_frame(
+        select_parts(frame, list(part_numbers)),
+        design,
+        basis=req.basis,
+        series=req.fix_series,
+        margin=req.limit("min_source_fraction"),
+        simulate_fix=simulate_fix,
+    )
+
+
 class PartselApp(App[None]):
     """Describe the circuit, see the ranked parts and their predicted waveforms."""
 
@@ -281,14 +300,7 @@ class PartselApp(App[None]):
         if worker.is_cancelled:
             return
         try:
-            sub = select_parts(frame, list(part_numbers))
-            pred = predict_frame(
-                sub,
-                design,
-                basis=req.basis,
-                series=req.fix_series,
-                margin=req.limit("min_source_fraction"),
-            )
+            pred = _predict(frame, part_numbers, design, req, simulate_fix=True)
         except Exception as exc:  # shown to the user; the UI stays up
             self.call_from_thread(self._forget, key)
             if not worker.is_cancelled:
@@ -308,15 +320,7 @@ class PartselApp(App[None]):
     ) -> None:
         worker = get_current_worker()
         try:
-            sub = select_parts(frame, list(part_numbers))
-            pred = predict_frame(
-                sub,
-                design,
-                basis=req.basis,
-                series=req.fix_series,
-                margin=req.limit("min_source_fraction"),
-                simulate_fix=False,
-            )
+            pred = _predict(frame, part_numbers, design, req, simulate_fix=False)
         except Exception as exc:
             if not worker.is_cancelled:
                 self.call_from_thread(self.notify, f"simulation failed: {exc}", severity="error")
