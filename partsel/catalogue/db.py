@@ -17,6 +17,7 @@ from __future__ import annotations
 import logging
 import os
 import sqlite3
+import time
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
@@ -125,10 +126,34 @@ def _sqlite_on_connect(dbapi_conn: Any, _record: object, *, read_only: bool) -> 
     # that writers can take the write lock up front with BEGIN IMMEDIATE.
     dbapi_conn.isolation_level = None
     cur = dbapi_conn.cursor()
-    if not read_only:
-        cur.execute("PRAGMA journal_mode=WAL")
-    cur.execute(f"PRAGMA busy_timeout={SQLITE_BUSY_TIMEOUT_MS}")
-    cur.close()
+    try:
+        cur.execute(f"PRAGMA busy_timeout={SQLITE_BUSY_TIMEOUT_MS}")
+        if not read_only:
+            _switch_to_wal(cur)
+    finally:
+        cur.close()
+
+
+def _switch_to_wal(cur: sqlite3.Cursor) -> None:
+    """Put the database file in WAL mode (a no-op when it already is).
+
+    Switching the journal mode needs an exclusive lock, and SQLite reports ``database is
+    locked`` at once, without waiting for the busy timeout, when another connection opened
+    the same new file at the same moment; so the switch is retried until the busy timeout.
+    """
+    if str(cur.execute("PRAGMA journal_mode").fetchone()[0]).casefold() == "wal":
+        return
+    deadline = time.monotonic() + SQLITE_BUSY_TIMEOUT_MS / 1000
+    pause = 0.005
+    while True:
+        try:
+            cur.execute("PRAGMA journal_mode=WAL")
+            return
+        except sqlite3.OperationalError as exc:
+            if "locked" not in str(exc) or time.monotonic() > deadline:
+                raise
+        time.sleep(pause)
+        pause = min(2 * pause, 0.1)
 
 
 def _sqlite_on_begin(conn: Connection) -> None:
