@@ -410,17 +410,25 @@ def test_conduction_mode_change_where_the_incumbent_has_none(frame: pd.DataFrame
 def test_larger_glitch_where_both_hand_over_needs_review(frame: pd.DataFrame) -> None:
     """A 2 kohm load to the 6 V bias sinks 500 uA peak: both parts hand over. At the handover
     sin(theta) = -150 uA / 500 uA, the output slope is s = 2 pi f A cos(theta); the glitch is
-    sqrt(2 dV G s / omega_t) (design notes section 4; not slew-limited here), so DB-2's dead
-    band of 2.25 V against 1.5 V makes it sqrt(1.5) times larger."""
+    sqrt(2 dV G s / omega_t) (design notes section 4; not slew-limited here), with the first-
+    order correction for the ideal's steepening over the crossing, so DB-2's dead band of
+    2.25 V against 1.5 V makes it about sqrt(1.5) times larger."""
     d = design(load="2 kohm")
     c = one(frame, "DB-2", d)
     assert c.verdict == "review"
     assert "circuit-glitch" in codes(c, "review")
     g = {x.check: x for x in c.circuit}["glitch"]
-    s = 2 * math.pi * 1e3 * 1.0 * math.sqrt(1 - 0.3**2)
-    expect = math.sqrt(2 * 1.5 * 2 * s / (2 * math.pi * 0.8e6))
-    assert g.incumbent == pytest.approx(expect, rel=1e-3)
-    assert g.candidate / g.incumbent == pytest.approx(math.sqrt(2.25 / 1.5), rel=1e-3)
+    w = 2 * math.pi * 1e3
+    s = w * 1.0 * math.sqrt(1 - 0.3**2)
+    accel = w * w * 1.0 * 0.3  # the ideal steepens on the rising edge
+
+    def glitch(dead_band: float) -> float:
+        # s tau0 (1 + e / 3), e = accel tau0 / s: the first-order steepening correction
+        tau0 = math.sqrt(2 * dead_band * 2 / (2 * math.pi * 0.8e6 * s))
+        return s * tau0 * (1 + accel * tau0 / s / 3)
+
+    assert g.incumbent == pytest.approx(glitch(1.5), rel=2e-3)
+    assert g.candidate / g.incumbent == pytest.approx(glitch(2.25) / glitch(1.5), rel=2e-3)
     # both change mode: noted, not held against the candidate
     assert any(r.code == "circuit-conduction" and r.severity == "info" for r in c.reasons)
 
