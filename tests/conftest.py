@@ -185,3 +185,22 @@ def quill_doc() -> dict:
     import yaml
 
     return yaml.safe_load((CATALOGUE_DATA / "quill.yaml").read_text(encoding="utf-8"))
+
+
+def _ngspice_required() -> bool:
+    return (
+        os.environ.get("CI", "").lower() in ("true", "1")
+        or os.environ.get("PARTSEL_REQUIRE_NGSPICE") == "1"
+    )
+
+
+@pytest.fixture(scope="session")
+def need_ngspice() -> None:
+    """Skip without ngspice, or fail where it is required (CI, PARTSEL_REQUIRE_NGSPICE=1)."""
+    from partsel.spice_run import ngspice_path
+
+    if ngspice_path() is None:
+        msg = "ngspice is not installed (Debian package 'ngspice')"
+        if _ngspice_required():
+            pytest.fail(msg + ", but CI / PARTSEL_REQUIRE_NGSPICE=1 requires it")
+        pytest.skip(msg)

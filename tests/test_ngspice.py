@@ -43,13 +43,12 @@ rate, 3.1e6 /s here, so ``K dt`` is about 3 at simulate()'s default n = 1024):
   ``max |dv|`` by at least 1.5 (measured 1.9).
 
 Without ngspice the tests skip, unless ``CI`` is ``true`` or ``PARTSEL_REQUIRE_NGSPICE=1``: then
-they fail.
+they fail (fixture ``need_ngspice`` in conftest.py).
 """
 
 from __future__ import annotations
 
 import math
-import os
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -62,27 +61,10 @@ from partsel.physics.simulate import SimResult, simulate
 from partsel.physics.spectrum import DEFAULT_HARMONICS, thd
 from partsel.physics.spice import spice_deck
 from partsel.physics.stage import StageParams, pwl
-from partsel.spice_run import ngspice_path, run_ngspice_columns
+from partsel.spice_run import run_ngspice_columns
 
 N_STEPS = 1024  # simulate()'s default for these designs (at least 1024 steps per period)
 PERIODS = 3  # two warm-up periods and the recorded one, in both simulators
-
-
-def _required() -> bool:
-    return (
-        os.environ.get("CI", "").lower() in ("true", "1")
-        or os.environ.get("PARTSEL_REQUIRE_NGSPICE") == "1"
-    )
-
-
-@pytest.fixture(scope="module")
-def need_ngspice() -> None:
-    """Skip without ngspice, or fail where it is required (CI, PARTSEL_REQUIRE_NGSPICE=1)."""
-    if ngspice_path() is None:
-        msg = "ngspice is not installed (Debian package 'ngspice')"
-        if _required():
-            pytest.fail(msg + ", but CI / PARTSEL_REQUIRE_NGSPICE=1 requires it")
-        pytest.skip(msg)
 
 
 # ---- invented parts -------------------------------------------------------------------------
