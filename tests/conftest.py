@@ -6,6 +6,12 @@ Database fixtures (``db_url``, ``engine``, ``cli``) run each test on SQLite and,
 (``.ci/run`` starts a throw-away server and sets it), again on PostgreSQL, each time in a fresh
 empty database: test ids end in ``[sqlite]`` / ``[postgresql]``. ``PARTSEL_REQUIRE_PG=1``
 makes a missing server an error instead of a silently smaller run.
+
+Hypothesis: under CI (``CI=true``, or ``PARTSEL_HYPOTHESIS_PROFILE=ci`` as ``.ci/run`` sets)
+the property tests run with the ``ci`` profile, derandomised: the examples follow from each
+test's source, so a run is repeatable and a pass is not luck of the draw. Elsewhere they draw
+fresh examples each run and keep failures in the local example database, which is where new
+counterexamples are found.
 """
 
 from __future__ import annotations
@@ -17,6 +23,7 @@ from pathlib import Path
 
 import pytest
 import sqlalchemy as sa
+from hypothesis import settings
 from sqlalchemy.engine import Engine
 from typer.testing import CliRunner, Result
 
@@ -24,6 +31,13 @@ DATA = Path(__file__).parent / "data"
 CATALOGUE_DATA = DATA / "catalogue"
 PROJECT = Path(__file__).resolve().parents[1]
 SAMPLE_PARTS = PROJECT / "sample-catalog" / "parts"
+
+settings.register_profile("ci", derandomize=True, database=None, print_blob=True)
+_profile = os.environ.get("PARTSEL_HYPOTHESIS_PROFILE") or (
+    "ci" if os.environ.get("CI", "").lower() in ("true", "1") else None
+)
+if _profile:
+    settings.load_profile(_profile)
 
 #: Environment variable: SQLAlchemy URL of a PostgreSQL database with rights to create
 #: databases and roles (e.g. postgresql+psycopg://partsel@/partsel_test?host=/tmp/x&port=5432).
