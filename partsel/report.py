@@ -66,6 +66,13 @@ def prediction_text(d: dict[str, Any]) -> str:
                 f"{_q(c['slope_v_per_s'], 'V/s')}: glitch ≈ {_q(c['glitch_v'], 'V')} "
                 f"(closed form), THD ≈ {_pct(c['thd_estimate'], 2)} (estimate)"
             )
+    elif d["topology"] in ("class-a", "class-b-pulldown") and c["thd_estimate"] > 0:
+        lines.append(
+            f"  Distortion  one conduction mode: THD ≈ {_pct(c['thd_estimate'], 2)} (estimate "
+            "from the follower's device law and the loop gain"
+            + ("; low for a marginal stage" if c["verdict"] == "marginal" else "")
+            + ")"
+        )
     if c["biased_crossover"]:
         lines.append(
             f"  Residual    biased stage: crossover THD_F at most about "

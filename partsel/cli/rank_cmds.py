@@ -167,7 +167,8 @@ def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
             "yes" if r.pareto[i] else "",
             _crossover(r, i),
             fmt_unit(float(r.prediction.glitch_v[i]), "V") if r.prediction.handover[i] else "—",
-            fmt_thd(float(r.prediction.thd_estimate[i])) + (" →0" if r.fix.applied[i] else ""),
+            fmt_thd(float(r.prediction.thd_estimate[i]))
+            + (f" →{fmt_thd(float(ch.value[i, C.IDX['thd']]))}" if r.fix.applied[i] else ""),
             _fix(r, i),
             fmt_unit(float(ch.value[i, C.IDX["supply_current"]]), "A"),
             fmt_unit(float(ch.value[i, C.IDX["price"]]), "currency unit"),
@@ -272,7 +273,7 @@ def rank_cmd(
             for line in lines:
                 con.print(f"  {line}")
     message(
-        f"THD est.: {THD_LABEL}. Fix ✓ (THD →0): the "
+        f"THD est.: {THD_LABEL}. Fix ✓ (THD → with the fix): the "
         "verdict is for the part with that resistor fitted, which keeps the stage in one mode."
     )
     message(CAUTION)

@@ -235,6 +235,65 @@ def _glitch_thd(
     return np.sqrt(power) / amp
 
 
+def one_mode_thd(
+    stage: StageParams,
+    design: Design,
+    *,
+    r_to_neg_ohm: np.ndarray | None = None,
+    r_to_pos_ohm: np.ndarray | None = None,
+    n_harmonics: int = DEFAULT_HARMONICS,
+) -> np.ndarray:
+    """THD_F estimate (harmonics 2..H, ratio) of a class-A / class-B stage kept in one mode.
+
+    The conducting device follows its exponential law, ``x = V_S ln(i_dev / I)`` (see
+    :mod:`partsel.physics.stage`), with ``i_dev = D0 + B sin(theta)`` the device current over
+    the ideal period: the source device (``D0 = I_stage + I0``) or, with a pull-up that keeps
+    the sink device on, the sink device (``D0 = -I0 - I_stage``). The Fourier series of the
+    logarithm is analytic (``ln(1 + m sin) = c + 2 sum (-1)^.. r^n / n cos(n ..)`` with
+    ``m = B / D0``, ``r = (1 - sqrt(1 - m^2)) / m``), so harmonic ``n`` of the stage drop has
+    amplitude ``2 V_S r^n / n``; the loop (integrator at ``omega_t beta``) leaves
+    ``n omega / sqrt((n omega)^2 + (omega_t beta)^2)`` of it at the output. The estimate grows
+    without bound as the device nearly cuts off (``m -> 1``: a marginal stage, whose distortion
+    it then underestimates, the loop being no longer linear). Per-part resistors to either rail
+    (``NaN``: none) are added to the design's load, as a fix would be. NaN where the stage
+    changes mode or is biased (class AB / CMOS).
+    """
+    n = stage.n
+    out = np.full(n, np.nan)
+    a = design.signal_gain * design.signal.amplitude_v
+    amp = abs(a)
+    w = design.omega
+    rn = np.full(n, np.nan) if r_to_neg_ohm is None else np.asarray(r_to_neg_ohm, dtype=float)
+    rp = np.full(n, np.nan) if r_to_pos_ohm is None else np.asarray(r_to_pos_ohm, dtype=float)
+    pulldown = stage.has_pulldown
+    k = 2.0 * np.pi * stage.gbw_hz * design.beta
+    orders = np.arange(2, n_harmonics + 1, dtype=float)[None, :]
+    keys = np.stack([np.nan_to_num(rn, nan=-1.0), np.nan_to_num(rp, nan=-1.0)], axis=1)
+    for key in np.unique(keys[pulldown], axis=0) if pulldown.any() else []:
+        sel = np.flatnonzero(pulldown & np.all(keys == key, axis=1))
+        r_neg = None if key[0] < 0 else float(key[0])
+        r_pos = None if key[1] < 0 else float(key[1])
+        b = abs(admittance(design, w, r_to_neg_ohm=r_neg, r_to_pos_ohm=r_pos)) * amp
+        i0 = dc_current(design, r_to_neg_ohm=r_neg, r_to_pos_ohm=r_pos)
+        i_st = stage.stage_current_a[sel]
+        src = i_st + i0
+        snk = -i0 - i_st
+        d0 = np.where(src > b, src, np.where(stage.topology[sel] != CLASS_A, snk, np.nan))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            m = np.where(d0 > b, b / d0, np.nan)
+            r = np.where(m > 0, m / (1.0 + np.sqrt(1.0 - m * m)), 0.0)  # (1 - sqrt(1-m^2)) / m
+            e = (
+                2.0
+                * stage.device_scale_v[sel, None]
+                * r[:, None] ** orders
+                * w
+                / np.sqrt((orders * w) ** 2 + k[sel, None] ** 2)
+            )
+            thd_sel = np.sqrt(np.sum(e * e, axis=1)) / amp if amp > 0 else np.zeros(sel.size)
+        out[sel] = np.where(np.isfinite(m), thd_sel, np.nan)
+    return out
+
+
 def _window(a: int, b: int, n: int, pad: int = 3, most: int = 24) -> np.ndarray:
     """Grid indices from ``a`` to ``b`` the short way round a period, padded, at most ``most``."""
     d = (b - a) % n
@@ -420,6 +479,10 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
         e_pk = stage.device_scale_v * np.arcsinh(i_pk / (2.0 * i_stage)) / loop_gain
         thd_bound = np.where(amp > 0, e_pk * np.sqrt(2.0) / amp, 0.0)
     thd_est = np.where(crossover_biased, thd_bound, thd_est)
+    # Class A / B in one mode: the follower's exponential law, reduced by the loop gain.
+    one = pulldown & ~handover
+    if one.any():
+        thd_est[one] = np.nan_to_num(one_mode_thd(stage.take(np.flatnonzero(one)), design))
     # Class A: the output flattens at the flat level instead of crossing a dead band.
     clipped = np.flatnonzero(is_a & handover)
     if clipped.size:
@@ -493,7 +556,7 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
         slope_v_per_s=np.where(active, slope, np.nan),
         handover_time_s=tau,
         glitch_v=glitch,
-        thd_estimate=np.where(handover | crossover_biased, thd_est, 0.0),
+        thd_estimate=np.where(handover | crossover_biased | pulldown, thd_est, 0.0),
         swing_pos_margin_v=swing_pos,
         swing_neg_margin_v=swing_neg,
         cm_low_margin_v=cm_low,

@@ -122,8 +122,9 @@ CHECKS: tuple[CheckDef, ...] = (
     CheckDef("fix_resistor", "ohm", "min", "The fix resistor that keeps the stage in one mode "
              "works and is >= min_fix_resistance", "min_fix_resistance", "direct",
              ("stage_current", "source_limit", "sink_limit", "swing_pos", "swing_neg")),
-    CheckDef("thd", "1", "max", "THD_F estimate of the crossover (closed form; 0 with the fix "
-             "fitted) <= max_thd", "max_thd", "direct", ("dead_band", "gbw", "stage_current"),
+    CheckDef("thd", "1", "max", "THD_F estimate of the output stage (closed form: crossover, or "
+             "the one-mode device law, also with the fix fitted) <= max_thd", "max_thd", "direct",
+             ("dead_band", "gbw", "stage_current"),
              repairable=True, corner=True),
     CheckDef("glitch", "V", "max", "Predicted crossover glitch <= max_glitch", "max_glitch",
              "direct", ("dead_band", "gbw", "stage_current", "slew_rise", "slew_fall"),
@@ -383,6 +384,7 @@ def fix_variant(
     *,
     r_ohm: np.ndarray,
     works: np.ndarray,
+    thd_fixed: np.ndarray,
     extra_supply_a: np.ndarray,
     extra_dissipation_w: np.ndarray,
     theta_ja_k_per_w: np.ndarray,
@@ -392,7 +394,9 @@ def fix_variant(
     """The checks of parts that need the fix, with partsel's fix resistor fitted.
 
     ``base`` holds those parts as designed. With the resistor the stage stays in one mode, so
-    the conduction check is ``fixed`` and the crossover glitch and its THD estimate are 0; the
+    the conduction check is ``fixed``, the crossover glitch is 0 and the THD estimate is
+    ``thd_fixed``, the one-mode estimate with the resistor fitted
+    (:func:`partsel.physics.analysis.one_mode_thd`); the
     supply current and the junction temperature rise by the resistor's share (per channel used);
     the resistor must work (source / sink limit and swing at the new current, see
     :func:`partsel.physics.fix.size_fix`) and be at least ``min_fix_resistance``.
@@ -405,8 +409,10 @@ def fix_variant(
     out.status[:, j] = np.where(works, FIXED, unfixed)
     j = IDX["fix_resistor"]
     out.value[:, j] = np.where(works, r_ohm, np.nan)
-    for name in ("thd", "glitch"):
-        out.value[:, IDX[name]] = np.where(works, 0.0, out.value[:, IDX[name]])
+    j = IDX["glitch"]
+    out.value[:, j] = np.where(works, 0.0, out.value[:, j])
+    j = IDX["thd"]
+    out.value[:, j] = np.where(works, np.nan_to_num(thd_fixed), out.value[:, j])
     out.value[:, IDX["supply_current"]] += np.where(works, used * extra_supply_a, 0.0)
     out.value[:, IDX["junction_temp"]] += np.where(
         works, used * extra_dissipation_w * theta_ja_k_per_w, 0.0

@@ -22,8 +22,9 @@ from partsel.solver.table import CORNERS
 FORMAT = "partsel.ranking/1"
 
 THD_LABEL = (
-    "THD_F estimate of the crossover from partsel's closed-form macro-model (class B: from the "
-    "glitch shape; class AB / CMOS: an upper bound; not a simulation or a measurement)"
+    "THD_F estimate of the output stage from partsel's closed-form macro-model (class A / B "
+    "handing over: from the glitch or clipping shape; class A / B in one mode: from the follower's "
+    "device law; class AB / CMOS: an upper bound; not a simulation or a measurement)"
 )
 CAUTION = (
     "Estimates from partsel's behavioural macro-model: confirm on the bench or in a full "

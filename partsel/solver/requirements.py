@@ -123,7 +123,8 @@ LIMITS: tuple[LimitDef, ...] = (
              "Largest relative gain error at the signal frequency (single-pole loop), > 0",
              "1 %"),
     LimitDef("max_thd", "dimensionless", "max", "thd",
-             "Largest closed-form THD_F estimate of the crossover (ratio; '0.1 %' is 0.001), > 0",
+             "Largest closed-form THD_F estimate of the output stage (ratio; '0.1 %' is "
+             "0.001), > 0",
              "0.1 %", floor_inclusive=False),
     LimitDef("max_glitch", "voltage", "max", "glitch",
              "Largest predicted crossover glitch (deviation from the ideal output), > 0",
@@ -194,7 +195,7 @@ class ObjectiveDef:
 
 OBJECTIVES: tuple[ObjectiveDef, ...] = (
     ObjectiveDef("thd", "min", "1",
-                 "Lowest THD_F estimate (closed form, crossover only; with the fix if fitted)",
+                 "Lowest THD_F estimate (closed form; with the fix if fitted)",
                  1e-5),
     ObjectiveDef("glitch", "min", "V", "Smallest predicted crossover glitch", 1e-5),
     ObjectiveDef("supply_current", "min", "A",

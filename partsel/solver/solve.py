@@ -29,7 +29,7 @@ from typing import Any
 
 import numpy as np
 
-from partsel.physics.analysis import predict_closed_form
+from partsel.physics.analysis import one_mode_thd, predict_closed_form
 from partsel.physics.circuit import Design
 from partsel.physics.fix import size_fix
 from partsel.solver import checks as C
@@ -282,9 +282,18 @@ def rank(
     in_fix = detail & needed
     fx_rows = np.flatnonzero(in_fix)
     fix = _size_fixes(stage, design, fx_rows, n, req.fix_series, frac, needed)
+    rail = fix.rail[fx_rows]
+    r_fx = fix.r_ohm[fx_rows]
+    thd_fixed = one_mode_thd(
+        stage.take(fx_rows),
+        design,
+        r_to_neg_ohm=np.where(rail == "negative", r_fx, np.nan),
+        r_to_pos_ohm=np.where(rail == "positive", r_fx, np.nan),
+    )
     fixed = C.fix_variant(
         chk.take(fx_rows),
-        r_ohm=fix.r_ohm[fx_rows],
+        r_ohm=r_fx,
+        thd_fixed=thd_fixed,
         works=fix.works[fx_rows],
         extra_supply_a=fix.extra_supply_a[fx_rows],
         extra_dissipation_w=fix.extra_dissipation_w[fx_rows],

@@ -115,7 +115,7 @@ def compare_rows(r: Ranking, parts: list[int]) -> list[CompareRow]:
     )
     glitch = [float(p.glitch_v[i]) if p.handover[i] else 0.0 for i in parts]
     rows.append(_row("glitch", [fmt.quantity(x, "V") for x in glitch], glitch, "min", g))
-    thd = [float(p.thd_estimate[i]) if p.handover[i] else 0.0 for i in parts]
+    thd = [float(p.thd_estimate[i]) for i in parts]
     rows.append(_row("THD estimate", [fmt.percent(x) for x in thd], thd, "min", g))
     src = [float(p.min_source_a[i]) for i in parts]
     rows.append(_row("least source current", [fmt.quantity(x, "A") for x in src], src, "max", g))
