@@ -468,7 +468,7 @@ def test_closed_form_glitch_grows_with_frequency_and_shrinks_with_gbw(
     cf1 = predict_closed_form(stage, line_design(frequency_hz=f, **kw))
     cf2 = predict_closed_form(stage, line_design(frequency_hz=2 * f, **kw))
     cap = amp * math.pi / 2  # a crossing of a quarter period or more is cut there
-    if cf1.handover[0] and cf1.glitch_v[0] < cap:
+    if cf1.handover[0] and cf1.glitch_v[0] < cap * (1 - 1e-9):
         assert cf2.glitch_v[0] > cf1.glitch_v[0]
         assert cf1.glitch_v[1] < cf1.glitch_v[0]
     elif cf1.handover[0]:
