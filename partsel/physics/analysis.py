@@ -359,7 +359,6 @@ def one_mode_thd(
     rp = np.full(n, np.nan) if r_to_pos_ohm is None else np.asarray(r_to_pos_ohm, dtype=float)
     pulldown = stage.has_pulldown
     k = 2.0 * np.pi * stage.gbw_hz * design.beta
-    orders = np.arange(2, n_harmonics + 1, dtype=float)[None, :]
     keys = np.stack([np.nan_to_num(rn, nan=-1.0), np.nan_to_num(rp, nan=-1.0)], axis=1)
     for key in np.unique(keys[pulldown], axis=0) if pulldown.any() else []:
         sel = np.flatnonzero(pulldown & np.all(keys == key, axis=1))
@@ -374,14 +373,16 @@ def one_mode_thd(
         with np.errstate(divide="ignore", invalid="ignore"):
             m = np.where(d0 > b, b / d0, np.nan)
             r = np.where(m > 0, m / (1.0 + np.sqrt(1.0 - m * m)), 0.0)  # (1 - sqrt(1-m^2)) / m
-            e = (
-                2.0
-                * stage.device_scale_v[sel, None]
-                * r[:, None] ** orders
-                * w
-                / np.sqrt((orders * w) ** 2 + k[sel, None] ** 2)
-            )
-            thd_sel = np.sqrt(np.sum(e * e, axis=1)) / amp if amp > 0 else np.zeros(sel.size)
+            # sum over n of (r^n w)^2 / ((n w)^2 + k^2), r^n by repeated products (no pow)
+            r2 = np.where(np.isfinite(r), r * r, 0.0)
+            k2 = k[sel] ** 2
+            rn2 = r2 * r2  # r^(2n) for n = 2
+            acc = np.zeros(sel.size)
+            for order in range(2, n_harmonics + 1):
+                acc += rn2 / ((order * w) ** 2 + k2)
+                rn2 = rn2 * r2
+            e_rms = 2.0 * stage.device_scale_v[sel] * w * np.sqrt(acc)
+            thd_sel = e_rms / amp if amp > 0 else np.zeros(sel.size)
         out[sel] = np.where(np.isfinite(m), thd_sel, np.nan)
     return out
 
