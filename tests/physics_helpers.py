@@ -14,6 +14,7 @@ import numpy as np
 
 from partsel.params import PARAM_BY_KEY
 from partsel.physics.circuit import ClosedLoop, Design, Load, Signal, Supply
+from partsel.physics.spectrum import DEFAULT_HARMONICS, thd
 from partsel.physics.stage import Basis, StageParams
 
 #: Typical values of the invented default part, SI units.
@@ -123,3 +124,16 @@ def line_design(
             r_to_pos_ohm=r_to_pos_ohm,
         ),
     )
+
+
+def residual_peak(v: np.ndarray) -> float:
+    """Peak of ``v`` minus its DC and fundamental (one period), as SimResult.residual_peak_v."""
+    ph = np.fft.rfft(v)
+    keep = np.zeros_like(ph)
+    keep[:2] = ph[:2]
+    return float(np.max(np.abs(v - np.fft.irfft(keep, n=v.size))))
+
+
+def thd_f(v: np.ndarray) -> float:
+    """THD_F of one period, the harmonic count simulate() uses."""
+    return float(thd(v[None, :], 1, min(DEFAULT_HARMONICS, v.size // 2 - 1))[0])

@@ -54,11 +54,11 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from physics_helpers import residual_peak, thd_f
 
 from partsel.physics.circuit import ClosedLoop, Design, Load, Signal, Supply
 from partsel.physics.fix import size_fix
 from partsel.physics.simulate import SimResult, simulate
-from partsel.physics.spectrum import DEFAULT_HARMONICS, thd
 from partsel.physics.spice import spice_deck
 from partsel.physics.stage import StageParams, pwl
 from partsel.spice_run import run_ngspice_columns
@@ -173,19 +173,6 @@ class Pair:
     def max_diff_v(self) -> float:
         assert not self.sim.unconverged[self.index], "simulate()'s node solve did not converge"
         return float(np.max(np.abs(self.v_ng - self.v_sim)))
-
-
-def residual_peak(v: np.ndarray) -> float:
-    """Peak of ``v`` minus its DC and fundamental (one period), as SimResult.residual_peak_v."""
-    ph = np.fft.rfft(v)
-    keep = np.zeros_like(ph)
-    keep[:2] = ph[:2]
-    return float(np.max(np.abs(v - np.fft.irfft(keep, n=v.size))))
-
-
-def thd_f(v: np.ndarray) -> float:
-    """THD_F of one period, the harmonic count simulate() uses."""
-    return float(thd(v[None, :], 1, min(DEFAULT_HARMONICS, v.size // 2 - 1))[0])
 
 
 def _ngspice(

@@ -55,12 +55,12 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from physics_helpers import residual_peak, thd_f
 
 from partsel.physics.analysis import ClosedForm, predict_closed_form
 from partsel.physics.circuit import ClosedLoop, Design, Load, Signal, Supply
 from partsel.physics.fix import size_fix
 from partsel.physics.simulate import SimResult, simulate
-from partsel.physics.spectrum import DEFAULT_HARMONICS, thd
 from partsel.physics.stage import StageParams
 from partsel.spice_run import run_ngspice_columns
 
@@ -184,17 +184,6 @@ def _part(topology: str, stage_current: float, dead_band: float | None) -> Stage
     return StageParams.from_columns(cols)
 
 
-def _thd(v: np.ndarray) -> float:
-    return float(thd(v[None, :], 1, DEFAULT_HARMONICS)[0])
-
-
-def _residual_peak(v: np.ndarray) -> float:
-    ph = np.fft.rfft(v)
-    keep = np.zeros_like(ph)
-    keep[:2] = ph[:2]
-    return float(np.max(np.abs(v - np.fft.irfft(keep, n=v.size))))
-
-
 @dataclass(frozen=True)
 class Case:
     """One circuit: partsel's predictions and ngspice's waveforms on simulate()'s grid."""
@@ -262,9 +251,9 @@ def test_handover_glitch_and_thd_against_transistor_level(class_b: dict[str, Cas
     c = class_b["handover"]
     assert float(np.max(-c.i_sink_ng)) > 20e-6  # ngspice's PNP does take over
     assert c.sim.handover[0] and c.cf.handover[0]
-    thd_ng = _thd(c.v_ng)
+    thd_ng = thd_f(c.v_ng)
     assert c.sim.thd_f[0] == pytest.approx(thd_ng, rel=0.15)
-    assert c.sim.residual_peak_v[0] == pytest.approx(_residual_peak(c.v_ng), rel=0.15)
+    assert c.sim.residual_peak_v[0] == pytest.approx(residual_peak(c.v_ng), rel=0.15)
     assert 0.8 * thd_ng <= c.cf.thd_estimate[0] <= 1.5 * thd_ng
     deviation_ng = float(np.max(np.abs(c.v_ng - c.sim.v_ideal)))
     assert c.cf.glitch_v[0] == pytest.approx(deviation_ng, rel=0.2)
@@ -274,10 +263,10 @@ def test_fix_keeps_the_transistor_stage_in_one_mode(class_b: dict[str, Case]) ->
     c = class_b["fixed"]
     assert float(np.max(-c.i_sink_ng)) < 1e-9
     assert not c.sim.handover[0] and not c.cf.handover[0]
-    assert c.sim.thd_f[0] == pytest.approx(_thd(c.v_ng), rel=0.1)
+    assert c.sim.thd_f[0] == pytest.approx(thd_f(c.v_ng), rel=0.1)
     assert c.sim.min_source_a[0] == pytest.approx(float(np.min(c.i_source_ng)), rel=0.1)
-    assert c.cf.thd_estimate[0] == pytest.approx(_thd(c.v_ng), rel=0.1)
-    assert _thd(c.v_ng) < _thd(class_b["handover"].v_ng) / 50
+    assert c.cf.thd_estimate[0] == pytest.approx(thd_f(c.v_ng), rel=0.1)
+    assert thd_f(c.v_ng) < thd_f(class_b["handover"].v_ng) / 50
 
 
 @pytest.mark.parametrize(("frac", "rel_thd"), [(0.3, 0.1), (0.1, 0.3)])
@@ -287,14 +276,14 @@ def test_marginal_source_mode_against_transistor_level(
     c = class_b[f"marginal-{frac}"]
     assert float(np.max(-c.i_sink_ng)) < 1e-9  # the sink never conducts ...
     assert c.cf.marginal[0]  # ... but the source device nearly cuts off: flagged
-    assert c.sim.thd_f[0] == pytest.approx(_thd(c.v_ng), rel=rel_thd)
+    assert c.sim.thd_f[0] == pytest.approx(thd_f(c.v_ng), rel=rel_thd)
     if frac == 0.3:
         assert c.sim.min_source_a[0] == pytest.approx(float(np.min(c.i_source_ng)), rel=0.1)
-        assert c.cf.thd_estimate[0] == pytest.approx(_thd(c.v_ng), rel=0.1)
+        assert c.cf.thd_estimate[0] == pytest.approx(thd_f(c.v_ng), rel=0.1)
     else:  # the closed form's linear loop no longer holds: it says too little, not nothing
-        assert 0.3 * _thd(c.v_ng) < c.cf.thd_estimate[0] < _thd(c.v_ng)
+        assert 0.3 * thd_f(c.v_ng) < c.cf.thd_estimate[0] < thd_f(c.v_ng)
     # and it distorts more than the fixed circuit, less than the handover
-    assert _thd(class_b["fixed"].v_ng) < _thd(c.v_ng) < _thd(class_b["handover"].v_ng)
+    assert thd_f(class_b["fixed"].v_ng) < thd_f(c.v_ng) < thd_f(class_b["handover"].v_ng)
 
 
 @pytest.mark.parametrize("r_load", [4.7e3, 1e3])
@@ -308,6 +297,6 @@ def test_class_ab_against_transistor_level(
     assert drive[balance] == pytest.approx(2.5, abs=0.01)
     assert i_q == pytest.approx(I_QUIESCENT_A, rel=0.05)
     c = _case(_class_ab_stage(), _part("class-ab", i_q, None), tmp_path / "ab", r_load=r_load)
-    thd_ng = _thd(c.v_ng)
+    thd_ng = thd_f(c.v_ng)
     assert c.sim.thd_f[0] == pytest.approx(thd_ng, rel=0.1)
     assert c.cf.thd_estimate[0] >= thd_ng  # the closed form is a bound for biased stages

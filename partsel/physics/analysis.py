@@ -86,25 +86,6 @@ class ClosedForm:
     t_junction_margin_c: np.ndarray
 
 
-def _glitch_time(
-    dead_band_v: np.ndarray, slope: np.ndarray, wt_beta: np.ndarray, slew: np.ndarray
-) -> np.ndarray:
-    """Time for the drive node to cross the dead band against a stuck output, s.
-
-    The error grows as ``beta * s * t`` while the output is stuck, so the drive moves at
-    ``min(omega_t * beta * s * t, SR)`` (design notes section 4): ``tau = sqrt(2 dV / (omega_t
-    beta s))`` until the slew limit is reached, and the rest of ``dV`` is crossed at ``SR``.
-    :func:`_crossing` generalises this to an output the load keeps moving.
-    """
-    with np.errstate(divide="ignore", invalid="ignore"):
-        k = wt_beta * slope
-        tau_lin = np.sqrt(2.0 * dead_band_v / k)
-        t1 = slew / k
-        covered = 0.5 * slew * t1
-        tau = np.where(covered >= dead_band_v, tau_lin, t1 + (dead_band_v - covered) / slew)
-    return np.where(dead_band_v > 0, tau, 0.0)
-
-
 def _psi(u: np.ndarray) -> np.ndarray:
     """``u - (1 - exp(-u))``, accurate for small ``u``."""
     with np.errstate(over="ignore"):
@@ -174,8 +155,9 @@ def _crossing(
     (s; 0 for a resistive load, which holds it at once), starting with the ideal's slope
     ``slope`` (V/s, magnitude), while the ideal output moves on and, with ``accel`` (V/s**2,
     >= 0), steepens. The deviation is ``D(t) = s tau_L psi(t / tau_L) + a t**2 / 2`` (``s t``
-    when ``tau_L = 0``: the design notes' stuck output), the drive moves at
-    ``min(omega_t beta D, SR)`` and the crossing ends when it has moved ``dV``.
+    when ``tau_L = 0``: the design notes' stuck output, whose crossing ``tau = sqrt(2 dV /
+    (omega_t beta s))`` this reduces to), the drive moves at ``min(omega_t beta D, SR)`` (design
+    notes section 4) and the crossing ends when it has moved ``dV``.
     Returns ``(tau, glitch, capped)``: crossing time (s), deviation at its end (V), and where
     the crossing would last longer than ``t_max`` (s; it is then cut there).
     """
