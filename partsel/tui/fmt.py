@@ -1,12 +1,13 @@
-"""Formatting of values for the terminal UI: units, verdicts and the symbols that carry meaning
-without colour (every coloured mark also has a symbol)."""
+"""The terminal UI's symbols, and its view of :mod:`partsel.present` (the one formatter of
+values, labels and verdict words for people): quantities with µ and Ω, and every coloured
+mark also carries a symbol so that the screen reads without colour."""
 
 from __future__ import annotations
 
-import math
 from typing import Any
 
-from partsel.units import format_for_people
+from partsel import present as P
+from partsel.present import TOPOLOGY_SHORT, check_label, finite, ratio, thd
 
 #: Symbols used wherever a colour also marks a state (so the screen reads without colour).
 OK = "✓"
@@ -17,60 +18,39 @@ WORSE = "▼"
 SAME = "="
 MARK = "◆"
 
-#: Short labels of the output-stage topologies.
-TOPOLOGY_SHORT: dict[str, str] = {
-    "class-a": "A",
-    "class-b-pulldown": "B+pd",
-    "class-ab": "AB",
-    "cmos-rail-to-rail": "CMOS",
-}
+#: Conduction verdicts of the prediction, short (table cells).
+CONDUCTION_LABEL: dict[str, str] = P.CONDUCTION_SHORT
 
-#: Conduction verdicts of the prediction, for people.
-CONDUCTION_LABEL: dict[str, str] = {
-    "changes-mode": "hands over",
-    "marginal": "marginal",
-    "biased-crossover": "biased (AB)",
-    "one-mode": "one mode",
-}
-
-
-def finite(value: Any) -> bool:
-    """True for a finite real number."""
-    try:
-        return math.isfinite(float(value))
-    except (TypeError, ValueError):
-        return False
+__all__ = [
+    "BAD",
+    "BETTER",
+    "CONDUCTION_LABEL",
+    "MARK",
+    "OK",
+    "SAME",
+    "TOPOLOGY_SHORT",
+    "WARN",
+    "WORSE",
+    "check_label",
+    "finite",
+    "percent",
+    "quantity",
+    "rail_label",
+    "ratio",
+    "thd",
+]
 
 
 def quantity(value: Any, unit: str, digits: int = 3) -> str:
-    """A value with its unit for people ('—' when missing; units as in the catalogue)."""
-    return format_for_people(value, unit, digits, symbols=True)
+    """A value with its unit for the screen (µ, Ω; '—' when missing)."""
+    return P.quantity(value, unit, digits, symbols=True)
 
 
 def percent(value: Any, digits: int = 2) -> str:
     """A ratio as a percentage ('—' when missing)."""
-    if not finite(value):
-        return "—"
-    return f"{100 * float(value):.{digits}g} %"
-
-
-def ratio(value: Any) -> str:
-    """A margin ratio: ``×1.23`` ('∞' for an unbounded pass, '' when missing)."""
-    if value is None:
-        return ""
-    v = float(value)
-    if math.isnan(v):
-        return ""
-    if math.isinf(v):
-        return "×∞"
-    return f"×{v:.3g}"
+    return P.percent(value, digits)
 
 
 def rail_label(rail: str) -> str:
     """``negative`` -> ``V−``, ``positive`` -> ``V+``."""
-    return {"negative": "V−", "positive": "V+"}.get(rail, rail)
-
-
-def check_label(name: str) -> str:
-    """A check name for people: ``swing_high`` -> ``swing high``."""
-    return name.replace("_", " ")
+    return P.rail(rail)
