@@ -6,7 +6,8 @@ Two remedies for a class-A or class-B stage (design notes section 5):
   ``min_t [i(t) + (v(t) - V-)/R] >= -(1 - m) I_stage``, with ``m`` the margin fraction (the
   source device keeps at least ``m * I_stage`` at the worst instant);
 * a resistor to the **positive rail** (class B only) so that the sink device stays on:
-  ``max_t [i(t) - (V+ - v(t))/R] <= -(1 + m) I_stage``.
+  ``max_t [i(t) - (V+ - v(t))/R] <= -(1 + m) I_stage`` (with the stage current on its high side
+  on the worst-case basis: the resistor must also carry the pull-down's current).
 
 Both give an upper bound on R. It is rounded *down* to a preferred value of an IEC 60063
 series so that even at the top of its tolerance the resistor stays below the bound; the costs
@@ -164,12 +165,16 @@ def size_fix(
     need_n = -(1.0 - margin) * i_st - i[None, :]
     r_n, imp_n = _bound(np.broadcast_to(v[None, :] - vneg, need_n.shape), need_n)
     neg = finish("negative", r_n, imp_n)
-    # Positive rail: (V+ - v)/R >= i(t) + (1 + m) I_stage.
-    need_p = i[None, :] + (1.0 + margin) * i_st
+    # Positive rail: (V+ - v)/R >= i(t) + (1 + m) I_stage. The resistor must take the
+    # pull-down's current as well, so its pessimistic side here is the high one.
+    need_p = i[None, :] + (1.0 + margin) * i_hi
     r_p, imp_p = _bound(np.broadcast_to(vpos - v[None, :], need_p.shape), need_p)
     r_p = np.where(stage.topology == CLASS_B, r_p, np.nan)
     pos = finish("positive", r_p, imp_p)
 
+    # The rail rule (stated with every recommendation, see partsel.present.fix_rule): the
+    # pull-down to V- unless only the pull-up works, or both work and the pull-up draws less
+    # extra supply current.
     rec = np.full(p, "not-needed", dtype=object)
     both = neg.ok & pos.ok
     rec[needed] = "none"

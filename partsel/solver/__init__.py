@@ -16,13 +16,14 @@ No database, command-line or UI imports are allowed here.
 
 from partsel.solver.checks import CHECK_NAMES, CHECKS, STATUS_NAMES, CheckDef
 from partsel.solver.pareto import dominates, pareto_mask
+from partsel.solver.relax import Hint, HintStep
 from partsel.solver.requirements import (
     CHOICES,
     LIMITS,
     OBJECTIVES,
     Requirements,
 )
-from partsel.solver.solve import FixInfo, Hint, HintStep, Prediction, Ranking, rank
+from partsel.solver.solve import FixInfo, Prediction, Ranking, rank
 from partsel.solver.table import PartTable
 
 __all__ = [

@@ -78,6 +78,14 @@ class CheckDef:
     repairable: bool = False
     corner: bool = False
     has_ratio: bool = True
+    display: str = ""
+    """Unit for people (:func:`partsel.present.quantity`): ``%`` for ratios shown as a
+    percentage; empty: the same as ``unit``."""
+
+    @property
+    def display_unit(self) -> str:
+        """The unit values of this check are shown in to people."""
+        return self.display or self.unit
 
 
 CHECKS: tuple[CheckDef, ...] = (
@@ -108,7 +116,7 @@ CHECKS: tuple[CheckDef, ...] = (
              "min_bandwidth_ratio times the signal frequency", "min_bandwidth_ratio", "scale",
              ("gbw",)),
     CheckDef("gain_error", "1", "max", "Relative gain error at the signal frequency (single-pole "
-             "loop) <= max_gain_error", "max_gain_error", "direct", ("gbw",)),
+             "loop) <= max_gain_error", "max_gain_error", "direct", ("gbw",), display="%"),
     CheckDef("stability", "V/V", "min", "Noise gain >= the part's minimum stable gain"),
     CheckDef("cap_load", "F", "max", "Load capacitance <= max_cap_load_ratio times the part's "
              "stated capacitive-load limit (without that limit: a warning above the stated "
@@ -125,7 +133,7 @@ CHECKS: tuple[CheckDef, ...] = (
     CheckDef("thd", "1", "max", "THD_F estimate of the output stage (closed form: crossover, or "
              "the one-mode device law, also with the fix fitted) <= max_thd", "max_thd", "direct",
              ("dead_band", "gbw", "stage_current"),
-             repairable=True, corner=True),
+             repairable=True, corner=True, display="%"),
     CheckDef("glitch", "V", "max", "Predicted crossover glitch <= max_glitch", "max_glitch",
              "direct", ("dead_band", "gbw", "stage_current", "slew_rise", "slew_fall"),
              repairable=True, corner=True),

@@ -20,16 +20,40 @@ step along ``no-change -> fix-allowed -> allowed`` (the whole verdict is redone 
 from __future__ import annotations
 
 import math
-from typing import TYPE_CHECKING
+from dataclasses import dataclass
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
 from partsel.errors import json_pointer
 from partsel.solver import checks as C
 from partsel.solver.requirements import CONDUCTION_MODES, LIMIT_BY_KEY, LIMITS
+from partsel.solver.verdict import verdict_flags
 
 if TYPE_CHECKING:
-    from partsel.solver.solve import Hint, Ranking
+    from partsel.solver.solve import Ranking
+
+
+@dataclass(frozen=True)
+class HintStep:
+    """Relaxing the requirement to ``value`` admits ``admits`` more parts (``parts``: a few)."""
+
+    value: Any
+    admits: int
+    parts: tuple[str, ...]
+
+
+@dataclass(frozen=True)
+class Hint:
+    """One requirement that, relaxed alone, admits more parts."""
+
+    requirement: str  #: key in ``[requirements.limits]``, or "conduction"
+    pointer: str  #: JSON pointer in the design file
+    unit: str
+    current: Any
+    steps: tuple[HintStep, ...]
+    change: float  #: relative change of the first step (NaN for a list or mode)
+
 
 #: Part numbers listed per hint step.
 LIST_PARTS = 5
@@ -60,7 +84,6 @@ def hints(
     fix_pass: np.ndarray,
 ) -> list[Hint]:
     """Relaxation hints of a ranking (see the module docstring)."""
-    from partsel.solver.solve import Hint, HintStep, _verdict
 
     req = result.requirements
     chk = result.checks
@@ -170,7 +193,7 @@ def hints(
     k = CONDUCTION_MODES.index(req.conduction)
     if k + 1 < len(CONDUCTION_MODES):
         looser = CONDUCTION_MODES[k + 1]
-        new_feasible, _ = _verdict(looser, other_fail, cond_fail, in_fix, fix_pass)
+        new_feasible, _ = verdict_flags(looser, other_fail, cond_fail, in_fix, fix_pass)
         gained = np.flatnonzero(new_feasible & ~feasible)
         if gained.size:
             gained = gained[np.argsort(key[gained], kind="stable")]

@@ -244,6 +244,32 @@ class Requirements:
     )
     objectives: tuple[tuple[str, float], ...] = DEFAULT_OBJECTIVES
     pareto: tuple[str, ...] = ()
+    origin: Mapping[str, str] = field(default_factory=dict, compare=False)
+    """Where the options came from: ``basis``, ``fix_series``, ``conduction`` and
+    ``min_source_fraction`` -> ``"design file"``, ``"override"`` (a command-line option or the
+    UI's toggle) or ``"default"`` (absent: the default)."""
+
+    def source(self, key: str) -> str:
+        """Where option ``key`` came from (see :attr:`origin`)."""
+        return self.origin.get(key, "default")
+
+    def override(self, **changes: Any) -> Requirements:
+        """A copy with options set by the user over the design file's (``basis``,
+        ``fix_series``, ``conduction``, ``min_source_fraction``); None leaves one as it is."""
+        kw: dict[str, Any] = {}
+        origin = dict(self.origin)
+        limits: dict[str, Any] = {}
+        for key, value in changes.items():
+            if value is None:
+                continue
+            if key == "min_source_fraction":
+                limits[key] = value
+            else:
+                kw[key] = value
+            origin[key] = "override"
+        if limits:
+            kw["limits"] = limits
+        return self.replace(**kw, origin=origin)
 
     def limit(self, key: str) -> float | None:
         """SI value of limit ``key`` (None when not required)."""
@@ -274,6 +300,7 @@ class Requirements:
             "choices": dict(self.choices),
             "objectives": self.objectives,
             "pareto": self.pareto,
+            "origin": dict(self.origin),
         }
         for key, value in changes.items():
             if key in ("limits", "choices"):
@@ -411,6 +438,9 @@ class Requirements:
                 pareto = tuple(raw_p)
         if problems:
             raise InputError(problems=problems)
+        origin = {k: "design file" for k in ("basis", "conduction", "fix_series") if k in data}
+        if "min_source_fraction" in raw_limits:
+            origin["min_source_fraction"] = "design file"
         req = cls(
             basis=basis,
             conduction=conduction,
@@ -419,6 +449,7 @@ class Requirements:
             choices=choices,
             objectives=tuple(objectives),
             pareto=pareto,
+            origin=origin,
         )
         if len(req.pareto_objectives) < 2 and not pareto:
             # fewer than two weighted objectives: complete the Pareto set from the defaults

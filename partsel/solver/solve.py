@@ -1,48 +1,57 @@
 """Rank a catalogue for a design: feasibility, margins, binding constraint, score, Pareto set.
 
-:func:`rank` runs, for every part at once:
+:func:`rank` is partsel's one evaluation of parts in a design: every command and screen reads
+its verdicts, fixes and estimates (through :class:`partsel.api.Session`). It runs, for every
+part at once:
 
 1. :func:`partsel.physics.analysis.predict_closed_form` on the chosen basis (one call for all
    parts) and every check of :mod:`partsel.solver.checks` as designed;
 2. on the worst-case basis, the stage current (the one parameter whose pessimistic side differs
    between checks: low for the conduction and glitch, high for the source current and the swing
    to V+) swept over its minimum, typical and maximum; each check keeps its worst corner
-   (design notes section 7: "for each check, use the side of the range that is pessimistic");
-3. :func:`partsel.physics.fix.size_fix` for the class-A/B parts that change mode, and the checks
+   (design notes section 7: "for each check, use the side of the range that is pessimistic"),
+   and the crossover prediction the corner worst for it;
+3. :func:`partsel.physics.fix.size_fix` for every class-A/B part that changes mode or is
+   marginal (also when other checks reject it, so that the fix is always shown), and the checks
    again with the fix resistor fitted (:func:`partsel.solver.checks.fix_variant`);
 4. the verdict under the requirement's conduction mode, the binding constraint of each rejected
    part, the score (:mod:`partsel.solver.score`) and the Pareto set
    (:mod:`partsel.solver.pareto`) of the feasible parts, and relaxation hints
    (:mod:`partsel.solver.relax`).
 
-Steps 2 and 3 cost more than a check, so they run only for the parts that could still end up
-feasible or one requirement away from it: parts failing checks of at most one requirement other
-than the three a fix can repair (conduction, glitch, THD). Every other part is rejected anyway;
-its margins are those of the first corner and its fix is "not evaluated".
+A part's verdict, fix and estimates depend on that part, the design and the requirements only;
+the score, the rank and the Pareto set are relative to the parts ranked together.
 """
 
 from __future__ import annotations
 
 import time
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, Literal
 
 import numpy as np
 
-from partsel.physics.analysis import one_mode_thd, predict_closed_form
+from partsel.physics.analysis import ClosedForm, one_mode_thd, predict_closed_form
 from partsel.physics.circuit import Design
-from partsel.physics.fix import size_fix
+from partsel.physics.fix import RailFix, size_fix
 from partsel.solver import checks as C
 from partsel.solver.pareto import pareto_mask
-from partsel.solver.requirements import Conduction, Requirements
+from partsel.solver.relax import Hint
+from partsel.solver.relax import hints as make_hints
+from partsel.solver.requirements import Requirements
 from partsel.solver.score import scores, transformed
 from partsel.solver.table import CORNERS, PartTable
+from partsel.solver.verdict import verdict_flags
 
 #: Samples per period of the fix sizing (size_fix's grid): the bound on R is a minimum of a
 #: smooth periodic function; 128 samples put it within about 0.1 % (well inside an E24 step).
 FIX_GRID = 128
 #: Parts per call of size_fix (bounds the memory of its (parts x samples) arrays).
 FIX_CHUNK = 4096
+
+Verdict = Literal["feasible", "feasible-with-fix", "rejected"]
+#: A part's verdict in a design, best first.
+VERDICTS: tuple[Verdict, ...] = ("feasible", "feasible-with-fix", "rejected")
 
 #: Group id of each check: checks sharing a requirement form one group (for relaxation).
 _GROUP = np.array(
@@ -56,8 +65,106 @@ _GROUP = np.array(
 
 
 @dataclass(frozen=True)
+class Prediction:
+    """Closed-form crossover prediction per part, as designed.
+
+    On the worst-case basis every field comes from the stage-current corner that is worst for
+    the crossover (a handover before none, then the larger THD estimate, then the larger
+    glitch); ``stage_current_a`` is that corner's value, the one a simulation of the part uses.
+    """
+
+    handover: np.ndarray
+    marginal: np.ndarray
+    crossover_biased: np.ndarray
+    glitch_v: np.ndarray
+    thd_estimate: np.ndarray
+    handover_out_v: np.ndarray
+    flat_level_v: np.ndarray
+    min_source_a: np.ndarray
+    stage_current_a: np.ndarray
+    i_out_min_a: np.ndarray
+    i_out_max_a: np.ndarray
+    handover_time_s: np.ndarray
+    slope_v_per_s: np.ndarray
+    handover_phase_rad: np.ndarray
+    corner: np.ndarray  #: stage-current corner used (index into CORNERS; -1 on the typical basis)
+
+    @property
+    def conduction(self) -> np.ndarray:
+        """Conduction verdict per part (see :func:`conduction_verdict`)."""
+        return conduction_verdict(self.handover, self.marginal, self.crossover_biased)
+
+    @classmethod
+    def of(cls, cf: ClosedForm, stage_current_a: np.ndarray, corner: int) -> Prediction:
+        """The prediction fields of a closed form (one corner)."""
+        n = stage_current_a.shape[0]
+        return cls(
+            handover=cf.handover.copy(),
+            marginal=cf.marginal & ~cf.handover,
+            crossover_biased=cf.crossover_biased.copy(),
+            glitch_v=cf.glitch_v.copy(),
+            thd_estimate=cf.thd_estimate.copy(),
+            handover_out_v=cf.handover_out_v.copy(),
+            flat_level_v=cf.flat_level_v.copy(),
+            min_source_a=cf.min_source_a.copy(),
+            stage_current_a=np.asarray(stage_current_a, dtype=float).copy(),
+            i_out_min_a=np.broadcast_to(cf.i_out_min_a, (n,)).astype(float),
+            i_out_max_a=np.broadcast_to(cf.i_out_max_a, (n,)).astype(float),
+            handover_time_s=cf.handover_time_s.copy(),
+            slope_v_per_s=cf.slope_v_per_s.copy(),
+            handover_phase_rad=cf.handover_phase_rad.copy(),
+            corner=np.full(n, corner, dtype=np.int8),
+        )
+
+    def take(self, index: np.ndarray) -> Prediction:
+        """The prediction of a subset of parts."""
+        idx = np.asarray(index)
+        return Prediction(**{n: getattr(self, n)[idx] for n in self.__dataclass_fields__})
+
+    def worse_of(self, rows: np.ndarray, other: Prediction) -> None:
+        """Keep, for parts ``rows``, ``other``'s fields where it is worse for the crossover
+        (in place; ``other`` holds the parts ``rows`` in that order)."""
+        mine = (self.handover[rows], self.thd_estimate[rows], self.glitch_v[rows])
+        theirs = (other.handover, other.thd_estimate, other.glitch_v)
+        with np.errstate(invalid="ignore"):
+            worse = (theirs[0] & ~mine[0]) | (
+                (theirs[0] == mine[0])
+                & (
+                    (np.nan_to_num(theirs[1], nan=-1.0) > np.nan_to_num(mine[1], nan=-1.0))
+                    | (
+                        (np.nan_to_num(theirs[1], nan=-1.0) == np.nan_to_num(mine[1], nan=-1.0))
+                        & (theirs[2] > mine[2])
+                    )
+                )
+            )
+        at = rows[worse]
+        for name in self.__dataclass_fields__:
+            getattr(self, name)[at] = getattr(other, name)[worse]
+
+
+def conduction_verdict(
+    handover: np.ndarray, marginal: np.ndarray, crossover_biased: np.ndarray
+) -> np.ndarray:
+    """The conduction verdict of every part: ``changes-mode`` (the stage hands over),
+    ``marginal`` (stays in source mode with less than the margin of its stage current),
+    ``biased-crossover`` (class AB / CMOS whose output current changes sign) or ``one-mode``.
+    The one rule every output uses."""
+    out = np.full(np.shape(handover), "one-mode", dtype=object)
+    out[np.asarray(crossover_biased, dtype=bool)] = "biased-crossover"
+    out[np.asarray(marginal, dtype=bool)] = "marginal"
+    out[np.asarray(handover, dtype=bool)] = "changes-mode"
+    return out
+
+
+@dataclass(frozen=True)
 class FixInfo:
-    """The fix of every part (arrays of shape (P,)); see :func:`partsel.physics.fix.size_fix`."""
+    """The fix of every part (arrays of shape (P,)): the one fix decision per part and design
+    (:func:`partsel.physics.fix.size_fix`: which rail, which value). Every door (rank,
+    predict, explain, waveform, vet, bom-check, the terminal UI) reads the fix from here.
+
+    ``negative`` / ``positive`` hold both remedies over all parts (NaN / False where not
+    sized); ``rail`` is the recommended one.
+    """
 
     needed: np.ndarray  #: class A/B part that changes mode (or is marginal) as designed
     sized: np.ndarray  #: size_fix was run for it
@@ -70,42 +177,41 @@ class FixInfo:
     extra_dissipation_w: np.ndarray  #: in the amplifier, per channel
     reason: np.ndarray  #: why no resistor works ("" otherwise)
     series: str
+    tolerance: float  #: the series' tolerance the value was rounded down for (IEC 60063)
+    margin: float  #: fraction of its stage current the device kept on must still carry
+    negative: RailFix  #: the pull-down remedy of every part (a resistor to V-)
+    positive: RailFix  #: the pull-up remedy of every part (a resistor to V+)
+    thd_with_fix: np.ndarray  #: one-mode THD_F estimate with the recommended resistor fitted
 
+    @property
+    def recommended(self) -> np.ndarray:
+        """The recommendation per part as :class:`partsel.physics.fix.FixResult` names it:
+        ``negative`` / ``positive``, ``none`` (no resistor works) or ``not-needed``."""
+        return np.where(self.rail == "", "not-needed", self.rail).astype(object)
 
-@dataclass(frozen=True)
-class Prediction:
-    """Closed-form crossover prediction per part, as designed (worst corner on worst-case)."""
+    def take(self, index: np.ndarray) -> FixInfo:
+        """The fix of a subset of parts (fancy indexing along the part axis)."""
+        idx = np.asarray(index)
+        kw: dict[str, Any] = {}
+        for name in self.__dataclass_fields__:
+            val = getattr(self, name)
+            if isinstance(val, np.ndarray):
+                kw[name] = val[idx]
+            elif isinstance(val, RailFix):
+                kw[name] = _take_rail(val, idx)
+            else:
+                kw[name] = val
+        return FixInfo(**kw)
 
-    handover: np.ndarray
-    marginal: np.ndarray
-    crossover_biased: np.ndarray
-    glitch_v: np.ndarray
-    thd_estimate: np.ndarray
-    handover_out_v: np.ndarray
-    flat_level_v: np.ndarray
-    min_source_a: np.ndarray
-    stage_current_a: np.ndarray
+    @property
+    def r_neg_ohm(self) -> np.ndarray:
+        """The recommended resistor where it goes to the negative rail, ohm (NaN elsewhere)."""
+        return np.where(self.rail == "negative", self.r_ohm, np.nan)
 
-
-@dataclass(frozen=True)
-class HintStep:
-    """Relaxing the requirement to ``value`` admits ``admits`` more parts (``parts``: a few)."""
-
-    value: Any
-    admits: int
-    parts: tuple[str, ...]
-
-
-@dataclass(frozen=True)
-class Hint:
-    """One requirement that, relaxed alone, admits more parts."""
-
-    requirement: str  #: key in ``[requirements.limits]``, or "conduction"
-    pointer: str  #: JSON pointer in the design file
-    unit: str
-    current: Any
-    steps: tuple[HintStep, ...]
-    change: float  #: relative change of the first step (NaN for a list or mode)
+    @property
+    def r_pos_ohm(self) -> np.ndarray:
+        """The recommended resistor where it goes to the positive rail, ohm (NaN elsewhere)."""
+        return np.where(self.rail == "positive", self.r_ohm, np.nan)
 
 
 @dataclass(frozen=True)
@@ -128,6 +234,7 @@ class Ranking:
     pareto_costs: np.ndarray  #: (P, k) transformed costs of the Pareto objectives
     order: np.ndarray  #: part indices: feasible by score, then rejected, nearest misses first
     rank: np.ndarray  #: 1.. for feasible parts, 0 for rejected
+    verdict: np.ndarray  #: per part, one of VERDICTS
     prediction: Prediction
     fix: FixInfo
     hints: tuple[Hint, ...]
@@ -149,28 +256,6 @@ class Ranking:
         if hit.size == 0:
             raise KeyError(part_number)
         return int(hit[0])
-
-
-def _verdict(
-    mode: Conduction,
-    other_fail: np.ndarray,
-    cond_fail: np.ndarray,
-    in_fix: np.ndarray,
-    fix_pass: np.ndarray,
-) -> tuple[np.ndarray, np.ndarray]:
-    """Feasible and fix-applied flags under a conduction mode.
-
-    ``other_fail``: fails a check other than conduction as designed; ``cond_fail``: the
-    conduction check fails as designed; ``in_fix``: the fix variant was evaluated; ``fix_pass``:
-    the part passes every check with the fix (False outside ``in_fix``).
-    """
-    designed = ~other_fail & ((mode == "allowed") | ~cond_fail)
-    if mode == "no-change":
-        return designed, np.zeros_like(designed)
-    use_fix = in_fix & fix_pass & ~designed
-    if mode == "fix-allowed":
-        use_fix = in_fix  # conduction fails as designed: judged with the fix
-    return designed | (in_fix & fix_pass), use_fix
 
 
 def _combine_corner(
@@ -223,14 +308,15 @@ def rank(
     table: PartTable,
     design: Design,
     requirements: Requirements | None = None,
+    *,
+    hints: bool = True,
 ) -> Ranking:
     """Evaluate every part of ``table`` in ``design`` against ``requirements``.
 
     ``requirements`` defaults to the design's own (``Design.requirements``, see
-    :meth:`Requirements.from_mapping`).
+    :meth:`Requirements.from_mapping`). ``hints``: compute the relaxation hints (they need the
+    whole catalogue; a ranking of a few parts for a prediction skips them).
     """
-    from partsel.solver.relax import hints as make_hints
-
     t0 = time.perf_counter()
     req = requirements or Requirements.from_mapping(design.requirements)
     basis = req.basis
@@ -241,59 +327,34 @@ def rank(
     cf = predict_closed_form(stage, design)
     chk = C.evaluate(table, every, stage, cf, design, req, levels)
     corner = np.full((n, C.N_CHECKS), 0 if basis == "worst-case" else -1, dtype=np.int8)
-    pred = {
-        "handover": cf.handover.copy(),
-        "marginal": cf.marginal.copy(),
-        "glitch_v": cf.glitch_v.copy(),
-        "thd_estimate": cf.thd_estimate.copy(),
-    }
+    pred = Prediction.of(cf, stage.stage_current_a, 0 if basis == "worst-case" else -1)
     t1 = time.perf_counter()
-
-    # parts that can still be feasible or one requirement away from it
-    unrep = chk.failing & ~C.REPAIRABLE[None, :]
-    groups = np.zeros((n, C.N_CHECKS), dtype=bool)
-    rows, cols = np.nonzero(unrep)
-    groups[rows, _GROUP[cols]] = True
-    detail = groups.sum(axis=1) <= 1
 
     if basis == "worst-case":
         lo = table.stage_current_corner("min")
         for k, name in enumerate(CORNERS[1:], start=1):
             alt = table.stage_current_corner(name)
-            sub = np.flatnonzero(detail & stage.has_pulldown & (alt != lo) & np.isfinite(alt))
+            sub = np.flatnonzero(stage.has_pulldown & (alt != lo) & np.isfinite(alt))
             if sub.size == 0:
                 continue
             st_c = stage.take(sub).replace(stage_current_a=alt[sub])
             cf_c = predict_closed_form(st_c, design)
             chk_c = C.evaluate(table, sub, st_c, cf_c, design, req, levels)
             _combine_corner(chk, chk_c, corner, sub, k)
-            pred["handover"][sub] |= cf_c.handover
-            pred["marginal"][sub] |= cf_c.marginal
-            pred["glitch_v"][sub] = np.fmax(pred["glitch_v"][sub], cf_c.glitch_v)
-            pred["thd_estimate"][sub] = np.fmax(pred["thd_estimate"][sub], cf_c.thd_estimate)
-    pred["marginal"] &= ~pred["handover"]
+            pred.worse_of(sub, Prediction.of(cf_c, alt[sub], k))
     t2 = time.perf_counter()
 
-    # the fix
+    # the fix: sized for every class-A/B part that needs it, whatever else it fails
     jc = C.IDX["conduction"]
     frac = req.limit("min_source_fraction") or 0.0
     with np.errstate(invalid="ignore"):
         needed = stage.has_pulldown & (chk.margin[:, jc] < 0)
-    in_fix = detail & needed
-    fx_rows = np.flatnonzero(in_fix)
+    fx_rows = np.flatnonzero(needed)
     fix = _size_fixes(stage, design, fx_rows, n, req.fix_series, frac, needed)
-    rail = fix.rail[fx_rows]
-    r_fx = fix.r_ohm[fx_rows]
-    thd_fixed = one_mode_thd(
-        stage.take(fx_rows),
-        design,
-        r_to_neg_ohm=np.where(rail == "negative", r_fx, np.nan),
-        r_to_pos_ohm=np.where(rail == "positive", r_fx, np.nan),
-    )
     fixed = C.fix_variant(
         chk.take(fx_rows),
-        r_ohm=r_fx,
-        thd_fixed=thd_fixed,
+        r_ohm=fix.r_ohm[fx_rows],
+        thd_fixed=fix.thd_with_fix[fx_rows],
         works=fix.works[fx_rows],
         extra_supply_a=fix.extra_supply_a[fx_rows],
         extra_dissipation_w=fix.extra_dissipation_w[fx_rows],
@@ -309,14 +370,15 @@ def rank(
     cond_fail = stage.has_pulldown & ~(chk.margin[:, jc] >= 0)
     fix_pass = np.zeros(n, dtype=bool)
     fix_pass[fx_rows] = ~fixed.failing.any(axis=1)
-    feasible, use_fix = _verdict(req.conduction, other_fail, cond_fail, in_fix, fix_pass)
+    feasible, use_fix = verdict_flags(req.conduction, other_fail, cond_fail, needed, fix_pass)
     apply_rows = np.flatnonzero(use_fix)
     if apply_rows.size:
         pos = np.searchsorted(fx_rows, apply_rows)
         chk.put(apply_rows, fixed.take(pos))
-    if req.conduction != "no-change":
-        chk.status[needed & ~in_fix, C.IDX["fix_resistor"]] = C.SKIPPED
     fix = _replace(fix, applied=use_fix & fix.works)
+    verdict = np.full(n, "rejected", dtype=object)
+    verdict[feasible] = "feasible"
+    verdict[feasible & fix.applied] = "feasible-with-fix"
 
     n_failing, binding, tightest, min_ratio = _binding_and_tightest(chk)
 
@@ -363,17 +425,6 @@ def rank(
     ranks[order_f] = np.arange(1, order_f.size + 1)
     t4 = time.perf_counter()
 
-    prediction = Prediction(
-        handover=pred["handover"],
-        marginal=pred["marginal"],
-        crossover_biased=cf.crossover_biased,
-        glitch_v=pred["glitch_v"],
-        thd_estimate=pred["thd_estimate"],
-        handover_out_v=cf.handover_out_v,
-        flat_level_v=cf.flat_level_v,
-        min_source_a=cf.min_source_a,
-        stage_current_a=stage.stage_current_a,
-    )
     result = Ranking(
         design=design,
         requirements=req,
@@ -391,17 +442,22 @@ def rank(
         pareto_costs=costs,
         order=order,
         rank=ranks,
-        prediction=prediction,
+        verdict=verdict,
+        prediction=pred,
         fix=fix,
         hints=(),
         timing_s={},
     )
-    hint_list = make_hints(
-        result,
-        other_fail=other_fail,
-        cond_fail=cond_fail,
-        in_fix=in_fix,
-        fix_pass=fix_pass,
+    hint_list = (
+        make_hints(
+            result,
+            other_fail=other_fail,
+            cond_fail=cond_fail,
+            in_fix=needed,
+            fix_pass=fix_pass,
+        )
+        if hints
+        else []
     )
     t5 = time.perf_counter()
     object.__setattr__(result, "hints", tuple(hint_list))
@@ -418,6 +474,29 @@ def _replace(fix: FixInfo, **changes: Any) -> FixInfo:
     return FixInfo(**kw)
 
 
+def _take_rail(rf: RailFix, idx: np.ndarray) -> RailFix:
+    kw = {n: getattr(rf, n) for n in rf.__dataclass_fields__}
+    return RailFix(**{n: (v[idx] if isinstance(v, np.ndarray) else v) for n, v in kw.items()})
+
+
+def _empty_rail(rail: str, n: int) -> RailFix:
+    nan = np.full(n, np.nan)
+    no = np.zeros(n, dtype=bool)
+    return RailFix(
+        rail=rail,
+        r_max_ohm=nan.copy(),
+        r_ohm=nan.copy(),
+        extra_supply_a=nan.copy(),
+        extra_dissipation_amp_w=nan.copy(),
+        dissipation_resistor_w=nan.copy(),
+        device_peak_a=nan.copy(),
+        limit_ok=no.copy(),
+        swing_ok=no.copy(),
+        ok=no.copy(),
+        reason=np.full(n, "", dtype=object),
+    )
+
+
 def _size_fixes(
     stage: Any,
     design: Design,
@@ -427,7 +506,8 @@ def _size_fixes(
     margin: float,
     needed: np.ndarray,
 ) -> FixInfo:
-    """Run size_fix for ``rows`` in chunks; scatter into arrays over all ``n`` parts."""
+    """Run size_fix for ``rows`` in chunks; scatter into arrays over all ``n`` parts, with the
+    one-mode THD estimate of each part with its recommended resistor fitted."""
     rail = np.full(n, "", dtype=object)
     reason = np.full(n, "", dtype=object)
     r_ohm = np.full(n, np.nan)
@@ -436,12 +516,20 @@ def _size_fixes(
     extra_i = np.full(n, np.nan)
     extra_p = np.full(n, np.nan)
     sized = np.zeros(n, dtype=bool)
+    thd_fix = np.full(n, np.nan)
+    rails = {"negative": _empty_rail("negative", n), "positive": _empty_rail("positive", n)}
+    tol = None
     for start in range(0, rows.size, FIX_CHUNK):
         part = rows[start : start + FIX_CHUNK]
         fr = size_fix(stage.take(part), design, series=series, margin=margin, n_grid=FIX_GRID)
+        tol = fr.tolerance
         rec = fr.recommended
         sized[part] = True
         for name, rf in (("negative", fr.negative), ("positive", fr.positive)):
+            dest = rails[name]
+            for fname in dest.__dataclass_fields__:
+                if fname != "rail":
+                    getattr(dest, fname)[part] = getattr(rf, fname)
             m = rec == name
             at = part[m]
             rail[at] = name
@@ -461,6 +549,24 @@ def _size_fixes(
         edge = rec == "not-needed"
         rail[part[edge]] = "none"
         reason[part[edge]] = "at the boundary of its margin; no resistor sized"
+    if rows.size:
+        rr = rail[rows]
+        # With a pull-up the sink device carries the resistor's current less the pull-down's:
+        # there the pessimistic side of the stage current is the high one (see size_fix).
+        st = stage.take(rows)
+        st = st.replace(
+            stage_current_a=np.where(rr == "positive", st.stage_current_high_a, st.stage_current_a)
+        )
+        thd_fix[rows] = one_mode_thd(
+            st,
+            design,
+            r_to_neg_ohm=np.where(rr == "negative", r_ohm[rows], np.nan),
+            r_to_pos_ohm=np.where(rr == "positive", r_ohm[rows], np.nan),
+        )
+    if tol is None:
+        from partsel.physics.eseries import SERIES_TOLERANCE
+
+        tol = SERIES_TOLERANCE[series.upper()]
     return FixInfo(
         needed=needed,
         sized=sized,
@@ -472,5 +578,10 @@ def _size_fixes(
         extra_supply_a=extra_i,
         extra_dissipation_w=extra_p,
         reason=reason,
-        series=series,
+        series=series.upper(),
+        tolerance=float(tol),
+        margin=float(margin),
+        negative=rails["negative"],
+        positive=rails["positive"],
+        thd_with_fix=thd_fix,
     )
