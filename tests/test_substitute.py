@@ -29,8 +29,8 @@ from partsel.design import design_from_mapping
 from partsel.errors import InputError
 from partsel.params import PARAMS
 from partsel.physics.circuit import Design
+from partsel.solver import checks as C
 from partsel.solver.substitute import (
-    CIRCUIT_CHECKS,
     VERDICTS,
     Candidate,
     compare_parts,
@@ -213,6 +213,7 @@ def design(
     load_ref: str | None = None,
     c_load: str | None = None,
     ref: str | None = None,
+    conduction: str | None = None,
 ) -> Design:
     """Gain-2 non-inverting stage; the load returns to the output's bias level (DC)."""
     amp_cfg: dict[str, Any] = {"configuration": "non-inverting", "gain": 2}
@@ -221,16 +222,17 @@ def design(
     ld: dict[str, Any] = {"resistance": load, "reference": load_ref or bias, "coupling": "dc"}
     if c_load is not None:
         ld["capacitance"] = c_load
-    return design_from_mapping(
-        {
-            "name": "hand-computed",
-            "supply": {"positive": v_pos},
-            "signal": {"bias": bias, "amplitude": amp, "frequency": "1 kHz"},
-            "amplifier": amp_cfg,
-            "load": ld,
-            "environment": {"ambient_min": "0 degC", "ambient_max": "50 degC"},
-        }
-    )
+    data: dict[str, Any] = {
+        "name": "hand-computed",
+        "supply": {"positive": v_pos},
+        "signal": {"bias": bias, "amplitude": amp, "frequency": "1 kHz"},
+        "amplifier": amp_cfg,
+        "load": ld,
+        "environment": {"ambient_min": "0 degC", "ambient_max": "50 degC"},
+    }
+    if conduction is not None:
+        data["requirements"] = {"conduction": conduction}
+    return design_from_mapping(data)
 
 
 def one(
@@ -312,11 +314,12 @@ def test_lower_gbw_needs_review_alone_but_fits_a_circuit_that_tolerates_it(
     c = one(frame, "GBW-2", design())
     assert c.verdict == "fits-this-circuit"
     assert "worse-gbw" in codes(c, "circuit-ok")
-    bw = {x.check: x for x in c.circuit}["closed_loop_bw"]
+    bw = {x.check: x for x in c.circuit}["bandwidth"]
     # single-pole closed-loop bandwidth GBW / noise gain (op-amp application formula)
     assert bw.candidate == pytest.approx(0.5e6 / 2, rel=1e-12)
     assert bw.incumbent == pytest.approx(0.8e6 / 2, rel=1e-12)
     assert c.circuit_pass is True
+    assert c.in_circuit is not None and c.in_circuit["verdict"] == "feasible"
 
 
 @pytest.mark.parametrize(
@@ -352,7 +355,7 @@ def test_typicals_compared_when_the_incumbent_gives_no_guarantee(frame: pd.DataF
         g = {f.key: f for f in c.function}["gbw"]
         assert (g.change, g.side_incumbent, g.note) == ("equal", "typ", "typical")
         if d is not None:
-            bw = {x.check: x for x in c.circuit}["closed_loop_bw"]
+            bw = {x.check: x for x in c.circuit}["bandwidth"]
             assert bw.candidate == bw.incumbent == pytest.approx(0.5e6, rel=1e-12)
 
 
@@ -386,18 +389,21 @@ def test_input_range_that_no_longer_covers_the_bias_point(frame: pd.DataFrame) -
     assert c.verdict == "unsuitable"
     msg = next(r.message for r in c.reasons if r.code == "circuit-input_cm_low")
     assert "bias point" in msg
+    assert "short by 500 mV" in msg  # the bias point 1.0 V against the range's bottom 1.5 V
     cm = {x.check: x for x in c.circuit}["input_cm_low"]
     # lowest input 0.75 V minus the bottom of the range (0 V + 1.5 V); the incumbent: 0.75 - 0
-    assert cm.candidate == pytest.approx(0.75 - 1.5, abs=1e-9)
-    assert cm.incumbent == pytest.approx(0.75, abs=1e-9)
+    assert cm.candidate_margin == pytest.approx(0.75 - 1.5, abs=1e-9)
+    assert cm.incumbent_margin == pytest.approx(0.75, abs=1e-9)
 
 
 def test_conduction_mode_change_where_the_incumbent_has_none(frame: pd.DataFrame) -> None:
     """The 20 kohm load to the 6 V bias must sink up to 1 V / 20 kohm = 50 uA. INC-2's pull-down
     (150 uA guaranteed) carries that; PD-2's 30 uA does not, so its stage hands over
-    (design notes section 3): unsuitable in this circuit, though only review without it."""
+    (design notes section 3): unsuitable in a design that wants no change of mode, a review
+    where the design accepts the fix resistor (the board must add it), and only a review
+    without a design."""
     assert one(frame, "PD-2").verdict == "review"
-    c = one(frame, "PD-2", design())
+    c = one(frame, "PD-2", design(conduction="no-change"))
     assert c.verdict == "unsuitable"
     assert "circuit-conduction" in codes(c, "fail")
     cond = {x.check: x for x in c.circuit}["conduction"]
@@ -405,6 +411,11 @@ def test_conduction_mode_change_where_the_incumbent_has_none(frame: pd.DataFrame
     # least source-device current: I_pd - 50 uA
     assert cond.incumbent == pytest.approx(150e-6 - 50e-6, rel=1e-6)
     assert cond.candidate == pytest.approx(30e-6 - 50e-6, rel=1e-6)
+    c = one(frame, "PD-2", design())  # conduction "fix-allowed", the default
+    assert c.verdict == "review"
+    assert "circuit-conduction" in codes(c, "review")
+    assert c.in_circuit is not None and c.in_circuit["verdict"] == "feasible-with-fix"
+    assert c.in_circuit["fix"]["rail"] == "negative"
 
 
 def test_larger_glitch_where_both_hand_over_needs_review(frame: pd.DataFrame) -> None:
@@ -413,7 +424,7 @@ def test_larger_glitch_where_both_hand_over_needs_review(frame: pd.DataFrame) ->
     sqrt(2 dV G s / omega_t) (design notes section 4; not slew-limited here), with the first-
     order correction for the ideal's steepening over the crossing, so DB-2's dead band of
     2.25 V against 1.5 V makes it about sqrt(1.5) times larger."""
-    d = design(load="2 kohm")
+    d = design(load="2 kohm", conduction="allowed")
     c = one(frame, "DB-2", d)
     assert c.verdict == "review"
     assert "circuit-glitch" in codes(c, "review")
@@ -429,8 +440,8 @@ def test_larger_glitch_where_both_hand_over_needs_review(frame: pd.DataFrame) ->
 
     assert g.incumbent == pytest.approx(glitch(1.5), rel=2e-3)
     assert g.candidate / g.incumbent == pytest.approx(glitch(2.25) / glitch(1.5), rel=2e-3)
-    # both change mode: noted, not held against the candidate
-    assert any(r.code == "circuit-conduction" and r.severity == "info" for r in c.reasons)
+    # both change mode, which the design allows: not held against the candidate
+    assert "circuit-conduction" not in codes(c, "fail") | codes(c, "review")
 
 
 def test_default_pool_order_and_unsuitable_filter(frame: pd.DataFrame) -> None:
@@ -477,7 +488,10 @@ def test_schema_enums_follow_the_registries() -> None:
         "swing_neg",
         "junction_max_c",
     }
-    assert d["circuit_row"]["properties"]["check"]["enum"] == [c.name for c in CIRCUIT_CHECKS]
+    assert d["circuit_row"]["properties"]["check"]["enum"] == list(C.CHECK_NAMES)
+    assert d["circuit_cmp"]["properties"]["check"]["enum"] == [
+        c.name for c in C.CHECKS if c.sense != "is"
+    ]
     assert d["candidate"]["properties"]["verdict"]["enum"] == list(VERDICTS)
 
 
@@ -491,8 +505,12 @@ def test_compare_marks_the_best_direction_aware(frame: pd.DataFrame) -> None:
     assert rows["gbw"].best == (1,)
     assert rows["offset_voltage"].best == (1,)  # lower offset is better
     assert rows["supply_max_v"].best == (1,)
-    assert rows["circuit_closed_loop_bw"].values == pytest.approx((0.4e6, 0.48e6, 0.25e6))
-    assert rows["circuit_conduction"].ok == (True, True, True)
+    # closed-loop bandwidth margin: GBW / 2 minus the 1 kHz required (op-amp formula)
+    assert rows["circuit_bandwidth_margin"].values == pytest.approx(
+        (0.4e6 - 1e3, 0.48e6 - 1e3, 0.25e6 - 1e3)
+    )
+    assert rows["circuit_conduction_margin"].ok == (True, True, True)
+    assert rows["supply_max_v"].label == "supply range, max"
     assert rows["topology"].best == ()  # no order among topologies
     table = cmp.to_frame()
     assert list(table.columns[2:5]) == ["INC-2", "BETTER-2", "GBW-2"]

@@ -14,9 +14,12 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from partsel import present as P
 from partsel.solver import checks as C
+from partsel.solver.messages import check_message
+from partsel.solver.relax import Hint
 from partsel.solver.requirements import OBJECTIVE_BY_NAME
-from partsel.solver.solve import Hint, Ranking
+from partsel.solver.solve import Ranking
 from partsel.solver.table import CORNERS
 
 FORMAT = "partsel.ranking/1"
@@ -113,6 +116,7 @@ def part_checks(r: Ranking, i: int) -> list[dict[str, Any]]:
             accepted = r.requirements.choice(c.requirement or "")
             row["limit"] = None if accepted is None else list(accepted)
         row["values_used"] = _used_sides(r, i, c, int(r.corner[i, j]))
+        row["message"] = check_message(r, i, c.name) if st in C.FAILING else None
         rows.append(row)
     return rows
 
@@ -127,60 +131,111 @@ def _binding(r: Ranking, i: int, j: int) -> dict[str, Any] | None:
         "unit": c.unit,
         "margin": num(r.checks.margin[i, j]),
         "ratio": num(r.checks.ratio[i, j]),
+        "message": check_message(r, i, c.name),
     }
 
 
 def verdict_text(r: Ranking, i: int) -> str:
-    """The conduction verdict: changes-mode / marginal / biased-crossover / one-mode."""
+    """The conduction verdict of part ``i``: changes-mode / marginal / biased-crossover /
+    one-mode (:func:`partsel.solver.solve.conduction_verdict`)."""
+    return str(r.prediction.conduction[i])
+
+
+def _int(x: Any) -> int | None:
+    v = num(x)
+    return None if v is None else int(v)
+
+
+def rail_dict(rf: Any, i: int) -> dict[str, Any]:
+    """One remedy (a resistor to one rail) of part ``i`` as plain data."""
+    return {
+        "rail": rf.rail,
+        "r_ohm": num(rf.r_ohm[i]),
+        "r_max_ohm": num(rf.r_max_ohm[i]),
+        "works": bool(rf.ok[i]),
+        "reason": str(rf.reason[i]),
+        "extra_supply_a": num(rf.extra_supply_a[i]),
+        "extra_dissipation_amp_w": num(rf.extra_dissipation_amp_w[i]),
+        "dissipation_resistor_w": num(rf.dissipation_resistor_w[i]),
+        "device_peak_a": num(rf.device_peak_a[i]),
+        "limit_ok": bool(rf.limit_ok[i]),
+        "swing_ok": bool(rf.swing_ok[i]),
+    }
+
+
+def fix_dict(r: Ranking, i: int) -> dict[str, Any]:
+    """The fix of part ``i``: the one decision (rail, value, and the rule that chose the rail),
+    what it costs, and both remedies."""
+    fx = r.fix
+    needed = bool(fx.needed[i])
+    return {
+        "needed": needed,
+        "sized": bool(fx.sized[i]),
+        "rail": str(fx.rail[i]) or None,
+        "resistance_ohm": num(fx.r_ohm[i]),
+        "max_resistance_ohm": num(fx.r_max_ohm[i]),
+        "works": bool(fx.works[i]) if needed else None,
+        "applied": bool(fx.applied[i]),
+        "extra_supply_current_a": num(fx.extra_supply_a[i]),
+        "extra_dissipation_w": num(fx.extra_dissipation_w[i]),
+        "thd_estimate_with_fix": num(fx.thd_with_fix[i]),
+        "reason": str(fx.reason[i]),
+        "rule": P.fix_rule(fx, i),
+        "series": fx.series,
+        "tolerance": fx.tolerance,
+        "margin": fx.margin,
+        "negative": rail_dict(fx.negative, i) if needed else None,
+        "positive": rail_dict(fx.positive, i) if needed else None,
+    }
+
+
+def prediction_fields(r: Ranking, i: int) -> dict[str, Any]:
+    """The closed-form crossover prediction of part ``i``, as designed."""
     p = r.prediction
-    if p.handover[i]:
-        return "changes-mode"
-    if p.marginal[i]:
-        return "marginal"
-    if p.crossover_biased[i]:
-        return "biased-crossover"
-    return "one-mode"
+    ph = float(p.handover_phase_rad[i])
+    corner = int(p.corner[i])
+    return {
+        "conduction": verdict_text(r, i),
+        "handover": bool(p.handover[i]),
+        "marginal": bool(p.marginal[i]),
+        "biased_crossover": bool(p.crossover_biased[i]),
+        "handover_level_v": num(p.handover_out_v[i]),
+        "handover_phase_deg": math.degrees(ph) if math.isfinite(ph) else None,
+        "flat_level_v": num(p.flat_level_v[i]),
+        "slope_v_per_s": num(p.slope_v_per_s[i]),
+        "handover_time_s": num(p.handover_time_s[i]),
+        "glitch_v": num(p.glitch_v[i]),
+        "thd_estimate": num(p.thd_estimate[i]),
+        "i_out_min_a": num(p.i_out_min_a[i]),
+        "i_out_max_a": num(p.i_out_max_a[i]),
+        "min_source_current_a": num(p.min_source_a[i]),
+        "stage_current_a": num(p.stage_current_a[i]),
+        "stage_current_side": CORNERS[corner] if corner >= 0 else "typ",
+    }
 
 
 def part_dict(r: Ranking, i: int, *, checks: bool = True) -> dict[str, Any]:
-    """Part ``i`` of a ranking as plain data (one item of ``parts`` in the JSON output)."""
-    p, fx, t = r.prediction, r.fix, r.table
+    """Part ``i`` of a ranking as plain data (one item of ``parts`` in the JSON output; the
+    core of ``partsel predict --json`` too)."""
+    t = r.table
     out: dict[str, Any] = {
         "rank": int(r.rank[i]) or None,
         "part_number": str(t.part_number[i]),
         "maker": str(t.text("maker")[i]),
         "topology": str(t.topology[i]),
-        "channels": num(t.channels[i]),
+        "channels": _int(t.channels[i]),
         "lifecycle": str(t.lifecycle[i]),
+        "basis": r.requirements.basis,
+        "verdict": str(r.verdict[i]),
         "feasible": bool(r.feasible[i]),
         "score": num(r.score[i]),
         "pareto": bool(r.pareto[i]),
         "n_failing": int(r.n_failing[i]),
         "binding": _binding(r, i, int(r.binding[i])),
         "tightest": _binding(r, i, int(r.tightest[i])),
-        "prediction": {
-            "verdict": verdict_text(r, i),
-            "handover": bool(p.handover[i]),
-            "marginal": bool(p.marginal[i]),
-            "handover_level_v": num(p.handover_out_v[i]),
-            "flat_level_v": num(p.flat_level_v[i]),
-            "glitch_v": num(p.glitch_v[i]),
-            "thd_estimate": num(p.thd_estimate[i]),
-            "min_source_current_a": num(p.min_source_a[i]),
-            "stage_current_a": num(p.stage_current_a[i]),
-        },
-        "fix": {
-            "needed": bool(fx.needed[i]),
-            "sized": bool(fx.sized[i]),
-            "rail": str(fx.rail[i]) or None,
-            "resistance_ohm": num(fx.r_ohm[i]),
-            "max_resistance_ohm": num(fx.r_max_ohm[i]),
-            "works": bool(fx.works[i]),
-            "applied": bool(fx.applied[i]),
-            "extra_supply_current_a": num(fx.extra_supply_a[i]),
-            "reason": str(fx.reason[i]),
-            "series": fx.series,
-        },
+        "thd_estimate": num(r.checks.value[i, C.IDX["thd"]]),
+        "prediction": prediction_fields(r, i),
+        "fix": fix_dict(r, i),
         "objectives": {
             name: {"metric": num(r.metrics[name][i]), "utility": num(r.utility[name][i])}
             for name, _ in r.requirements.objectives
@@ -264,7 +319,9 @@ def ranking_frame(r: Ranking, top: int | None = None) -> pd.DataFrame:
         "part_number": t.part_number[order],
         "maker": t.text("maker")[order],
         "topology": t.topology[order],
-        "channels": t.channels[order],
+        "channels": pd.array(
+            np.where(np.isfinite(t.channels[order]), t.channels[order], np.nan), dtype="Int64"
+        ),
         "lifecycle": t.lifecycle[order],
         "feasible": r.feasible[order],
         "score": r.score[order],
@@ -274,13 +331,17 @@ def ranking_frame(r: Ranking, top: int | None = None) -> pd.DataFrame:
         "binding_unit": np.where(has_b, units[bj], ""),
         "binding_margin": np.where(has_b, ch.margin[order, bj], np.nan),
         "binding_ratio": np.where(has_b, ch.ratio[order, bj], np.nan),
-        "verdict": [verdict_text(r, int(i)) for i in order],
+        "basis": np.full(order.size, r.requirements.basis, dtype=object),
+        "verdict": r.verdict[order],
+        "conduction": p.conduction[order],
         "handover_level_v": p.handover_out_v[order],
         "glitch_v": p.glitch_v[order],
-        "thd_estimate": p.thd_estimate[order],
+        "thd_estimate": ch.value[order, C.IDX["thd"]],
+        "thd_estimate_as_designed": p.thd_estimate[order],
         "fix_rail": fx.rail[order],
         "fix_r_ohm": fx.r_ohm[order],
         "fix_applied": fx.applied[order],
+        "thd_estimate_with_fix": fx.thd_with_fix[order],
         "supply_current_a": ch.value[order, C.IDX["supply_current"]],
         "price": ch.value[order, C.IDX["price"]],
     }
@@ -304,8 +365,8 @@ def _n(description: str, unit: str = "") -> dict[str, Any]:
     return {"description": text, "type": ["number", "null"]}
 
 
-def ranking_schema() -> dict[str, Any]:
-    """JSON Schema (draft 2020-12) of the JSON output of ``partsel rank --json``."""
+def _check_schemas() -> tuple[dict[str, Any], dict[str, Any]]:
+    """Schemas of a binding / tightest check and of one row of a part's checks."""
     margin_ref = {
         "type": ["object", "null"],
         "additionalProperties": False,
@@ -316,6 +377,7 @@ def ranking_schema() -> dict[str, Any]:
             "unit": {"type": "string"},
             "margin": _n("Signed margin in the check's unit (>= 0 passes)."),
             "ratio": _n("Margin ratio (>= 1 passes); null where a ratio means nothing."),
+            "message": {"description": "The check in words, for people.", "type": "string"},
         },
     }
     check_row = {
@@ -341,9 +403,42 @@ def ranking_schema() -> dict[str, Any]:
                 "type": "object",
                 "additionalProperties": {"type": "string"},
             },
+            "message": {
+                "description": "The check in words, for people (failing checks; null else).",
+                "type": ["string", "null"],
+            },
         },
     }
-    part = {
+    return margin_ref, check_row
+
+
+_RAIL_SCHEMA: dict[str, Any] = {
+    "description": "One remedy: a resistor from the output to one rail (null when no fix "
+    "is needed).",
+    "type": ["object", "null"],
+    "additionalProperties": False,
+    "required": ["rail", "r_ohm", "r_max_ohm", "works", "reason"],
+    "properties": {
+        "rail": {"enum": ["negative", "positive"]},
+        "r_ohm": _n("E-series value (rounded down allowing for its tolerance).", "ohm"),
+        "r_max_ohm": _n("Largest resistor that keeps the stage in one mode.", "ohm"),
+        "works": {"type": "boolean"},
+        "reason": {"description": "Why it does not work ('' when it does).", "type": "string"},
+        "extra_supply_a": _n("Extra mean supply current per channel.", "A"),
+        "extra_dissipation_amp_w": _n("Extra dissipation in the amplifier per channel.", "W"),
+        "dissipation_resistor_w": _n("Mean dissipation in the resistor.", "W"),
+        "device_peak_a": _n("Peak current of the device kept on.", "A"),
+        "limit_ok": {"type": "boolean"},
+        "swing_ok": {"type": "boolean"},
+    },
+}
+
+
+def part_schema() -> dict[str, Any]:
+    """JSON Schema of one part's evaluation (an item of ``parts`` of ``partsel rank --json``;
+    the core of every item of ``partsel predict --json``)."""
+    margin_ref, check_row = _check_schemas()
+    return {
         "type": "object",
         "additionalProperties": False,
         "required": [
@@ -353,12 +448,15 @@ def ranking_schema() -> dict[str, Any]:
             "topology",
             "channels",
             "lifecycle",
+            "basis",
+            "verdict",
             "feasible",
             "score",
             "pareto",
             "n_failing",
             "binding",
             "tightest",
+            "thd_estimate",
             "prediction",
             "fix",
             "objectives",
@@ -372,8 +470,16 @@ def ranking_schema() -> dict[str, Any]:
             "part_number": {"type": "string"},
             "maker": {"type": "string"},
             "topology": {"type": "string"},
-            "channels": _n("Channels per package."),
+            "channels": {"description": "Channels per package.", "type": ["integer", "null"]},
             "lifecycle": {"type": "string"},
+            "basis": {
+                "description": "Value basis of the evaluation (the design's unless overridden).",
+                "enum": ["worst-case", "typical"],
+            },
+            "verdict": {
+                "description": "feasible, feasible with the fix resistor fitted, or rejected.",
+                "enum": ["feasible", "feasible-with-fix", "rejected"],
+            },
             "feasible": {"type": "boolean"},
             "score": {
                 "description": "0..100 for feasible parts (see score.formula); null else.",
@@ -392,22 +498,37 @@ def ranking_schema() -> dict[str, Any]:
                 "severely (smallest ratio); null when feasible.",
             },
             "tightest": {**margin_ref, "description": "The passing check with the smallest ratio."},
+            "thd_estimate": _n(
+                THD_LABEL + ": the value the verdict judges (with the fix where it is applied).",
+                "1",
+            ),
             "prediction": {
                 "type": "object",
                 "additionalProperties": False,
-                "required": ["verdict", "handover", "glitch_v", "thd_estimate"],
+                "required": ["conduction", "handover", "glitch_v", "thd_estimate"],
                 "properties": {
-                    "verdict": {
+                    "conduction": {
                         "enum": ["changes-mode", "marginal", "biased-crossover", "one-mode"]
                     },
                     "handover": {"type": "boolean"},
                     "marginal": {"type": "boolean"},
+                    "biased_crossover": {"type": "boolean"},
                     "handover_level_v": _n("Ideal output level at the handover.", "V"),
+                    "handover_phase_deg": _n("Phase of the falling-edge handover.", "degree"),
                     "flat_level_v": _n("Level the load holds the output at meanwhile.", "V"),
+                    "slope_v_per_s": _n("Output slope at the handover.", "V/s"),
+                    "handover_time_s": _n("Time to cross the dead band.", "s"),
                     "glitch_v": _n("Predicted crossover glitch, as designed.", "V"),
                     "thd_estimate": _n(THD_LABEL + ", as designed.", "1"),
+                    "i_out_min_a": _n("Least output current over the period.", "A"),
+                    "i_out_max_a": _n("Largest output current over the period.", "A"),
                     "min_source_current_a": _n("Smallest source-device current.", "A"),
-                    "stage_current_a": _n("Stage current on the basis.", "A"),
+                    "stage_current_a": _n("Stage current of the prediction.", "A"),
+                    "stage_current_side": {
+                        "description": "Side of the stage-current range used: on the "
+                        "worst-case basis the one worst for the crossover.",
+                        "enum": list(CORNERS),
+                    },
                 },
             },
             "fix": {
@@ -420,14 +541,29 @@ def ranking_schema() -> dict[str, Any]:
                     "rail": {"enum": ["negative", "positive", "none", None]},
                     "resistance_ohm": _n("E-series fix resistor.", "ohm"),
                     "max_resistance_ohm": _n("Largest resistor that works.", "ohm"),
-                    "works": {"type": "boolean"},
+                    "works": {
+                        "description": "A resistor works (null when none is needed).",
+                        "type": ["boolean", "null"],
+                    },
                     "applied": {
                         "description": "The verdict is for the part with the resistor.",
                         "type": "boolean",
                     },
                     "extra_supply_current_a": _n("Extra supply current per channel.", "A"),
+                    "extra_dissipation_w": _n("Extra dissipation per channel.", "W"),
+                    "thd_estimate_with_fix": _n(
+                        "THD_F estimate with the resistor fitted (one mode).", "1"
+                    ),
                     "reason": {"type": "string"},
+                    "rule": {
+                        "description": "Why this rail was chosen, in words.",
+                        "type": "string",
+                    },
                     "series": {"type": "string"},
+                    "tolerance": _n("Tolerance of the series (IEC 60063).", "1"),
+                    "margin": _n("Fraction of its stage current the device kept on carries.", "1"),
+                    "negative": _RAIL_SCHEMA,
+                    "positive": _RAIL_SCHEMA,
                 },
             },
             "objectives": {
@@ -446,6 +582,11 @@ def ranking_schema() -> dict[str, Any]:
             "checks": {"type": "array", "items": check_row},
         },
     }
+
+
+def ranking_schema() -> dict[str, Any]:
+    """JSON Schema (draft 2020-12) of the JSON output of ``partsel rank --json``."""
+    part = part_schema()
     hint = {
         "type": "object",
         "additionalProperties": False,
@@ -545,3 +686,137 @@ def ranking_schema() -> dict[str, Any]:
 def ranking_schema_json() -> str:
     """The schema as the committed file's text (indent 2, final newline)."""
     return json.dumps(ranking_schema(), indent=2, ensure_ascii=False) + "\n"
+
+
+# ---- predictions ------------------------------------------------------------------------------
+
+PREDICTION_FORMAT = "partsel.prediction/2"
+
+
+def options_dict(r: Ranking) -> dict[str, Any]:
+    """The options of an evaluation and where each came from (design file, override, default)."""
+    req = r.requirements
+    return {
+        "basis": req.basis,
+        "basis_source": req.source("basis"),
+        "conduction": req.conduction,
+        "conduction_source": req.source("conduction"),
+        "fix_series": req.fix_series,
+        "fix_series_source": req.source("fix_series"),
+        "margin": req.limit("min_source_fraction"),
+        "margin_source": req.source("min_source_fraction"),
+    }
+
+
+def simulation_dict(sim: Any, k: int) -> dict[str, Any]:
+    """Part ``k`` of a :class:`partsel.physics.simulate.SimResult` as plain data."""
+    return {
+        "steps_per_period": int(sim.steps_per_period),
+        "thd_f": num(sim.thd_f[k]),
+        "thd_definition": f"THD_F (IEC): RMS of harmonics 2..{sim.harmonics_v.shape[1] - 1}"
+        " over the fundamental",
+        "residual_peak_v": num(sim.residual_peak_v[k]),
+        "deviation_peak_v": num(sim.deviation_peak_v[k]),
+        "min_source_a": num(sim.min_source_a[k]),
+        "handover": bool(sim.handover[k]),
+        "handover_level_v": num(sim.handover_level_v[k]),
+        "harmonics_v": [num(x) for x in sim.harmonics_v[k, :11]],
+    }
+
+
+def prediction_dict(
+    r: Ranking,
+    i: int,
+    *,
+    sim: Any = None,
+    sim_fixed: Any = None,
+    k: int = 0,
+) -> dict[str, Any]:
+    """Part ``i`` of an evaluation with its simulations (part ``k`` of ``sim`` and
+    ``sim_fixed``) as plain data: one item of ``partsel predict --json``
+    (``data-schema/prediction.schema.json``). The verdict, the fix and the estimates are those
+    of the ranking (:func:`part_dict`); SI units throughout."""
+    out = part_dict(r, i)
+    out["design"] = {"name": r.design.name, "source": r.design.source}
+    out["options"] = options_dict(r)
+    out["values_used"] = {
+        key: str(arr[i]) for key, arr in r.table.stage(r.requirements.basis).used.items()
+    }
+    out["values_used"]["stage_current"] = out["prediction"]["stage_current_side"]
+    out["thd_definition"] = THD_LABEL
+    out["simulation"] = None if sim is None else simulation_dict(sim, k)
+    out["simulation_fixed"] = None if sim_fixed is None else simulation_dict(sim_fixed, k)
+    out["caution"] = CAUTION
+    return out
+
+
+def prediction_schema() -> dict[str, Any]:
+    """JSON Schema (draft 2020-12) of ``partsel predict --json``: a list of parts."""
+    item = part_schema()
+    sim = {
+        "type": ["object", "null"],
+        "additionalProperties": False,
+        "required": ["steps_per_period", "thd_f", "handover"],
+        "properties": {
+            "steps_per_period": {"type": "integer", "minimum": 1},
+            "thd_f": _n("THD_F of the simulated output (IEC definition).", "1"),
+            "thd_definition": {"type": "string"},
+            "residual_peak_v": _n("Peak of the output minus its DC and fundamental.", "V"),
+            "deviation_peak_v": _n("Peak deviation from the ideal output.", "V"),
+            "min_source_a": _n("Smallest source-device current.", "A"),
+            "handover": {"type": "boolean"},
+            "handover_level_v": _n("Output level at the first handover.", "V"),
+            "harmonics_v": {"type": "array", "items": {"type": ["number", "null"]}},
+        },
+    }
+    src = {"enum": ["design file", "override", "default"]}
+    item["required"] = [*item["required"], "design", "options", "caution"]
+    item["properties"].update(
+        {
+            "design": {
+                "type": "object",
+                "additionalProperties": False,
+                "required": ["name", "source"],
+                "properties": {"name": {"type": "string"}, "source": {"type": ["string", "null"]}},
+            },
+            "options": {
+                "description": "Options of the evaluation and where each came from.",
+                "type": "object",
+                "additionalProperties": False,
+                "required": ["basis", "basis_source", "fix_series", "margin"],
+                "properties": {
+                    "basis": {"enum": ["worst-case", "typical"]},
+                    "basis_source": src,
+                    "conduction": {"enum": ["no-change", "fix-allowed", "allowed"]},
+                    "conduction_source": src,
+                    "fix_series": {"type": "string"},
+                    "fix_series_source": src,
+                    "margin": _n("min_source_fraction, also the fix's sizing margin.", "1"),
+                    "margin_source": src,
+                },
+            },
+            "values_used": {
+                "type": "object",
+                "additionalProperties": {"type": "string"},
+            },
+            "thd_definition": {"type": "string"},
+            "simulation": sim,
+            "simulation_fixed": sim,
+            "caution": {"type": "string"},
+        }
+    )
+    return {
+        "$schema": "https://json-schema.org/draft/2020-12/schema",
+        "$id": "urn:partsel:schema:prediction:2",
+        "title": "partsel prediction",
+        "description": "Output of `partsel predict --json`: one item per part, with the "
+        "verdict, fix and estimates of the ranking for the same design and options, and the "
+        "time-domain simulation. SI units; null where a value is not a finite number.",
+        "type": "array",
+        "items": item,
+    }
+
+
+def prediction_schema_json() -> str:
+    """The schema as the committed file's text (indent 2, final newline)."""
+    return json.dumps(prediction_schema(), indent=2, ensure_ascii=False) + "\n"

@@ -1,0 +1,149 @@
+"""Matching BOM part numbers to the catalogue: exact, normalised, then per-maker suffix rules."""
+
+from __future__ import annotations
+
+import difflib
+import re
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass
+from typing import Any, Literal
+
+import pandas as pd
+
+from partsel.errors import InputError, json_pointer
+from partsel.io.bom import DASHES
+
+MatchRule = Literal["exact", "normalised", "suffix", "none"]
+#: Matching rules, in the order they are tried.
+MATCH_RULES: tuple[MatchRule, ...] = ("exact", "normalised", "suffix")
+#: Most suffixes removed from one part number (a package code then a packing code, say).
+MAX_SUFFIX_STRIPS = 3
+#: Whitespace and dashes (:data:`partsel.io.bom.DASHES`), ignored by the normalised match.
+_NORMALISE = re.compile(f"[\\s{re.escape(DASHES)}]+")
+
+
+def normalise(part_number: str) -> str:
+    """Part number with case, whitespace and dashes ignored (the 'normalised' rule)."""
+    return _NORMALISE.sub("", str(part_number)).casefold()
+
+
+# ---- matching ----------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class Match:
+    """How a BOM part number matched the catalogue."""
+
+    rule: MatchRule
+    index: int | None = None  #: row in the catalogue frame (None: no match)
+    part_number: str | None = None
+    maker: str | None = None
+    stripped: tuple[str, ...] = ()  #: suffixes removed (rule 'suffix')
+    candidates: tuple[str, ...] = ()  #: the part numbers matched when ambiguous
+
+    def to_dict(self) -> dict[str, Any]:
+        return {
+            "rule": self.rule,
+            "part_number": self.part_number,
+            "maker": self.maker,
+            "stripped_suffixes": list(self.stripped),
+            "ambiguous": list(self.candidates),
+        }
+
+
+class PartMatcher:
+    """Match BOM part numbers to catalogue rows: exact, normalised, per-maker suffix rules.
+
+    ``makers`` is a list of ``{"name": ..., "suffix_rules": [regex, ...]}`` as returned by
+    :func:`partsel.catalogue.makers`; the rules are applied case-insensitively.
+    """
+
+    def __init__(self, frame: pd.DataFrame, makers: Iterable[Mapping[str, Any]] = ()) -> None:
+        pns = [str(p) for p in frame["part_number"].tolist()]
+        mk = (
+            [str(m) for m in frame["maker"].tolist()]
+            if "maker" in frame.columns
+            else [""] * len(pns)
+        )
+        self._pns, self._makers = pns, mk
+        self._exact: dict[str, int] = {p.strip(): k for k, p in enumerate(pns)}
+        self._norm: dict[str, list[int]] = {}
+        for k, p in enumerate(pns):
+            self._norm.setdefault(normalise(p), []).append(k)
+        self._rules: list[tuple[str, list[re.Pattern[str]]]] = []
+        for m_i, m in enumerate(makers):
+            name = str(m.get("name", ""))
+            rules = []
+            for r_i, rule in enumerate(m.get("suffix_rules") or []):
+                try:
+                    rules.append(re.compile(str(rule), re.IGNORECASE))
+                except re.error as exc:
+                    raise InputError(
+                        f"suffix rule {rule!r} is not a regular expression: {exc}",
+                        record=name,
+                        pointer=json_pointer("makers", m_i, "suffix_rules", r_i),
+                    ) from None
+            if rules:
+                self._rules.append((name.strip().casefold(), rules))
+
+    def _result(self, rule: MatchRule, hits: list[int], stripped: tuple[str, ...]) -> Match:
+        hits = sorted(set(hits))
+        if len(hits) == 1:
+            k = hits[0]
+            return Match(rule, k, self._pns[k], self._makers[k], stripped)
+        return Match(rule, None, None, None, stripped, tuple(self._pns[k] for k in hits))
+
+    def match(self, text: str, maker: str | None = None) -> Match:
+        """Match one BOM part number (``maker``: the BOM's maker cell, narrows ties)."""
+        t = str(text).strip()
+        if not t:
+            return Match("none")
+        if t in self._exact:
+            return self._result("exact", [self._exact[t]], ())
+        hits = self._norm.get(normalise(t), [])
+        if hits:
+            return self._narrow(self._result("normalised", hits, ()), maker, hits, "normalised")
+        # Suffix rules of each maker: strip, then look among that maker's parts.
+        found: dict[int, tuple[str, ...]] = {}
+        compact = re.sub(r"\s+", "", t)
+        for mkey, rules in self._rules:
+            cur, stripped = compact, ()
+            for _ in range(MAX_SUFFIX_STRIPS):
+                for rx in rules:
+                    m = rx.search(cur)
+                    if m and m.end() > m.start() and m.start() > 0:
+                        stripped = (*stripped, cur[m.start() : m.end()])
+                        cur = cur[: m.start()] + cur[m.end() :]
+                        break
+                else:
+                    break
+                ks = [
+                    k
+                    for k in self._norm.get(normalise(cur), [])
+                    if self._makers[k].strip().casefold() == mkey
+                ]
+                if ks:
+                    for k in ks:
+                        found.setdefault(k, stripped)
+                    break
+        if found:
+            ks = list(found)
+            res = self._result("suffix", ks, found[ks[0]] if len(ks) == 1 else ())
+            return self._narrow(res, maker, ks, "suffix")
+        return Match("none")
+
+    def _narrow(self, res: Match, maker: str | None, hits: list[int], rule: MatchRule) -> Match:
+        if res.index is not None or not maker:
+            return res
+        key = maker.strip().casefold()
+        mine = [k for k in hits if self._makers[k].strip().casefold() == key]
+        return self._result(rule, mine, res.stripped) if len(mine) == 1 else res
+
+    def close_matches(self, text: str, n: int = 3) -> list[str]:
+        """Catalogue part numbers that look like ``text`` (a hint for unknown parts)."""
+        key = normalise(text)
+        if not key:
+            return []
+        pool = [k for k in self._norm if k[:2] == key[:2]] or list(self._norm)
+        hits = difflib.get_close_matches(key, pool, n=n, cutoff=0.75)
+        return [self._pns[self._norm[h][0]] for h in hits]
