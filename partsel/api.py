@@ -1,13 +1,22 @@
-"""partsel's Python API: the functions the command line, the terminal UI and scripts call.
+"""partsel's Python API: one evaluation session behind every command, screen and script.
+
+A :class:`Session` holds the catalogue (an engine, read once into a cached part table) and
+evaluates designs with one set of rules: the value basis, the fix series and the margin come
+from the design file unless the caller overrides them, every part is judged by the solver's one
+check registry, and each part gets one fix decision (rail, value and the rule behind it). The
+command line, the terminal UI, substitute vetting, comparisons, BOM checks and exports all go
+through a session, so that a part gets the same verdict, resistor and THD estimate wherever a
+user looks.
 
 Example::
 
     import partsel.api as ps
 
-    engine = ps.open_catalogue()                       # default SQLite catalogue
-    design = ps.load_design("sample-catalog/designs/line-driver-5v.toml")
-    preds = ps.predict(engine, design, ["BR-2904"], basis="worst-case")
-    print(preds[0].to_dict()["crossover"])
+    with ps.Session() as s:                            # the default SQLite catalogue
+        design = s.load_design("sample-catalog/designs/line-driver-5v.toml")
+        ranking = s.rank(design)                       # the design's basis and limits
+        pred = s.predict(design, ["BRQ-622"])          # same verdict and fix, plus simulation
+        print(pred.parts()[0]["fix"]["rule"])
 
 Every prediction is an estimate from partsel's behavioural macro-model: confirm it on the bench
 or in a full transistor-level simulation, and follow your organisation's design rules where
@@ -16,9 +25,11 @@ safety is involved.
 
 from __future__ import annotations
 
-import math
+import json
+from collections import OrderedDict
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass
+from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 import numpy as np
@@ -28,32 +39,33 @@ from sqlalchemy.engine import Engine
 from partsel.catalogue import open_catalogue, parts_frame
 from partsel.design import load_design
 from partsel.errors import InputError
-from partsel.physics.analysis import ClosedForm, predict_closed_form
 from partsel.physics.circuit import Design
-from partsel.physics.fix import FixResult, size_fix
 from partsel.physics.simulate import SimResult, simulate
 from partsel.physics.spectrum import DEFAULT_HARMONICS
 from partsel.physics.stage import Basis, StageParams
+from partsel.solver import PartTable, Ranking, Requirements
+from partsel.solver import rank as solver_rank
+from partsel.solver.export import prediction_dict
+from partsel.solver.requirements import BASES, FIX_SERIES
+from partsel.solver.solve import FixInfo
+from partsel.solver.solve import Prediction as ClosedPrediction
 
 if TYPE_CHECKING:
-    from partsel.solver import Ranking
     from partsel.solver.bom import BomReport
     from partsel.solver.substitute import Comparison, Vetting
 
 __all__ = [
     "CAUTION",
-    "PartPrediction",
     "Prediction",
+    "Session",
     "catalogue_frame",
     "check_bom",
     "compare_parts",
     "load_design",
     "open_catalogue",
     "predict",
-    "predict_frame",
     "rank",
     "select_parts",
-    "stage_params",
     "vet_substitutes",
 ]
 
@@ -62,6 +74,9 @@ CAUTION = (
     "the bench or in a full simulation, and follow your organisation's design rules where "
     "safety is involved."
 )
+
+#: Evaluations kept per session (design, options and part set).
+EVALUATION_CACHE = 8
 
 
 def catalogue_frame(catalogue: Engine | pd.DataFrame | str | None = None) -> pd.DataFrame:
@@ -82,225 +97,355 @@ def select_parts(frame: pd.DataFrame, part_numbers: Sequence[str]) -> pd.DataFra
 
     Raises :class:`InputError` naming every unknown part number.
     """
-    key = frame["part_number"].astype(str).str.upper()
+    key = frame["part_number"].astype(str).str.strip().str.casefold()
     index = {k: i for i, k in enumerate(key)}
-    missing = [p for p in part_numbers if p.upper() not in index]
+    missing = [p for p in part_numbers if p.strip().casefold() not in index]
     if missing:
-        raise InputError("unknown part number(s): " + ", ".join(missing), pointer="/part_number")
-    return frame.iloc[[index[p.upper()] for p in part_numbers]].reset_index(drop=True)
-
-
-def stage_params(frame: pd.DataFrame, basis: Basis = "typical") -> StageParams:
-    """Physics inputs of every row of ``frame`` on ``basis``."""
-    if basis not in ("typical", "worst-case"):
         raise InputError(
-            f"unknown basis {basis!r}: use 'typical' or 'worst-case'", pointer="/basis"
+            "unknown part number(s): " + ", ".join(missing) + " (see `partsel list`)",
+            pointer="/part_number",
         )
-    return StageParams.from_columns(frame, basis)
+    return frame.iloc[[index[p.strip().casefold()] for p in part_numbers]].reset_index(drop=True)
+
+
+def resolve_requirements(
+    design: Design,
+    *,
+    basis: str | None = None,
+    series: str | None = None,
+    margin: float | None = None,
+    conduction: str | None = None,
+) -> Requirements:
+    """The design's requirements with the caller's overrides: the one rule for the basis, the
+    fix series and the margin of every door (the design's value unless overridden, then the
+    default), each recorded with where it came from (:attr:`Requirements.origin`)."""
+    req = Requirements.from_mapping(design.requirements, file=design.source, record=design.name)
+    if basis is not None and basis not in BASES:
+        raise InputError(f"unknown basis {basis!r}: use {' or '.join(BASES)}", pointer="/basis")
+    if series is not None:
+        series = series.upper()
+        if series not in FIX_SERIES:
+            raise InputError(
+                f"unknown series {series!r}: use one of {', '.join(FIX_SERIES)}",
+                pointer="/series",
+            )
+    if margin is not None and not 0.0 <= margin < 1.0:
+        raise InputError(f"margin must lie in [0, 1), got {margin:g}", pointer="/margin")
+    if conduction is not None and conduction not in ("no-change", "fix-allowed", "allowed"):
+        raise InputError(f"unknown conduction mode {conduction!r}", pointer="/conduction")
+    return req.override(
+        basis=basis, fix_series=series, min_source_fraction=margin, conduction=conduction
+    )
 
 
 @dataclass(frozen=True)
 class Prediction:
-    """Predictions for a set of parts in one design (arrays along the part axis)."""
+    """An evaluation of some parts in one design with their time-domain simulations.
 
-    design: Design
-    frame: pd.DataFrame
-    stage: StageParams
-    closed: ClosedForm
-    fix: FixResult
+    ``ranking`` is the solver's evaluation (the verdict, the fix and the closed-form estimates
+    come from there); ``rows`` are the predicted parts' indices in it; ``sim`` and
+    ``sim_fixed`` (with the recommended fix resistor fitted) hold those parts in that order.
+    The views ``frame``, ``stage``, ``closed`` and ``fix`` follow the same order.
+    """
+
+    ranking: Ranking
+    rows: np.ndarray
     sim: SimResult | None = None
     sim_fixed: SimResult | None = None
 
-    def part(self, k: int) -> PartPrediction:
-        """The prediction for the k-th part as plain data."""
-        return PartPrediction(self, k)
-
-    def parts(self) -> list[PartPrediction]:
-        """All parts as plain data."""
-        return [PartPrediction(self, k) for k in range(self.stage.n)]
-
-
-def _f(x: Any) -> float | None:
-    """A JSON-friendly float (None for NaN / inf)."""
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
-
-
-@dataclass(frozen=True)
-class PartPrediction:
-    """One part's prediction in one design; ``to_dict()`` gives the documented JSON form
-    (``data-schema/prediction.schema.json``). SI units throughout."""
-
-    pred: Prediction
-    k: int
-    extra: dict[str, Any] = field(default_factory=dict)
+    @property
+    def design(self) -> Design:
+        return self.ranking.design
 
     @property
-    def part_number(self) -> str:
-        return str(self.pred.frame["part_number"].iloc[self.k])
+    def n(self) -> int:
+        return int(self.rows.size)
 
-    def values_used(self) -> dict[str, str]:
-        """Which side of each parameter's range the prediction used."""
-        used = self.pred.stage.used
-        return {key: str(arr[self.k]) for key, arr in used.items()}
+    @property
+    def frame(self) -> pd.DataFrame:
+        """Catalogue rows of the predicted parts."""
+        return self.ranking.table.frame.iloc[self.rows].reset_index(drop=True)
 
-    def to_dict(self) -> dict[str, Any]:
-        p, k = self.pred, self.k
-        c, st, fx, d = p.closed, p.stage, p.fix, p.design
-        row = p.frame.iloc[k]
+    @property
+    def stage(self) -> StageParams:
+        """Stage parameters of the predicted parts, with the stage current of the prediction
+        (on the worst-case basis: the corner worst for the crossover)."""
+        return simulation_stage(self.ranking, self.rows)
 
-        def arr(a: np.ndarray) -> Any:
-            v = a[k]
-            if isinstance(v, np.bool_ | bool):
-                return bool(v)
-            return _f(v)
+    @property
+    def closed(self) -> ClosedPrediction:
+        """The closed-form crossover prediction of the predicted parts."""
+        return self.ranking.prediction.take(self.rows)
 
-        def rail(r: Any) -> dict[str, Any]:
-            return {
-                "rail": r.rail,
-                "r_max_ohm": arr(r.r_max_ohm),
-                "r_ohm": arr(r.r_ohm),
-                "works": bool(r.ok[k]),
-                "reason": str(r.reason[k]),
-                "extra_supply_a": arr(r.extra_supply_a),
-                "extra_dissipation_amp_w": arr(r.extra_dissipation_amp_w),
-                "dissipation_resistor_w": arr(r.dissipation_resistor_w),
-                "device_peak_a": arr(r.device_peak_a),
-                "limit_ok": bool(r.limit_ok[k]),
-                "swing_ok": bool(r.swing_ok[k]),
-            }
+    @property
+    def fix(self) -> FixInfo:
+        """The fix of the predicted parts."""
+        return self.ranking.fix.take(self.rows)
 
-        topo = str(row["topology"])
-        handover = bool(c.handover[k])
-        if handover:
-            verdict = "changes-mode"
-        elif bool(c.marginal[k]):
-            verdict = "marginal"
-        elif bool(c.crossover_biased[k]):
-            verdict = "biased-crossover"
+    def part(self, k: int) -> dict[str, Any]:
+        """Predicted part ``k`` as the documented JSON (``data-schema/prediction.schema.json``)."""
+        return prediction_dict(
+            self.ranking, int(self.rows[k]), sim=self.sim, sim_fixed=self.sim_fixed, k=k
+        )
+
+    def parts(self) -> list[dict[str, Any]]:
+        """Every predicted part as the documented JSON."""
+        return [self.part(k) for k in range(self.n)]
+
+
+def simulation_stage(ranking: Ranking, rows: np.ndarray) -> StageParams:
+    """Stage parameters of parts ``rows`` for a simulation: the ranking's basis, with the
+    stage current its prediction used (the worst corner for the crossover on worst-case)."""
+    st = ranking.table.stage(ranking.requirements.basis).take(rows)
+    return st.replace(stage_current_a=ranking.prediction.stage_current_a[rows])
+
+
+class Session:
+    """One catalogue and one set of rules for every evaluation (see the module docstring).
+
+    ``catalogue``: an engine, a database URL, a parts frame, or None (the default catalogue).
+    The part table is read once and cached; :meth:`reload` reads it again after a change.
+    A session that opened its engine itself disposes of it in :meth:`close`.
+    """
+
+    def __init__(
+        self,
+        catalogue: Engine | pd.DataFrame | str | None = None,
+        *,
+        read_only: bool = False,
+    ) -> None:
+        self._frame: pd.DataFrame | None = None
+        self._table: PartTable | None = None
+        self._engine: Engine | None = None
+        self._own_engine = False
+        self._url: str | None = None
+        self.read_only = read_only
+        if isinstance(catalogue, pd.DataFrame):
+            self._frame = catalogue
+        elif isinstance(catalogue, Engine):
+            self._engine = catalogue
         else:
-            verdict = "one-mode"
-        out: dict[str, Any] = {
-            "part_number": self.part_number,
-            "maker": str(row.get("maker", "")),
-            "topology": topo,
-            "design": d.name,
-            "basis": st.basis,
-            "values_used": self.values_used(),
-            "crossover": {
-                "verdict": verdict,
-                "handover": handover,
-                "marginal": bool(c.marginal[k]),
-                "biased_crossover": bool(c.crossover_biased[k]),
-                "i_out_min_a": arr(c.i_out_min_a),
-                "i_out_max_a": arr(c.i_out_max_a),
-                "stage_current_a": arr(st.stage_current_a),
-                "min_source_a": arr(c.min_source_a),
-                "flat_level_v": arr(c.flat_level_v),
-                "handover_out_v": arr(c.handover_out_v),
-                "handover_phase_deg": None
-                if not math.isfinite(c.handover_phase_rad[k])
-                else math.degrees(float(c.handover_phase_rad[k])),
-                "slope_v_per_s": arr(c.slope_v_per_s),
-                "handover_time_s": arr(c.handover_time_s),
-                "glitch_v": arr(c.glitch_v),
-                "thd_estimate": arr(c.thd_estimate),
-            },
-            "checks": {
-                "swing_pos_margin_v": arr(c.swing_pos_margin_v),
-                "swing_neg_margin_v": arr(c.swing_neg_margin_v),
-                "cm_low_margin_v": arr(c.cm_low_margin_v),
-                "cm_high_margin_v": arr(c.cm_high_margin_v),
-                "slew_required_v_per_s": _f(c.slew_required_v_per_s),
-                "slew_margin_ratio": arr(c.slew_margin_ratio),
-                "full_power_bw_hz": arr(c.full_power_bw_hz),
-                "closed_loop_bw_hz": arr(c.closed_loop_bw_hz),
-                "gain_error": arr(c.gain_error),
-                "phase_error_deg": _f(math.degrees(float(c.phase_error_rad[k])))
-                if math.isfinite(float(c.phase_error_rad[k]))
-                else None,
-                "cap_load_ratio": arr(c.cap_load_ratio),
-                "cap_load_ok": not (float(c.cap_load_ratio[k]) > 1.0),
-                "stable_at_gain": bool(c.stable_at_gain[k]),
-                "supply_in_range": bool(c.supply_in_range[k]),
-                "source_peak_a": arr(c.source_peak_a),
-                "sink_peak_a": arr(c.sink_peak_a),
-                "source_limit_ok": bool(c.source_limit_ok[k]),
-                "sink_limit_ok": bool(c.sink_limit_ok[k]),
-                "supply_current_a": arr(c.supply_current_a),
-                "dissipation_w": arr(c.dissipation_w),
-                "t_junction_c": arr(c.t_junction_c),
-                "t_junction_margin_c": arr(c.t_junction_margin_c),
-            },
-            "fix": {
-                "needed": bool(fx.needed[k]),
-                "recommended": str(fx.recommended[k]),
-                "series": fx.series,
-                "tolerance": fx.tolerance,
-                "margin": fx.margin,
-                "negative": rail(fx.negative),
-                "positive": rail(fx.positive),
-            },
-            "simulation": None,
-            "caution": CAUTION,
-        }
-        for label, sim in (("simulation", p.sim), ("simulation_fixed", p.sim_fixed)):
-            if sim is None:
-                if label == "simulation_fixed":
-                    out[label] = None
-                continue
-            out[label] = {
-                "steps_per_period": sim.steps_per_period,
-                "thd_f": _f(sim.thd_f[k]),
-                "thd_definition": f"THD_F (IEC): RMS of harmonics 2..{sim.harmonics_v.shape[1] - 1}"
-                " over the fundamental",
-                "residual_peak_v": _f(sim.residual_peak_v[k]),
-                "deviation_peak_v": _f(sim.deviation_peak_v[k]),
-                "min_source_a": _f(sim.min_source_a[k]),
-                "handover": bool(sim.handover[k]),
-                "handover_level_v": _f(sim.handover_level_v[k]),
-                "harmonics_v": [_f(x) for x in sim.harmonics_v[k, :11]],
-            }
-        return out
+            self._url = catalogue
+        self._cache: OrderedDict[tuple[Any, ...], tuple[Design, Ranking]] = OrderedDict()
 
+    # ---- catalogue ---------------------------------------------------------------------------
+    @property
+    def engine(self) -> Engine | None:
+        """The catalogue engine (opened on first use; None for a session over a frame)."""
+        if self._engine is None and self._frame is None:
+            self._engine = open_catalogue(self._url, read_only=self.read_only)
+            self._own_engine = True
+        return self._engine
 
-def predict_frame(
-    frame: pd.DataFrame,
-    design: Design,
-    *,
-    basis: Basis = "typical",
-    series: str = "E24",
-    margin: float | None = None,
-    run_simulation: bool = True,
-    simulate_fix: bool = True,
-    n_harmonics: int = DEFAULT_HARMONICS,
-) -> Prediction:
-    """Predict every part of ``frame`` in ``design`` (closed form, fix, and optionally the
-    time-domain simulation with and without the recommended fix)."""
-    stage = stage_params(frame, basis)
-    closed = predict_closed_form(stage, design)
-    try:
-        kw = {} if margin is None else {"margin": margin}
-        fix = size_fix(stage, design, series=series, **kw)
-    except ValueError as exc:
-        raise InputError(str(exc), pointer="/series") from None
-    sim = sim_fixed = None
-    if run_simulation and stage.n:
-        sim = simulate(stage, design, n_harmonics=n_harmonics)
-        if simulate_fix and bool(
-            np.any(fix.recommended == "negative") or np.any(fix.recommended == "positive")
-        ):
-            sim_fixed = simulate(
-                stage,
-                design,
-                r_to_neg_ohm=fix.r_neg_ohm,
-                r_to_pos_ohm=fix.r_pos_ohm,
-                n_harmonics=n_harmonics,
+    @property
+    def frame(self) -> pd.DataFrame:
+        """The parts frame (read once)."""
+        if self._frame is None:
+            engine = self.engine
+            assert engine is not None
+            self._frame = parts_frame(engine)
+        return self._frame
+
+    @property
+    def table(self) -> PartTable:
+        """The part table every evaluation uses (built once per catalogue read)."""
+        if self._table is None:
+            self._table = PartTable(self.frame)
+        return self._table
+
+    def reload(self) -> None:
+        """Read the catalogue again (after a change) and forget cached evaluations."""
+        if self._engine is not None:
+            self._frame = None
+        self._table = None
+        self._cache.clear()
+
+    def close(self) -> None:
+        """Dispose of an engine this session opened."""
+        if self._own_engine and self._engine is not None:
+            self._engine.dispose()
+            self._engine = None
+            self._own_engine = False
+
+    def __enter__(self) -> Session:
+        return self
+
+    def __exit__(self, *exc: object) -> None:
+        self.close()
+
+    # ---- designs -----------------------------------------------------------------------------
+    @staticmethod
+    def load_design(design: Design | str | Path) -> Design:
+        """A design from a file (TOML / YAML / JSON), or the design itself."""
+        if isinstance(design, Design):
+            return design
+        return load_design(design)
+
+    def requirements(self, design: Design, **options: Any) -> Requirements:
+        """The design's requirements with overrides (``basis``, ``series``, ``margin``,
+        ``conduction``), see :func:`resolve_requirements`."""
+        return resolve_requirements(design, **options)
+
+    # ---- evaluation --------------------------------------------------------------------------
+    def evaluate(
+        self,
+        design: Design | str | Path,
+        parts: Sequence[str] | None = None,
+        *,
+        basis: str | None = None,
+        series: str | None = None,
+        margin: float | None = None,
+        conduction: str | None = None,
+        hints: bool | None = None,
+    ) -> Ranking:
+        """The solver's evaluation of ``parts`` (None: the whole catalogue) in ``design``.
+
+        A part's verdict, fix and estimates do not depend on which other parts are evaluated
+        with it (only the score, rank and Pareto set do), so a prediction of a few parts
+        agrees with the ranking of the whole catalogue. A full evaluation for the same design
+        and options is reused when there is one.
+        """
+        design = self.load_design(design)
+        req = resolve_requirements(
+            design, basis=basis, series=series, margin=margin, conduction=conduction
+        )
+        full_key = self._key(design, req, None)
+        if parts is None:
+            return self._evaluated(full_key, design, req, self.table, hints is not False)
+        rows = self.rows(parts)
+        if full_key in self._cache:
+            return self._cache[full_key][1]
+        table = PartTable(self.table.frame.iloc[rows].reset_index(drop=True))
+        return self._evaluated(
+            self._key(design, req, tuple(int(x) for x in rows)), design, req, table, bool(hints)
+        )
+
+    def rank(self, design: Design | str | Path, **options: Any) -> Ranking:
+        """Rank the whole catalogue for ``design`` (see :meth:`evaluate` for the options)."""
+        return self.evaluate(design, None, **options)
+
+    def rows(self, part_numbers: Sequence[str]) -> np.ndarray:
+        """Indices of ``part_numbers`` in the part table (InputError for unknown ones)."""
+        t = self.table
+        index = {k: i for i, k in enumerate(t.part_key)}
+        missing = [p for p in part_numbers if p.strip().casefold() not in index]
+        if missing:
+            raise InputError(
+                "unknown part number(s): " + ", ".join(missing) + " (see `partsel list`)",
+                pointer="/part_number",
             )
-    return Prediction(design, frame, stage, closed, fix, sim, sim_fixed)
+        return np.array([index[p.strip().casefold()] for p in part_numbers], dtype=int)
+
+    def predict(
+        self,
+        design: Design | str | Path,
+        parts: Sequence[str] | None = None,
+        *,
+        run_simulation: bool = True,
+        simulate_fix: bool = True,
+        n_harmonics: int = DEFAULT_HARMONICS,
+        ranking: Ranking | None = None,
+        **options: Any,
+    ) -> Prediction:
+        """Predict ``parts`` (None: every part) in ``design``: the evaluation's verdict, fix
+        and closed-form estimates, plus the time-domain simulation as designed and with the
+        recommended fix resistor fitted. ``ranking``: an evaluation to take the parts from
+        (the terminal UI passes its ranking)."""
+        if ranking is None:
+            ranking = self.evaluate(design, parts, **options)
+        if parts is None:
+            rows = np.arange(ranking.n)
+        else:
+            index = {k: i for i, k in enumerate(ranking.table.part_key)}
+            missing = [p for p in parts if p.strip().casefold() not in index]
+            if missing:
+                raise InputError("unknown part number(s): " + ", ".join(missing))
+            rows = np.array([index[p.strip().casefold()] for p in parts], dtype=int)
+        sim = sim_fixed = None
+        if run_simulation and rows.size:
+            stage = simulation_stage(ranking, rows)
+            sim = simulate(stage, ranking.design, n_harmonics=n_harmonics)
+            fix = ranking.fix.take(rows)
+            if simulate_fix and np.isfinite(fix.r_neg_ohm).any() | np.isfinite(fix.r_pos_ohm).any():
+                sim_fixed = simulate(
+                    stage,
+                    ranking.design,
+                    r_to_neg_ohm=fix.r_neg_ohm,
+                    r_to_pos_ohm=fix.r_pos_ohm,
+                    n_harmonics=n_harmonics,
+                )
+        return Prediction(ranking, rows, sim, sim_fixed)
+
+    # ---- substitutes, comparison, BOM --------------------------------------------------------
+    def vet(
+        self,
+        incumbent: str,
+        design: Design | str | Path | None = None,
+        **kwargs: Any,
+    ) -> Vetting:
+        """Candidates to replace ``incumbent``, best verdict first, with their reasons; with a
+        design, judged by the same checks and limits as the ranking (see
+        :func:`partsel.solver.substitute.vet_substitutes` for the keyword arguments)."""
+        from partsel.solver.substitute import vet_substitutes as _vet
+
+        d = None if design is None else self.load_design(design)
+        return _vet(self.table, incumbent, d, **kwargs)
+
+    def compare(
+        self,
+        parts: Sequence[str],
+        design: Design | str | Path | None = None,
+        **kwargs: Any,
+    ) -> Comparison:
+        """Two to four parts side by side (optionally in ``design``)."""
+        from partsel.solver.substitute import compare_parts as _compare
+
+        d = None if design is None else self.load_design(design)
+        return _compare(self.table, list(parts), d, **kwargs)
+
+    def check_bom(
+        self,
+        bom: Any,
+        design: Design | str | Path | None = None,
+        **kwargs: Any,
+    ) -> BomReport:
+        """Check every line of a BOM (CSV path, bytes, stream or frame) against the catalogue
+        and the makers' suffix rules; per-line design files are read with
+        :func:`partsel.design.load_design`."""
+        from partsel.catalogue import makers
+        from partsel.solver.bom import check_bom as _check
+
+        d = None if design is None else self.load_design(design)
+        engine = self.engine
+        maker_rows = makers(engine) if engine is not None else []
+        kwargs.setdefault("design_loader", load_design)
+        return _check(self.table, bom, maker_rows, d, **kwargs)
+
+    # ---- internals ---------------------------------------------------------------------------
+    @staticmethod
+    def _key(design: Design, req: Requirements, rows: tuple[int, ...] | None) -> tuple[Any, ...]:
+        return (id(design), json.dumps(req.to_mapping(), sort_keys=True, default=str), rows)
+
+    def _evaluated(
+        self,
+        key: tuple[Any, ...],
+        design: Design,
+        req: Requirements,
+        table: PartTable,
+        hints: bool,
+    ) -> Ranking:
+        hit = self._cache.get(key)
+        if hit is not None and hit[0] is design:
+            self._cache.move_to_end(key)
+            return hit[1]
+        r = solver_rank(table, design, req, hints=hints)
+        self._cache[key] = (design, r)  # the design is kept, so its id is not reused
+        while len(self._cache) > EVALUATION_CACHE:
+            self._cache.popitem(last=False)
+        return r
+
+
+# ---- one-call helpers for scripts (each opens a session) -----------------------------------------
 
 
 def predict(
@@ -308,18 +453,12 @@ def predict(
     design: Design | str,
     part_numbers: Sequence[str] | None = None,
     **kwargs: Any,
-) -> list[PartPrediction]:
-    """Predict the named parts (all parts if None) in ``design`` (a Design or a file path).
-
-    Keyword arguments go to :func:`predict_frame` (``basis``, ``series``, ``margin``,
-    ``run_simulation``...).
-    """
-    if not isinstance(design, Design):
-        design = load_design(design)
-    frame = catalogue_frame(catalogue)
-    if part_numbers is not None:
-        frame = select_parts(frame, part_numbers)
-    return predict_frame(frame, design, **kwargs).parts()
+) -> list[dict[str, Any]]:
+    """Predict the named parts (all parts if None) in ``design``; the documented JSON of each
+    (keyword arguments as :meth:`Session.predict`: ``basis``, ``series``, ``margin``,
+    ``run_simulation``...)."""
+    with Session(catalogue) as s:
+        return s.predict(design, part_numbers, **kwargs).parts()
 
 
 def rank(
@@ -328,21 +467,14 @@ def rank(
     *,
     basis: Basis | None = None,
 ) -> Ranking:
-    """Rank every part of the catalogue for ``design`` (a Design or a file path) against the
-    design's ``[requirements]``; ``basis`` overrides the requirements' value basis.
+    """Rank every part of the catalogue for ``design`` against the design's requirements;
+    ``basis`` overrides the design's value basis.
 
-    Returns a :class:`partsel.solver.Ranking`; ``partsel.solver.export.ranking_frame(r)`` and
-    ``ranking_dict(r)`` turn it into a pandas frame or the documented JSON.
+    ``partsel.solver.export.ranking_frame(r)`` and ``ranking_dict(r)`` turn the result into a
+    pandas frame or the documented JSON.
     """
-    from partsel.solver import PartTable, Requirements
-    from partsel.solver import rank as solver_rank
-
-    if not isinstance(design, Design):
-        design = load_design(design)
-    req = Requirements.from_mapping(design.requirements or {})
-    if basis is not None:
-        req = req.replace(basis=basis)
-    return solver_rank(PartTable(catalogue_frame(catalogue)), design, req)
+    with Session(catalogue) as s:
+        return s.rank(design, basis=basis)
 
 
 def vet_substitutes(
@@ -351,13 +483,9 @@ def vet_substitutes(
     design: Design | str | None = None,
     **kwargs: Any,
 ) -> Vetting:
-    """Candidates to replace ``incumbent``, best first, with verdicts and reasons
-    (see :func:`partsel.solver.substitute.vet_substitutes` for the keyword arguments)."""
-    from partsel.solver.substitute import vet_substitutes as _vet
-
-    if design is not None and not isinstance(design, Design):
-        design = load_design(design)
-    return _vet(catalogue_frame(catalogue), incumbent, design, **kwargs)
+    """Candidates to replace ``incumbent`` (see :meth:`Session.vet`)."""
+    with Session(catalogue) as s:
+        return s.vet(incumbent, design, **kwargs)
 
 
 def compare_parts(
@@ -366,12 +494,9 @@ def compare_parts(
     design: Design | str | None = None,
     **kwargs: Any,
 ) -> Comparison:
-    """Two to four parts side by side (optionally in ``design``)."""
-    from partsel.solver.substitute import compare_parts as _compare
-
-    if design is not None and not isinstance(design, Design):
-        design = load_design(design)
-    return _compare(catalogue_frame(catalogue), list(parts), design, **kwargs)
+    """Two to four parts side by side (see :meth:`Session.compare`)."""
+    with Session(catalogue) as s:
+        return s.compare(parts, design, **kwargs)
 
 
 def check_bom(
@@ -380,18 +505,6 @@ def check_bom(
     design: Design | str | None = None,
     **kwargs: Any,
 ) -> BomReport:
-    """Check every line of a BOM (CSV path, bytes, stream or frame) against the catalogue and
-    the maker's suffix rules; per-line design files are read with :func:`load_design`."""
-    from partsel.catalogue import makers
-    from partsel.solver.bom import check_bom as _check
-
-    own = catalogue is None or isinstance(catalogue, str)
-    engine = open_catalogue(catalogue) if own else catalogue
-    try:
-        if design is not None and not isinstance(design, Design):
-            design = load_design(design)
-        kwargs.setdefault("design_loader", load_design)
-        return _check(parts_frame(engine), bom, makers(engine), design, **kwargs)
-    finally:
-        if own:
-            engine.dispose()
+    """Check every line of a BOM (see :meth:`Session.check_bom`)."""
+    with Session(catalogue) as s:
+        return s.check_bom(bom, design, **kwargs)

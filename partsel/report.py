@@ -1,86 +1,92 @@
-"""Readable text reports of predictions (one writer, used by the command line and the UI)."""
+"""Readable text report of a prediction (one writer, used by the command line and the UI).
+
+The report formats the documented JSON of a prediction (:meth:`partsel.api.Prediction.part`):
+the ranking's verdict, conduction verdict, glitch and THD estimate, the one fix decision and
+its rule, every check in words, and the simulation. Values are formatted by
+:mod:`partsel.present`.
+"""
 
 from __future__ import annotations
 
 import math
 from typing import Any
 
-from partsel.units import format_si
+from partsel import present as P
+
+_VERDICT = {
+    "feasible": "FEASIBLE",
+    "feasible-with-fix": "FEASIBLE WITH THE FIX RESISTOR",
+    "rejected": "REJECTED",
+}
 
 
-def _q(value: float | None, unit: str, digits: int = 3) -> str:
-    if value is None or (isinstance(value, float) and not math.isfinite(value)):
-        return "—"
-    return format_si(value, unit, digits)
+def _q(value: float | None, unit: str) -> str:
+    return P.quantity(value, unit)
 
 
-def _pct(value: float | None, digits: int = 3) -> str:
-    if value is None:
-        return "—"
-    return f"{100 * value:.{digits}g} %"
-
-
-def _ok(flag: bool) -> str:
-    return "ok" if flag else "FAIL"
+def _checks_line(rows: list[dict[str, Any]], name: str) -> dict[str, Any]:
+    return next(r for r in rows if r["check"] == name)
 
 
 def prediction_text(d: dict[str, Any]) -> str:
-    """Format one prediction (``PartPrediction.to_dict()``) for people."""
-    c, ch, fx, sim, simf = (
-        d["crossover"],
-        d["checks"],
-        d["fix"],
-        d.get("simulation"),
-        d.get("simulation_fixed"),
-    )
+    """Format one prediction (:meth:`partsel.api.Prediction.part`) for people."""
+    c, fx, sim, simf = d["prediction"], d["fix"], d.get("simulation"), d.get("simulation_fixed")
+    opts = d["options"]
+    rows = d.get("checks") or []
     lines = [
-        f'{d["part_number"]} ({d["maker"]}, {d["topology"]}) in "{d["design"]}" — '
-        f"basis: {d['basis']}"
+        f'{d["part_number"]} ({d["maker"]}, {d["topology"]}) in "{d["design"]["name"]}" — '
+        f"basis: {opts['basis']} ({opts['basis_source']})"
     ]
-    verdict = {
-        "changes-mode": "CHANGES CONDUCTION MODE",
-        "marginal": "MARGINAL: stays in source mode with little current",
-        "biased-crossover": "biased crossover (class-AB stage shares the current)",
-        "one-mode": "stays in one conduction mode",
-    }[c["verdict"]]
-    lines.append(f"  Conduction  {verdict}")
+    verdict = _VERDICT[d["verdict"]]
+    if d["verdict"] == "rejected" and d.get("binding"):
+        b = d["binding"]
+        verdict += f" — binding: {P.check_label(b['check'])}: {b['message']}"
+    lines.append(f"  Verdict     {verdict}")
+    failing = [r for r in rows if r["status"] in ("fail", "unknown")]
+    for r in failing:
+        if d.get("binding") and r["check"] == d["binding"]["check"]:
+            continue
+        lines.append(f"              also fails {P.check_label(r['check'])}: {r['message']}")
+    lines.append(f"  Conduction  {P.CONDUCTION_TEXT[c['conduction']].upper()}")
     lines.append(
         f"              output current {_q(c['i_out_min_a'], 'A')} … {_q(c['i_out_max_a'], 'A')},"
-        f" stage current {_q(c['stage_current_a'], 'A')},"
-        f" least source-device current {_q(c['min_source_a'], 'A')}"
+        f" stage current {_q(c['stage_current_a'], 'A')} ({c['stage_current_side']}),"
+        f" least source-device current {_q(c['min_source_current_a'], 'A')}"
     )
     if c["handover"]:
+        phase = c["handover_phase_deg"]
         lines.append(
-            f"              handover at {_q(c['handover_out_v'], 'V')} on the falling edge "
-            f"(phase {c['handover_phase_deg']:.0f}°); flat step at {_q(c['flat_level_v'], 'V')}"
+            f"              handover at {_q(c['handover_level_v'], 'V')} on the falling edge"
+            + (f" (phase {phase:.0f}°)" if phase is not None else "")
+            + f"; flat step at {_q(c['flat_level_v'], 'V')}"
         )
         if d["topology"] == "class-a":
             lines.append(
                 f"  Clipping    the output cannot sink more than the bias current: it flattens "
                 f"{_q(c['glitch_v'], 'V')} above the ideal trough, THD ≈ "
-                f"{_pct(c['thd_estimate'], 2)} (estimate)"
+                f"{P.thd(c['thd_estimate'])} (estimate)"
             )
         else:
             lines.append(
                 f"  Glitch      dead-band crossing {_q(c['handover_time_s'], 's')} at slope "
-                f"{_q(c['slope_v_per_s'], 'V/s')}: glitch ≈ {_q(c['glitch_v'], 'V')} "
-                f"(closed form), THD ≈ {_pct(c['thd_estimate'], 2)} (estimate)"
+                f"{P.si(c['slope_v_per_s'], 'V/s')}: glitch ≈ {_q(c['glitch_v'], 'V')} "
+                f"(closed form), THD ≈ {P.thd(c['thd_estimate'])} (estimate)"
             )
-    elif d["topology"] in ("class-a", "class-b-pulldown") and c["thd_estimate"] > 0:
+    elif d["topology"] in ("class-a", "class-b-pulldown") and (c["thd_estimate"] or 0) > 0:
         lines.append(
-            f"  Distortion  one conduction mode: THD ≈ {_pct(c['thd_estimate'], 2)} (estimate "
+            f"  Distortion  one conduction mode: THD ≈ {P.thd(c['thd_estimate'])} (estimate "
             "from the follower's device law and the loop gain"
-            + ("; low for a marginal stage" if c["verdict"] == "marginal" else "")
+            + ("; low for a marginal stage" if c["conduction"] == "marginal" else "")
             + ")"
         )
     if c["biased_crossover"]:
         lines.append(
             f"  Residual    biased stage: crossover THD_F at most about "
-            f"{_pct(c['thd_estimate'], 2)} (a bound from the loop gain, not a prediction)"
+            f"{P.thd(c['thd_estimate'])} (a bound from the loop gain, not a prediction)"
         )
     if sim:
         lines.append(
-            f"  Simulation  THD_F {_pct(sim['thd_f'])}, peak residual "
+            f"  Simulation  THD_F {P.percent(sim['thd_f'], 3)}, peak residual "
             f"{_q(sim['residual_peak_v'], 'V')}, "
             + (
                 "output current changes sign"
@@ -94,65 +100,64 @@ def prediction_text(d: dict[str, Any]) -> str:
             )
             + f" ({sim['steps_per_period']} steps/period)"
         )
-    lines.append(
-        f"  Swing       headroom margin {_q(ch['swing_pos_margin_v'], 'V')} to V+, "
-        f"{_q(ch['swing_neg_margin_v'], 'V')} to V- (at the current flowing)"
-    )
-    lines.append(
-        f"  Input CM    margin {_q(ch['cm_low_margin_v'], 'V')} above the low limit, "
-        f"{_q(ch['cm_high_margin_v'], 'V')} below the high limit"
-    )
-    lines.append(
-        f"  Slew        needs {_q(ch['slew_required_v_per_s'], 'V/s')}, has "
-        f"{ch['slew_margin_ratio']:.3g}× that; full-power bandwidth "
-        f"{_q(ch['full_power_bw_hz'], 'Hz')}"
-        if ch["slew_margin_ratio"] is not None
-        else "  Slew        —"
-    )
-    ge = ch["gain_error"]
-    lines.append(
-        f"  Bandwidth   closed loop {_q(ch['closed_loop_bw_hz'], 'Hz')}, gain error "
-        f"{_pct(ge, 2) if ge is not None else '—'} at the signal frequency"
-    )
-    extra = []
-    if not ch["cap_load_ok"]:
-        extra.append(f"load capacitance {ch['cap_load_ratio']:.3g}× the stated limit")
-    if not ch["stable_at_gain"]:
-        extra.append("not stable at this noise gain")
-    if not ch["supply_in_range"]:
-        extra.append("supply outside the part's range")
-    if not ch["source_limit_ok"]:
-        extra.append("source current limit exceeded")
-    if not ch["sink_limit_ok"]:
-        extra.append("sink current limit exceeded")
-    lines.append("  Flags       " + ("; ".join(extra) if extra else "none"))
-    lines.append(
-        f"  Power       supply {_q(ch['supply_current_a'], 'A')}, dissipation "
-        f"{_q(ch['dissipation_w'], 'W')}, T_j {ch['t_junction_c']:.1f} °C"
-        if ch["t_junction_c"] is not None
-        else f"  Power       supply {_q(ch['supply_current_a'], 'A')}, dissipation "
-        f"{_q(ch['dissipation_w'], 'W')}"
-    )
-    rec = fx["recommended"]
-    if rec == "not-needed":
-        lines.append("  Fix         not needed")
-    elif rec == "none":
-        reasons = "; ".join(r for r in (fx["negative"]["reason"], fx["positive"]["reason"]) if r)
-        lines.append(f"  Fix         no resistor works: {reasons}")
-    else:
-        r = fx[rec]
+    if rows:
+        sw_hi, sw_lo = _checks_line(rows, "swing_high"), _checks_line(rows, "swing_low")
         lines.append(
-            f"  Fix         {_q(r['r_ohm'], 'ohm')} ({fx['series']}, ±{100 * fx['tolerance']:g} %)"
-            f" from the output to the {rec} rail (largest that works "
-            f"{_q(r['r_max_ohm'], 'ohm')}); costs {_q(r['extra_supply_a'], 'A')} supply, "
-            f"{_q(r['extra_dissipation_amp_w'], 'W')} in the amplifier; device peak "
-            f"{_q(r['device_peak_a'], 'A')} ({_ok(r['limit_ok'])}), swing {_ok(r['swing_ok'])}"
+            f"  Swing       margin {_q(sw_hi['margin'], 'V')} to V+, {_q(sw_lo['margin'], 'V')}"
+            " to V− (at the current flowing)"
         )
-        if simf:
-            lines.append(
-                f"              with the fix: THD_F {_pct(simf['thd_f'])}, handover "
-                f"{'yes' if simf['handover'] else 'no'}"
-            )
-    used = d["values_used"]
-    lines.append("  Values      " + ", ".join(f"{k}={v}" for k, v in sorted(used.items())))
+        lo, hi = _checks_line(rows, "input_cm_low"), _checks_line(rows, "input_cm_high")
+        lines.append(
+            f"  Input CM    margin {_q(lo['margin'], 'V')} above the low limit, "
+            f"{_q(hi['margin'], 'V')} below the high limit"
+        )
+        sl = _checks_line(rows, "slew")
+        lines.append(
+            f"  Slew        needs {_q(sl['limit'], 'V/s')}, has {_q(sl['value'], 'V/s')} "
+            f"({P.ratio(sl['ratio'])})"
+        )
+        bw, ge = _checks_line(rows, "bandwidth"), _checks_line(rows, "gain_error")
+        lines.append(
+            f"  Bandwidth   closed loop {_q(bw['value'], 'Hz')}, gain error "
+            f"{P.percent(ge['value'], 2)} at the signal frequency"
+        )
+        sc, tj = _checks_line(rows, "supply_current"), _checks_line(rows, "junction_temp")
+        lines.append(
+            f"  Power       supply {_q(sc['value'], 'A')}"
+            + (f", T_j {_q(tj['value'], 'degC')}" if tj["value"] is not None else "")
+            + (" (with the fix)" if fx["applied"] else "")
+        )
+    lines.extend(fix_lines(fx, simf))
+    used = d.get("values_used") or {}
+    if used:
+        lines.append("  Values      " + ", ".join(f"{k}={v}" for k, v in sorted(used.items())))
     return "\n".join(lines)
+
+
+def fix_lines(fx: dict[str, Any], simf: dict[str, Any] | None = None) -> list[str]:
+    """The fix of a part (its ``fix`` JSON) for people: value, rail, rule, costs."""
+    if not fx["needed"]:
+        return ["  Fix         not needed"]
+    if not fx["works"]:
+        return [f"  Fix         no resistor works: {fx['reason'] or 'none found'}"]
+    rail = fx["rail"]
+    r = fx[rail]
+    out = [
+        f"  Fix         {_q(fx['resistance_ohm'], 'ohm')} ({fx['series']}, "
+        f"±{100 * fx['tolerance']:g} %) from the output to {P.rail(rail)} (largest that works "
+        f"{_q(fx['max_resistance_ohm'], 'ohm')}); costs {_q(r['extra_supply_a'], 'A')} supply, "
+        f"{_q(r['extra_dissipation_amp_w'], 'W')} in the amplifier; device peak "
+        f"{_q(r['device_peak_a'], 'A')}",
+        f"              rule: {fx['rule']}",
+    ]
+    thd = fx.get("thd_estimate_with_fix")
+    if thd is not None and math.isfinite(thd):
+        out.append(f"              with the fix: THD ≈ {P.thd(thd)} (estimate)")
+    if simf:
+        out.append(
+            f"              with the fix, simulated: THD_F {P.percent(simf['thd_f'], 3)}, "
+            f"handover {'yes' if simf['handover'] else 'no'}"
+        )
+    if fx["applied"]:
+        out.append("              the verdict is for the part with this resistor fitted")
+    return out

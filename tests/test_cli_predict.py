@@ -34,31 +34,42 @@ def test_every_sample_part_in_every_sample_design_predicts(loaded, design):
     assert len(rows) >= 40
     Draft202012Validator(SCHEMA).validate(rows)
     for row in rows:
-        # The fix is only ever recommended for a stage that needs it.
-        if row["fix"]["recommended"] in ("negative", "positive"):
-            assert row["fix"]["needed"]
-            chosen = row["fix"][row["fix"]["recommended"]]
+        # The fix is only ever recommended for a stage that needs it, and it works.
+        fix = row["fix"]
+        if fix["rail"] in ("negative", "positive"):
+            assert fix["needed"] and fix["works"]
+            chosen = fix[fix["rail"]]
             assert chosen["works"] and chosen["r_ohm"] <= chosen["r_max_ohm"]
+            assert chosen["r_ohm"] == fix["resistance_ohm"]
+            assert fix["rule"]
+        if not fix["needed"]:
+            assert fix["works"] is None and fix["rail"] is None
 
 
 def test_predict_with_simulation_report_and_json(loaded):
     design = PROJECT / "sample-catalog" / "designs" / "line-driver-5v.toml"
-    r = loaded("predict", design, "BRQ-622", "MWF-320", "--json")
+    r = loaded("predict", design, "BRQ-622", "MWF-320", "--json", "--basis", "typical")
     assert r.exit_code == 0, r.output
     rows = json.loads(r.stdout)
     Draft202012Validator(SCHEMA).validate(rows)
     b, ab = rows
     # Class B with pull-down into an AC-coupled 2 kohm load hands over; the class-AB part
     # does not, and its simulated THD is far lower (common practice).
-    assert b["crossover"]["handover"] and b["simulation"]["handover"]
-    assert not ab["crossover"]["handover"]
+    assert b["prediction"]["handover"] and b["simulation"]["handover"]
+    assert not ab["prediction"]["handover"]
     assert ab["simulation"]["thd_f"] < 0.01 * b["simulation"]["thd_f"]
+    # The basis as overridden, said with where it came from; the design's own otherwise.
+    assert b["basis"] == "typical" and b["options"]["basis_source"] == "override"
+    r = loaded("predict", design, "BRQ-622", "--json", "--no-sim")
+    own = json.loads(r.stdout)[0]
+    assert own["basis"] == "worst-case" and own["options"]["basis_source"] == "design file"
     # With the recommended fix the simulated stage no longer changes mode.
-    assert b["fix"]["recommended"] == "negative"
+    assert b["fix"]["rail"] in ("negative", "positive")
     assert b["simulation_fixed"]["handover"] is False
     text = loaded("predict", design, "BRQ-622")
     assert text.exit_code == 0
     assert "CHANGES CONDUCTION MODE" in text.stdout and "Fix" in text.stdout
+    assert "basis: worst-case (design file)" in text.stdout and "rule:" in text.stdout
     assert "estimates" in text.stderr.lower() or "estimate" in text.stdout.lower()
 
 
@@ -108,7 +119,7 @@ def test_readme_python_prediction_example_runs(tmp_path):
 
     text = (PROJECT / "README.md").read_text(encoding="utf-8")
     blocks = re.findall(r"```python\n(.*?)```", text, flags=re.DOTALL)
-    code = next(b for b in blocks if "ps.rank(" in b)
+    code = next(b for b in blocks if "session.rank(" in b)
     env = dict(os.environ, XDG_DATA_HOME=str(tmp_path / "data"), HOME=str(tmp_path))
     env.pop("PARTSEL_DB", None)
     work = tmp_path / "work"
@@ -125,5 +136,8 @@ def test_readme_python_prediction_example_runs(tmp_path):
         timeout=300,
     )
     assert r.returncode == 0, r.stderr
-    assert "BRQ-622 changes-mode" in r.stdout and "BRQ-722 biased-crossover not-needed" in r.stdout
-    assert "feasible" in r.stdout
+    # the obsolete BRQ-622 hands over and is rejected (the design accepts active parts only);
+    # its fix is still sized and stated with its rule; the class-AB BRQ-722 needs none
+    assert "BRQ-622 rejected changes-mode" in r.stdout and "fix " in r.stdout
+    assert "BRQ-722 rejected biased-crossover None" in r.stdout
+    assert "feasible on the worst-case basis" in r.stdout

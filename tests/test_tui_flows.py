@@ -37,6 +37,7 @@ from test_tui_support import (
 
 from partsel.catalogue import get_part, parts_frame, read_and_validate
 from partsel.design import design_from_mapping, design_to_mapping, load_design
+from partsel.present import check_label
 from partsel.solver import PartTable, rank
 from partsel.solver.export import ranking_frame
 
@@ -167,8 +168,8 @@ def test_bad_value_refused_last_ranking_stays(tui_engine: Any, tmp_path: Path) -
 def test_compare_and_replacement_views(tui_engine: Any, tmp_path: Path) -> None:
     """Mark two parts, open the compare view: the cheaper part's price is marked better (▲) and
     the dearer one's worse (▼), prices as in the catalogue files. Then the replacement view
-    for the obsolete BRQ-622 lists BRQ-622A as a drop-in replacement, as the catalogue's own
-    note on BRQ-622 says."""
+    for the obsolete BRQ-622 lists BRQ-622A (its replacement by the catalogue's own note on
+    BRQ-622) for review: in the sample design it fails the swing to V+ like BRQ-622 itself."""
     app = make_app(tui_engine, tmp_path)
 
     async def scenario(pilot: Any) -> None:
@@ -209,10 +210,14 @@ def test_compare_and_replacement_views(tui_engine: Any, tmp_path: Path) -> None:
         assert isinstance(rep, ReplacementScreen) and rep.vetting is not None
         assert "BRQ-622A" in sample_record("BRQ-622")["notes"]
         cand = {c.part_number: c for c in rep.vetting.candidates}
-        assert cand["BRQ-622A"].verdict == "drop-in"
+        # In the sample design BRQ-622A fails the swing to V+ like the incumbent: a part that
+        # fails the circuit is never a drop-in, and the reason says it fails like BRQ-622.
+        c = cand["BRQ-622A"]
+        assert c.verdict == "review"
+        assert any("like the incumbent" in r.message for r in c.reasons if r.severity == "review")
         rtable = rep.query_one("#candidates")
         row = [str(c) for c in rtable.get_row("BRQ-622A")]
-        assert "drop-in" in row[2] and "✓" in row[2]
+        assert "review" in row[2] and "✓" not in row[2]
         await pilot.press("escape")
 
     drive(app, scenario)
@@ -341,7 +346,7 @@ def test_sort_filter_basis_and_rejected(tui_engine: Any, tmp_path: Path) -> None
             i = r.index(pn)
             if not r.feasible[i]:
                 cell = str(pane.table.get_row_at(k)[3])
-                assert cell.startswith("✗ " + C.CHECKS[int(r.binding[i])].name.replace("_", " "))
+                assert cell.startswith("✗ " + check_label(C.CHECKS[int(r.binding[i])].name))
         pane.set_sort("price")
         await settle(pilot)
         prices = [sample_record(pn)["price"]["unit"] * math.ceil(2 / sample_record(pn)["channels"])

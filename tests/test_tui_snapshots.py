@@ -90,7 +90,7 @@ def test_part_screen_with_simulation(snap_compare: Any, tui_engine: Any, tmp_pat
     async def run_before(pilot: Any) -> None:
         await settle(pilot)
         app = pilot.app
-        # the simulation partsel.api.predict_frame gives (computed once per test session)
+        # the session's simulation of the part (computed once per test session)
         app._sims[app.prediction_key(("BRQ-622",))] = reference_prediction(app, "BRQ-622")
         app.simulate = True
         await _select(pilot, "BRQ-622")

@@ -107,21 +107,12 @@ def remember_prediction(app: Any, part_number: str, pred: Any) -> None:
 
 
 def reference_prediction(app: Any, part_number: str) -> Any:
-    """``partsel.api.predict_frame`` of one part in the app's current design and requirements
-    (once per test session: the time-domain simulation is the slow part)."""
-    from partsel.api import predict_frame, select_parts
-
+    """The session's prediction (:meth:`partsel.api.Session.predict`) of one part in the app's
+    current ranking (once per test session: the time-domain simulation is the slow part)."""
     key = _prediction_key(app, part_number)
     for k, pred in _PREDICTIONS:
         if k == key:
             return pred
-    req = app.ranking.requirements
-    pred = predict_frame(
-        select_parts(app.frame, [part_number]),
-        app.design,
-        basis=req.basis,
-        series=req.fix_series,
-        margin=req.limit("min_source_fraction"),
-    )
+    pred = app.session.predict(app.design, [part_number], ranking=app.ranking)
     _PREDICTIONS.append((key, pred))
     return pred

@@ -53,6 +53,7 @@ class AppState:
     read_only: bool = False
     user: str | None = None
     _engine: Engine | None = field(default=None, repr=False)
+    _session: Any = field(default=None, repr=False)
 
     def engine(self) -> Engine:
         """The catalogue engine (opened, migrated and, the first time, filled on first call)."""
@@ -73,8 +74,18 @@ class AppState:
             raise typer.Exit(ExitCode.BAD_INPUT)
         return self.engine()
 
+    def session(self) -> Any:
+        """The evaluation session (:class:`partsel.api.Session`) over this invocation's
+        catalogue: every prediction, ranking, vetting and BOM check goes through it."""
+        if self._session is None:
+            from partsel.api import Session
+
+            self._session = Session(self.engine())
+        return self._session
+
     def close(self) -> None:
         """Dispose of the engine, if one was opened."""
+        self._session = None
         if self._engine is not None:
             self._engine.dispose()
             self._engine = None
@@ -92,6 +103,11 @@ def state(ctx: typer.Context) -> AppState:
 def engine(ctx: typer.Context) -> Engine:
     """The catalogue engine selected by ``--db`` / ``$PARTSEL_DB`` / the default file."""
     return state(ctx).engine()
+
+
+def session(ctx: typer.Context) -> Any:
+    """The :class:`partsel.api.Session` of this invocation (see :meth:`AppState.session`)."""
+    return state(ctx).session()
 
 
 def writable_engine(ctx: typer.Context, what: str) -> Engine:

@@ -17,8 +17,8 @@ from partsel.cli.common import (
     bad_input_exits,
     database_errors_exit,
     echo_json,
-    engine,
     message,
+    session,
 )
 from partsel.errors import InputError
 from partsel.report import prediction_text
@@ -27,17 +27,28 @@ DesignArg = Annotated[Path, typer.Argument(help="Design file (.toml, .yaml or .j
 PartsArg = Annotated[list[str] | None, typer.Argument(help="Part numbers (default: all).")]
 PartArg = Annotated[str, typer.Argument(help="Part number.")]
 BasisOpt = Annotated[
-    str, typer.Option("--basis", "-b", help="Value basis: 'typical' or 'worst-case'.")
+    str | None,
+    typer.Option(
+        "--basis",
+        "-b",
+        help="Value basis, overriding the design's: 'worst-case' or 'typical' (default: the "
+        "design's requirements.basis, else worst-case).",
+    ),
 ]
 SeriesOpt = Annotated[
-    str, typer.Option("--series", help="IEC 60063 series for the fix resistor (E6..E192).")
+    str | None,
+    typer.Option(
+        "--series",
+        help="IEC 60063 series for the fix resistor, E6..E192 (default: the design's "
+        "requirements.fix_series, else E24).",
+    ),
 ]
 MarginOpt = Annotated[
-    float,
+    float | None,
     typer.Option(
         "--margin",
-        help="Fraction of its stage current the device kept on must "
-        "still carry at the worst instant (fix sizing).",
+        help="Fraction of its stage current the device kept on must still carry at the worst "
+        "instant (default: the design's min_source_fraction, else 0.5).",
     ),
 ]
 
@@ -46,19 +57,16 @@ def _prediction(
     ctx: typer.Context,
     design_path: Path,
     parts: list[str] | None,
-    basis: str,
-    series: str,
-    margin: float,
+    basis: str | None,
+    series: str | None,
+    margin: float | None,
     run_sim: bool,
 ) -> api.Prediction:
-    design = api.load_design(design_path)
-    frame = api.catalogue_frame(engine(ctx))
-    if parts:
-        frame = api.select_parts(frame, parts)
-    if not 0.0 <= margin < 1.0:
-        raise InputError("margin must lie in [0, 1)", pointer="/margin")
-    return api.predict_frame(
-        frame, design, basis=basis, series=series, margin=margin, run_simulation=run_sim
+    """The session's prediction: the same verdict, fix and estimates as ``rank``."""
+    s = session(ctx)
+    design = s.load_design(design_path)
+    return s.predict(
+        design, parts or None, run_simulation=run_sim, basis=basis, series=series, margin=margin
     )
 
 
@@ -66,16 +74,19 @@ def predict(
     ctx: typer.Context,
     design: DesignArg,
     parts: PartsArg = None,
-    basis: BasisOpt = "typical",
-    series: SeriesOpt = "E24",
-    margin: MarginOpt = 0.5,
+    basis: BasisOpt = None,
+    series: SeriesOpt = None,
+    margin: MarginOpt = None,
     no_sim: Annotated[bool, typer.Option("--no-sim", help="Closed form only (fast).")] = False,
     json_out: JsonFlag = False,
 ) -> None:
-    """Predict crossover, glitch, THD, margins and the fix resistor of parts in a design."""
+    """Predict crossover, glitch, THD, margins and the fix resistor of parts in a design.
+
+    The verdict, the fix and the estimates are the ranking's for the same design and options.
+    """
     with bad_input_exits(json_out=json_out):
         pred = _prediction(ctx, design, parts, basis, series, margin, not no_sim)
-    rows = [p.to_dict() for p in pred.parts()]
+    rows = pred.parts()
     if json_out:
         echo_json(rows)
         return
@@ -90,9 +101,9 @@ def waveform(
     design: DesignArg,
     part: PartArg,
     out: Annotated[Path, typer.Option("--out", "-o", help="Output file, .png or .svg.")],
-    basis: BasisOpt = "typical",
-    series: SeriesOpt = "E24",
-    margin: MarginOpt = 0.5,
+    basis: BasisOpt = None,
+    series: SeriesOpt = None,
+    margin: MarginOpt = None,
 ) -> None:
     """Plot ideal and predicted output (handover marked, with the fix) and the spectrum."""
     from partsel.plots import waveform_figure
@@ -102,7 +113,7 @@ def waveform(
             raise InputError(f"{out}: the figure must be a .png or .svg file", pointer="/out")
         pred = _prediction(ctx, design, [part], basis, series, margin, True)
     path = waveform_figure(pred, 0, out)
-    message(f"wrote {path}")
+    message(f"wrote {path} ({pred.ranking.requirements.basis} basis)")
 
 
 def deck(
@@ -110,13 +121,13 @@ def deck(
     design: DesignArg,
     part: PartArg,
     out: Annotated[Path, typer.Option("--out", "-o", help="SPICE deck to write (.cir).")],
-    basis: BasisOpt = "typical",
+    basis: BasisOpt = None,
     with_fix: Annotated[
         bool, typer.Option("--with-fix", help="Add partsel's recommended fix resistor.")
     ] = False,
     periods: Annotated[int, typer.Option("--periods", help="Periods to simulate.")] = 3,
-    series: SeriesOpt = "E24",
-    margin: MarginOpt = 0.5,
+    series: SeriesOpt = None,
+    margin: MarginOpt = None,
 ) -> None:
     """Write a SPICE3 deck (ngspice runs it) of partsel's macro-model in the design's circuit."""
     from partsel.physics.spice import spice_deck
@@ -144,7 +155,7 @@ def deck(
         title=f"partsel macro-model of {pn} in {pred.design.name}",
     )
     out.write_text(text, encoding="utf-8")
-    message(f"wrote {out}")
+    message(f"wrote {out} ({pred.ranking.requirements.basis} basis)")
 
 
 def register(app: typer.Typer) -> None:

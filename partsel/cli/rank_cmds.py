@@ -14,37 +14,40 @@ from typing import Annotated, Any
 
 import numpy as np
 import typer
+from rich.markup import escape
 from rich.table import Table
 
-from partsel.catalogue import parts_frame
+from partsel import present as P
 from partsel.cli.common import (
     ExitCode,
     JsonFlag,
     bad_input_exits,
     database_errors_exit,
     echo_json,
-    engine,
     fail_bad_input,
     message,
     out_console,
+    session,
 )
-from partsel.design import load_design
 from partsel.errors import InputError
-from partsel.solver import PartTable, Ranking, Requirements, rank
+from partsel.report import fix_lines
+from partsel.solver import Ranking
 from partsel.solver import checks as C
 from partsel.solver.export import (
     CAUTION,
     THD_LABEL,
+    fix_dict,
+    options_dict,
     part_checks,
     part_dict,
     ranking_dict,
     ranking_frame,
     verdict_text,
 )
+from partsel.solver.messages import failing_messages
 from partsel.solver.pareto import dominators
 from partsel.solver.relax import part_relaxation
-from partsel.solver.requirements import BASES, LIMIT_BY_KEY
-from partsel.units import format_for_people, format_si
+from partsel.solver.requirements import LIMIT_BY_KEY
 
 DesignArg = Annotated[Path, typer.Argument(help="Design file (.toml, .yaml or .json).")]
 BasisOpt = Annotated[
@@ -58,37 +61,17 @@ BasisOpt = Annotated[
 
 
 def _solve(ctx: typer.Context, design_path: Path, basis: str | None) -> Ranking:
-    """Load the design and the catalogue, rank (InputError for bad input)."""
-    design = load_design(design_path)
-    req = Requirements.from_mapping(design.requirements, file=str(design_path), record=design.name)
-    if basis is not None:
-        if basis not in BASES:
-            raise InputError(f"unknown basis {basis!r}: use {' or '.join(BASES)}", pointer="/basis")
-        req = req.replace(basis=basis)
-    table = PartTable(parts_frame(engine(ctx)))
-    return rank(table, design, req)
+    """The session's ranking of the design (InputError for bad input)."""
+    s = session(ctx)
+    return s.rank(s.load_design(design_path), basis=basis)
 
 
 # ---- formatting for people --------------------------------------------------------------------
 
 
-def fmt_unit(value: float | None, unit: str) -> str:
-    """A value with its unit for people ('—' when missing)."""
-    return format_for_people(value, unit)
-
-
-def fmt_thd(x: float) -> str:
-    """THD as a percentage."""
-    return "—" if not math.isfinite(x) else f"{100 * x:.2g} %"
-
-
-#: Short topology labels for the table.
-_TOPO = {
-    "class-a": "A",
-    "class-b-pulldown": "B+pd",
-    "class-ab": "AB",
-    "cmos-rail-to-rail": "CMOS",
-}
+fmt_unit = P.quantity
+fmt_thd = P.thd
+_TOPO = P.TOPOLOGY_SHORT
 
 
 def _console() -> Any:
@@ -112,13 +95,10 @@ def _fix(r: Ranking, i: int) -> str:
     fx = r.fix
     if not fx.needed[i]:
         return "—"
-    if not fx.sized[i]:
-        return "not sized"
     if not fx.works[i]:
         return "none works"
-    rail = "V−" if fx.rail[i] == "negative" else "V+"
     mark = " ✓" if fx.applied[i] else ""
-    return f"{format_si(float(fx.r_ohm[i]), 'Ω')} to {rail}{mark}"
+    return f"{P.si(float(fx.r_ohm[i]), 'ohm', symbols=True)} to {P.rail(str(fx.rail[i]))}{mark}"
 
 
 def _miss(r: Ranking, i: int, j: int) -> str:
@@ -132,7 +112,7 @@ def _miss(r: Ranking, i: int, j: int) -> str:
         if c.name == "fix_resistor":
             return str(r.fix.reason[i]) or "no resistor works"
         return "not accepted"
-    text = f"{fmt_unit(float(m), c.unit)}"
+    text = f"{fmt_unit(float(m), P.difference_unit(c.display_unit))}"
     if math.isfinite(rt):
         text += f" (×{rt:.2f})"
     return text
@@ -158,7 +138,7 @@ def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
     ch = r.checks
     for i in rows:
         j = int(r.tightest[i])
-        tight = "—" if j < 0 else f"{C.CHECKS[j].name} ×{ch.ratio[i, j]:.2g}"
+        tight = "—" if j < 0 else f"{P.check_label(C.CHECKS[j].name)} ×{ch.ratio[i, j]:.2g}"
         t.add_row(
             str(r.rank[i]),
             str(r.table.part_number[i]),
@@ -168,7 +148,7 @@ def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
             _crossover(r, i),
             fmt_unit(float(r.prediction.glitch_v[i]), "V") if r.prediction.handover[i] else "—",
             fmt_thd(float(r.prediction.thd_estimate[i]))
-            + (f" →{fmt_thd(float(ch.value[i, C.IDX['thd']]))}" if r.fix.applied[i] else ""),
+            + (f" → {fmt_thd(float(ch.value[i, C.IDX['thd']]))}" if r.fix.applied[i] else ""),
             _fix(r, i),
             fmt_unit(float(ch.value[i, C.IDX["supply_current"]]), "A"),
             fmt_unit(float(ch.value[i, C.IDX["price"]]), "currency unit"),
@@ -188,7 +168,7 @@ def _miss_table(r: Ranking, rows: np.ndarray) -> Table:
             str(r.table.text("maker")[i]),
             _TOPO.get(str(r.table.topology[i]), str(r.table.topology[i])),
             str(int(r.n_failing[i])),
-            C.CHECKS[j].name,
+            P.check_label(C.CHECKS[j].name),
             _miss(r, i, j),
             _fix(r, i),
         )
@@ -202,7 +182,7 @@ def _hint_value(requirement: str, unit: str, value: Any) -> str:
         return value
     if requirement in LIMIT_BY_KEY and LIMIT_BY_KEY[requirement].dimension == "dimensionless":
         if requirement in ("max_thd", "max_gain_error"):
-            return f"{100 * value:.3g} %"
+            return P.percent(value, 3)
         return f"{value:.3g}"
     return fmt_unit(float(value), unit)
 
@@ -255,9 +235,9 @@ def rank_cmd(
     con = _console()
     req = r.requirements
     con.print(
-        f"[bold]{r.design.name}[/bold]: {r.n_feasible} of {r.n} parts feasible "
-        f"({req.basis} basis, conduction {req.conduction}; Pareto over "
-        f"{', '.join(req.pareto_objectives)})"
+        f"[bold]{escape(r.design.name)}[/bold]: {r.n_feasible} of {r.n} parts feasible "
+        f"({req.basis} basis from the {req.source('basis')}, conduction {req.conduction}; "
+        f"Pareto over {', '.join(req.pareto_objectives)})"
     )
     k = top or r.n
     feas = r.order[: min(k, r.n_feasible)]
@@ -312,7 +292,7 @@ def explain(
     if json_out:
         data = part_dict(r, i)
         data["design"] = {"name": r.design.name, "source": r.design.source}
-        data["basis"] = r.requirements.basis
+        data["options"] = options_dict(r)
         data["dominated_by"] = [str(r.table.part_number[k]) for k in dom]
         data["thd_definition"] = THD_LABEL
         data["relax"] = [
@@ -327,13 +307,17 @@ def explain(
 
 def _explain_text(r: Ranking, i: int, dom: np.ndarray, own_hints: list[Any]) -> None:
     con = _console()
-    t, req, p, fx = r.table, r.requirements, r.prediction, r.fix
+    t, req, p = r.table, r.requirements, r.prediction
     con.print(
         f"[bold]{t.part_number[i]}[/bold]  {t.text('maker')[i]} — {t.topology[i]}, "
         f"{int(t.channels[i]) if math.isfinite(t.channels[i]) else '?'} channel(s), "
         f"{t.lifecycle[i]}"
     )
-    con.print(f"design: {r.design.name} ({req.basis} basis, conduction {req.conduction})")
+    con.print(
+        f"design: {r.design.name} ({req.basis} basis from the {req.source('basis')}, "
+        f"conduction {req.conduction})",
+        markup=False,
+    )
     if r.feasible[i]:
         where = "in the Pareto set" if r.pareto[i] else "not in the Pareto set"
         con.print(
@@ -347,8 +331,10 @@ def _explain_text(r: Ranking, i: int, dom: np.ndarray, own_hints: list[Any]) -> 
         j = int(r.binding[i])
         con.print(
             f"verdict: [bold]rejected[/bold] by {int(r.n_failing[i])} check(s); binding: "
-            f"{C.CHECKS[j].name}, misses by {_miss(r, i, j)}"
+            f"{P.check_label(C.CHECKS[j].name)}, misses by {_miss(r, i, j)}"
         )
+        for name, text in failing_messages(r, i):
+            con.print(f"  {P.check_label(name)}: {text}", markup=False)
     cross = _crossover(r, i)
     line = f"handover (closed form): {cross}"
     if p.handover[i]:
@@ -362,19 +348,8 @@ def _explain_text(r: Ranking, i: int, dom: np.ndarray, own_hints: list[Any]) -> 
         f"  smallest source current {fmt_unit(float(p.min_source_a[i]), 'A')} "
         f"(stage current {fmt_unit(float(p.stage_current_a[i]), 'A')})"
     )
-    if fx.needed[i]:
-        if not fx.sized[i]:
-            con.print("fix: not sized (the part is rejected by other checks)")
-        elif fx.works[i]:
-            rail = "V−" if fx.rail[i] == "negative" else "V+"
-            con.print(
-                f"fix: {format_si(float(fx.r_ohm[i]), 'Ω')} ({fx.series}) to {rail} "
-                f"(largest that works {format_si(float(fx.r_max_ohm[i]), 'Ω')}), extra supply "
-                f"{fmt_unit(float(fx.extra_supply_a[i]), 'A')} per channel"
-                + ("; the verdict is with it fitted" if fx.applied[i] else "")
-            )
-        else:
-            con.print(f"fix: no resistor works ({fx.reason[i]})")
+    for line in fix_lines(fix_dict(r, i)):
+        con.print(line.strip() if line.startswith("  Fix") else line, markup=False)
     table = Table("check", "status", "value", "limit", "margin", "ratio", "values used")
     ch = r.checks
     for row, c in zip(part_checks(r, i), C.CHECKS, strict=True):
@@ -387,15 +362,15 @@ def _explain_text(r: Ranking, i: int, dom: np.ndarray, own_hints: list[Any]) -> 
             lim = "any" if row["limit"] is None else ", ".join(map(str, row["limit"]))
             margin = ratio = ""
         else:
-            value = fmt_unit(row["value"], c.unit)
-            lim = fmt_unit(row["limit"], c.unit)
-            margin = fmt_unit(row["margin"], c.unit)
+            value = fmt_unit(row["value"], c.display_unit)
+            lim = fmt_unit(row["limit"], c.display_unit)
+            margin = fmt_unit(row["margin"], P.difference_unit(c.display_unit))
             ratio = "—" if row["ratio"] is None else f"{row['ratio']:.3g}"
             if row["ratio"] is None and math.isinf(float(ch.ratio[i, C.IDX[c.name]])):
                 ratio = "∞"
         sides = " ".join(f"{k}:{v}" for k, v in row["values_used"].items() if v != "none")
-        table.add_row(c.name, f"[{style}]{status}[/]" if style else status, value, lim, margin,
-                      ratio, sides)  # fmt: skip
+        table.add_row(P.check_label(c.name), f"[{style}]{status}[/]" if style else status,
+                      value, lim, margin, ratio, sides)  # fmt: skip
     con.print(table)
     if r.feasible[i]:
         st = Table("objective", "metric", "u (0 best)", "weight", title="Score")

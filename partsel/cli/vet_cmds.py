@@ -14,28 +14,25 @@ from typing import Annotated
 
 import typer
 
-from partsel import api
-from partsel.catalogue import makers as catalogue_makers
+from partsel import present as P
 from partsel.cli.common import (
     ExitCode,
     JsonFlag,
     bad_input_exits,
     database_errors_exit,
     echo_json,
-    engine,
     message,
+    session,
 )
 from partsel.design import load_design
 from partsel.errors import InputError
 from partsel.physics.circuit import Design
-from partsel.solver.bom import ROLES, BomReport, check_bom
+from partsel.solver.bom import ROLES, BomReport
 from partsel.solver.substitute import (
     CAUTION,
     Comparison,
     Vetting,
-    compare_parts,
     fmt,
-    vet_substitutes,
 )
 
 DesignOpt = Annotated[
@@ -61,14 +58,6 @@ def _design(path: Path | None) -> Design | None:
     return load_design(path) if path is not None else None
 
 
-def _basis(basis: str | None, design: Design | None) -> str:
-    if basis is not None:
-        return basis
-    req = design.requirements if design is not None else None
-    got = req.get("basis") if isinstance(req, dict) else None
-    return got if got in ("worst-case", "typical") else "worst-case"
-
-
 # ---- vet --------------------------------------------------------------------------------------
 
 
@@ -78,18 +67,21 @@ def vetting_text(v: Vetting, *, details: bool = False) -> str:
     pk = ", ".join(f"{c}:{p}" for c, p in inc.packages)
     head = (
         f"Substitutes for {inc.part_number} ({inc.maker}; {inc.topology}, {inc.channels} "
-        f"channel(s), {pk}; {inc.lifecycle}) - basis: {v.basis}"
+        f"channel(s), {pk}; {inc.lifecycle}) — basis: {v.basis}"
     )
     if v.design_name:
         head += f'; design: "{v.design_name}"'
     if v.package:
         head += f"; package {v.package}"
-    lines = [head, f"  {v.considered} part(s) examined, {len(v.candidates)} listed"]
-    if v.incumbent_circuit is not None:
-        fails = [r["check"] for r in v.incumbent_circuit if r["ok"] is False]
+    lines = [head, f"  {v.considered} part(s) examined, {len(v.candidates)} listed, {v.sort}"]
+    lines.append(f"  tolerances: {v.tolerances}")
+    if v.incumbent_in_circuit is not None:
+        ev = v.incumbent_in_circuit
+        fails = [P.check_label(f["check"]) for f in ev["failing"]]
         lines.append(
-            "  the incumbent in this circuit: "
-            + (("fails " + ", ".join(fails)) if fails else "passes every check")
+            f"  the incumbent in this circuit: {P.VERDICT_TEXT[ev['verdict']]}"
+            + (("; fails " + ", ".join(fails)) if fails else "")
+            + f"; fix {P.fix_phrase(ev['fix'])}"
         )
     for k, c in enumerate(v.candidates, 1):
         p = c.part
@@ -97,9 +89,15 @@ def vetting_text(v: Vetting, *, details: bool = False) -> str:
         n = c.counts()
         lines.append("")
         lines.append(
-            f"{k:3d}. {c.part_number:<12} {c.verdict:<18} ({p.maker}, {p.topology}, "
-            f"{p.lifecycle}{price})"
+            f"{k:3d}. {c.part_number:<12} {P.SUBSTITUTE_TEXT[c.verdict]:<18} ({p.maker}, "
+            f"{p.topology}, {p.lifecycle}{price})"
         )
+        if c.in_circuit is not None:
+            ev = c.in_circuit
+            lines.append(
+                f"       in this circuit: {P.VERDICT_TEXT[ev['verdict']]}, THD estimate "
+                f"{P.thd(ev['thd_estimate'])}, fix {P.fix_phrase(ev['fix'])}"
+            )
         lines.append(
             f"       better {n['better']}, equal {n['equal']}, worse {n['worse']}, "
             f"unknown {n['unknown']}"
@@ -116,7 +114,7 @@ def vetting_text(v: Vetting, *, details: bool = False) -> str:
                     else (f"{f.side_candidate}/{f.side_incumbent}")
                 )
                 lines.append(
-                    f"         {f.key:<18} {fmt(f.candidate, f.unit):>12} vs "
+                    f"         {P.param_label(f.key):<34} {fmt(f.candidate, f.unit):>12} vs "
                     f"{fmt(f.incumbent, f.unit):>12}  {f.change:<7} [{side}]"
                 )
     if not v.candidates:
@@ -147,12 +145,10 @@ def vet(
         d = _design(design)
         if top < 0:
             raise InputError("--top must be 0 or more", pointer="/top")
-        frame = api.catalogue_frame(engine(ctx))
-        v = vet_substitutes(
-            frame,
+        v = session(ctx).vet(
             incumbent,
             d,
-            _basis(basis, d),  # type: ignore[arg-type]
+            basis=basis,
             candidates=only or None,
             package=package,
             include_unsuitable=all_,
@@ -170,8 +166,11 @@ def vet(
 # ---- compare ----------------------------------------------------------------------------------
 
 
-#: Units shown with an engineering prefix (others, such as a currency, are shown as given).
-_SI_UNITS = frozenset({"V", "A", "Hz", "V/s", "F", "V/rtHz", "degC", "K/W", "V/V", "1", "ohm"})
+#: Units :func:`partsel.present.quantity` formats (others, such as a currency, are shown as
+#: given).
+_KNOWN_UNITS = frozenset(
+    {"V", "A", "Hz", "V/s", "F", "V/rtHz", "degC", "K", "K/W", "V/V", "1", "ohm", "%", "W", ""}
+)
 
 
 def comparison_text(cmp: Comparison) -> str:
@@ -188,7 +187,7 @@ def comparison_text(cmp: Comparison) -> str:
         cells = []
         for k, v in enumerate(r.values):
             if isinstance(v, float):
-                text = fmt(v, r.unit) if r.unit in _SI_UNITS else f"{v:g} {r.unit}".strip()
+                text = P.quantity(v, r.unit) if r.unit in _KNOWN_UNITS else f"{v:g} {r.unit}"
             else:
                 text = str(v)
             if r.ok is not None and r.ok[k] is False:
@@ -196,7 +195,7 @@ def comparison_text(cmp: Comparison) -> str:
             if k in r.best:
                 text += " *"
             cells.append(text if len(text) <= width - 1 else text[: width - 2] + "~")
-        out.append(f"  {r.key:<32}" + "".join(f"{c:>{width}}" for c in cells))
+        out.append(f"  {r.label:<32}" + "".join(f"{c:>{width}}" for c in cells))
     out.append("* best of the parts shown; ! fails the check in the design")
     return "\n".join(out)
 
@@ -211,8 +210,7 @@ def compare(
     """Compare two to four parts side by side (and in a design, with --design)."""
     with bad_input_exits(json_out=json_out):
         d = _design(design)
-        frame = api.catalogue_frame(engine(ctx))
-        cmp = compare_parts(frame, parts, d, _basis(basis, d))  # type: ignore[arg-type]
+        cmp = session(ctx).compare(parts, d, basis=basis)
     if json_out:
         echo_json(cmp.to_dict())
     else:
@@ -311,16 +309,11 @@ def bom_check(
             raise InputError("--substitutes must be 0 or more", pointer="/substitutes")
         cols = _column_map(column)
         d = _design(design)
-        eng = engine(ctx)
-        frame = api.catalogue_frame(eng)
-        rep = check_bom(
-            frame,
+        rep = session(ctx).check_bom(
             bom,
-            catalogue_makers(eng),
             d,
-            cols,
-            basis=basis,  # type: ignore[arg-type]
-            design_loader=load_design,
+            columns=cols,
+            basis=basis,
             substitutes=substitutes,
             encoding=encoding,
             delimiter=delimiter,
@@ -330,7 +323,9 @@ def bom_check(
             try:
                 rep.write_csv(csv_out)
             except OSError as exc:
-                raise InputError(f"cannot write: {exc.strerror}", file=str(csv_out)) from None
+                raise InputError(
+                    f"cannot write the checked BOM: {exc.strerror or exc}", file=str(csv_out)
+                ) from None
     if csv_out is not None and str(csv_out) == "-":
         rep.write_csv(sys.stdout)  # type: ignore[arg-type]
     elif json_out:

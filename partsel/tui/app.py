@@ -1,10 +1,9 @@
-"""partsel's terminal UI: the app, its session state and its workers.
+"""partsel's terminal UI: the app, its workers and the screens' shared state.
 
-The app is a thin shell over the same API as the command line: the catalogue frame
-(:func:`partsel.api.catalogue_frame`), the solver (:func:`partsel.solver.rank` on a
-:class:`~partsel.solver.PartTable` built once per catalogue), the prediction with the
-time-domain simulation (:func:`partsel.api.predict_frame`), the solver's export writer
-(:mod:`partsel.solver.export`) and the catalogue store. No physics or SQL here.
+The app is a thin shell over the same evaluation session as the command line
+(:class:`partsel.api.Session`: the part table read once, the design's basis and limits, the
+ranking, the prediction with its simulation, vetting and comparison), the solver's export
+writer (:mod:`partsel.solver.export`) and the catalogue store. No physics, checks or SQL here.
 
 Ranking runs in a thread worker (``exclusive=True``: a newer design cancels a stale run,
 whose result is then dropped); so does the simulation of the highlighted part, which is cached
@@ -28,12 +27,12 @@ from textual.binding import Binding, BindingType
 from textual.screen import Screen
 from textual.worker import get_current_worker
 
-from partsel.api import Prediction, catalogue_frame, predict_frame, select_parts
+from partsel.api import Prediction, Session
 from partsel.catalogue import find_sample_catalogue, get_part
 from partsel.design import design_from_mapping, load_design
 from partsel.errors import InputError
 from partsel.physics.circuit import Design
-from partsel.solver import PartTable, Ranking, Requirements, rank
+from partsel.solver import PartTable, Ranking
 from partsel.solver.export import ranking_dict, ranking_frame
 from partsel.tui.rows import RankingView
 from partsel.tui.theme import PARTSEL_THEME
@@ -69,25 +68,6 @@ def sample_designs(sample_dir: Path | None = None) -> list[Path]:
     if not sample_dir.is_dir():
         return []
     return sorted(p for p in sample_dir.iterdir() if p.suffix in (".toml", ".yaml", ".json"))
-
-
-def _predict(
-    frame: pd.DataFrame,
-    part_numbers: tuple[str, ...],
-    design: Design,
-    req: Requirements,
-    *,
-    simulate_fix: bool,
-) -> Prediction:
-    """The simulated prediction of some parts on the ranking's basis, series and margin."""
-    return predict_frame(
-        select_parts(frame, list(part_numbers)),
-        design,
-        basis=req.basis,
-        series=req.fix_series,
-        margin=req.limit("min_source_fraction"),
-        simulate_fix=simulate_fix,
-    )
 
 
 class PartselApp(App[None]):
@@ -130,8 +110,7 @@ class PartselApp(App[None]):
         if engine is None and frame is None:
             raise ValueError("give a catalogue engine or a parts frame")
         self.engine = engine
-        self.frame = frame if frame is not None else catalogue_frame(engine)
-        self.table = PartTable(self.frame)
+        self.session = Session(frame if frame is not None else engine)
         self.simulate = simulate
         self.samples = sample_designs(sample_dir)
         self.work_dir = work_dir or Path.cwd()
@@ -147,6 +126,16 @@ class PartselApp(App[None]):
         self._sims: OrderedDict[tuple[Any, ...], Prediction] = OrderedDict()
         self._records: dict[str, dict[str, Any] | None] = {}
         self._inflight: dict[str, tuple[Any, ...]] = {}
+
+    @property
+    def frame(self) -> pd.DataFrame:
+        """The parts frame of the session."""
+        return self.session.frame
+
+    @property
+    def table(self) -> PartTable:
+        """The part table of the session (every ranking uses it)."""
+        return self.session.table
 
     def _first_design(self, design: Design | str | Path | None) -> Design:
         if isinstance(design, Design):
@@ -232,8 +221,7 @@ class PartselApp(App[None]):
     def _rank(self, design: Design, table: PartTable, gen: int, t0: float) -> None:
         worker = get_current_worker()
         try:
-            req = Requirements.from_mapping(design.requirements)
-            r = rank(table, design, req)
+            r = self.session.rank(design)
             view = RankingView(r)
         except Exception as exc:  # an unexpected failure must not take the UI down
             if not worker.is_cancelled:
@@ -283,24 +271,18 @@ class PartselApp(App[None]):
         if key == self._inflight.get(group):
             return  # already on its way
         self._inflight[group] = key
-        req = self.ranking.requirements
-        self._simulate(key, self.frame, part_numbers, self.design, req, group=group)
+        self._simulate(key, part_numbers, self.ranking, group=group)
 
     @work(thread=True, exclusive=True, group="simulate", exit_on_error=False)
     def _simulate_worker(
-        self,
-        key: tuple[Any, ...],
-        frame: pd.DataFrame,
-        part_numbers: tuple[str, ...],
-        design: Design,
-        req: Requirements,
+        self, key: tuple[Any, ...], part_numbers: tuple[str, ...], ranking: Ranking
     ) -> None:
         worker = get_current_worker()
         time.sleep(SIMULATION_DELAY_S)
         if worker.is_cancelled:
             return
         try:
-            pred = _predict(frame, part_numbers, design, req, simulate_fix=True)
+            pred = self.session.predict(ranking.design, list(part_numbers), ranking=ranking)
         except Exception as exc:  # shown to the user; the UI stays up
             self.call_from_thread(self._forget, key)
             if not worker.is_cancelled:
@@ -311,16 +293,13 @@ class PartselApp(App[None]):
 
     @work(thread=True, exclusive=True, group="compare", exit_on_error=False)
     def _compare_worker(
-        self,
-        key: tuple[Any, ...],
-        frame: pd.DataFrame,
-        part_numbers: tuple[str, ...],
-        design: Design,
-        req: Requirements,
+        self, key: tuple[Any, ...], part_numbers: tuple[str, ...], ranking: Ranking
     ) -> None:
         worker = get_current_worker()
         try:
-            pred = _predict(frame, part_numbers, design, req, simulate_fix=False)
+            pred = self.session.predict(
+                ranking.design, list(part_numbers), ranking=ranking, simulate_fix=False
+            )
         except Exception as exc:
             if not worker.is_cancelled:
                 self.call_from_thread(self.notify, f"simulation failed: {exc}", severity="error")
@@ -329,18 +308,12 @@ class PartselApp(App[None]):
             self.call_from_thread(self._simulated, key, pred)
 
     def _simulate(
-        self,
-        key: tuple[Any, ...],
-        frame: pd.DataFrame,
-        pns: tuple[str, ...],
-        design: Design,
-        req: Requirements,
-        group: str,
+        self, key: tuple[Any, ...], pns: tuple[str, ...], ranking: Ranking, group: str
     ) -> None:
         if group == "compare":
-            self._compare_worker(key, frame, pns, design, req)
+            self._compare_worker(key, pns, ranking)
         else:
-            self._simulate_worker(key, frame, pns, design, req)
+            self._simulate_worker(key, pns, ranking)
 
     def _forget(self, key: tuple[Any, ...]) -> None:
         """``key`` is no longer being simulated."""
@@ -393,8 +366,7 @@ class PartselApp(App[None]):
         """Read the catalogue again (after an edit) and rank the design on it."""
         if self.engine is None:
             return
-        self.frame = catalogue_frame(self.engine)
-        self.table = PartTable(self.frame)
+        self.session.reload()
         self._sims.clear()
         self._records.clear()
         self.design_gen += 1

@@ -14,9 +14,9 @@ from typing import Literal
 
 import numpy as np
 
+from partsel import present as P
 from partsel.solver import Ranking
 from partsel.solver import checks as C
-from partsel.solver.export import verdict_text
 from partsel.solver.substitute import Comparison
 from partsel.tui import fmt
 
@@ -109,14 +109,16 @@ def compare_rows(r: Ranking, parts: list[int]) -> list[CompareRow]:
     rows.append(
         CompareRow(
             "conduction",
-            tuple(fmt.CONDUCTION_LABEL[verdict_text(r, i)] for i in parts),
+            tuple(fmt.CONDUCTION_LABEL[str(r.prediction.conduction[i])] for i in parts),
             group=g,
         )
     )
     glitch = [float(p.glitch_v[i]) if p.handover[i] else 0.0 for i in parts]
     rows.append(_row("glitch", [fmt.quantity(x, "V") for x in glitch], glitch, "min", g))
     thd = [float(p.thd_estimate[i]) for i in parts]
-    rows.append(_row("THD estimate", [fmt.percent(x) for x in thd], thd, "min", g))
+    rows.append(_row("THD estimate, as designed", [fmt.thd(x) for x in thd], thd, "min", g))
+    thd_v = [float(ch.value[i, C.IDX["thd"]]) for i in parts]
+    rows.append(_row("THD estimate, verdict", [fmt.thd(x) for x in thd_v], thd_v, "min", g))
     src = [float(p.min_source_a[i]) for i in parts]
     rows.append(_row("least source current", [fmt.quantity(x, "A") for x in src], src, "max", g))
     fix_text, fix_val = [], []
@@ -128,7 +130,7 @@ def compare_rows(r: Ranking, parts: list[int]) -> list[CompareRow]:
             fix_text.append(f"{fmt.quantity(fx.r_ohm[i], 'ohm')} to {fmt.rail_label(fx.rail[i])}")
             fix_val.append(float(fx.r_ohm[i]))
         else:
-            fix_text.append("none works" if fx.sized[i] else "not sized")
+            fix_text.append("none works")
             fix_val.append(0.0)
     rows.append(_row("fix resistor", fix_text, fix_val, "max", g))
 
@@ -146,7 +148,8 @@ def compare_rows(r: Ranking, parts: list[int]) -> list[CompareRow]:
         if all(math.isnan(v) for v in vals):
             continue
         texts = [
-            f"{fmt.quantity(ch.margin[i, j], c.unit)} {fmt.ratio(ch.ratio[i, j])}".strip()
+            f"{fmt.quantity(ch.margin[i, j], P.difference_unit(c.display_unit))} "
+            f"{fmt.ratio(ch.ratio[i, j])}".strip()
             for i in parts
         ]
         rows.append(_row(fmt.check_label(c.name), texts, vals, "max", g))

@@ -15,9 +15,9 @@ from functools import cached_property
 import numpy as np
 from rich.text import Text
 
+from partsel import present as P
 from partsel.solver import PartTable, Ranking
 from partsel.solver import checks as C
-from partsel.solver.export import verdict_text
 from partsel.tui import fmt
 
 #: Largest number of rows put into the table (the rest stay in the ranking; filter to narrow).
@@ -47,7 +47,11 @@ COLUMNS: tuple[Column, ...] = (
     Column("score", "Score", "Weighted score of the objectives, 0..100"),
     Column("handover", "Handover", "Predicted handover of the output stage (closed form)"),
     Column("glitch", "Glitch", "Predicted crossover glitch (closed form)"),
-    Column("thd", "THD est.", "THD_F estimate of the output stage (closed form)"),
+    Column(
+        "thd",
+        "THD est.",
+        "THD_F estimate of the output stage (closed form; with the fix where the verdict has it)",
+    ),
     Column("fix", "Fix R", "Fix resistor that keeps the stage in one mode (✓: verdict with it)"),
     Column("supply", "Supply I", "Supply current for the design's channels"),
     Column("price", "Price", "Price for the design's channels"),
@@ -142,7 +146,7 @@ class RankingView:
         if column == "glitch":
             return np.where(p.handover, p.glitch_v, 0.0)
         if column == "thd":
-            return p.thd_estimate
+            return ch.value[:, C.IDX["thd"]]
         if column == "fix":
             return np.where(fx.needed, fx.r_ohm, np.inf)
         if column == "supply":
@@ -208,7 +212,7 @@ class RankingView:
 
     def handover_cell(self, i: int) -> Text:
         """The output level of the handover, or the stage's state."""
-        v = verdict_text(self.r, i)
+        v = str(self.r.prediction.conduction[i])
         if v == "changes-mode":
             lvl = self.r.prediction.handover_out_v[i]
             label = f"{fmt.WARN} at {fmt.quantity(lvl, 'V')}" if fmt.finite(lvl) else "yes"
@@ -222,8 +226,6 @@ class RankingView:
         fx = self.r.fix
         if not fx.needed[i]:
             return Text("—")
-        if not fx.sized[i]:
-            return Text("not sized", style="dim")
         if not fx.works[i]:
             return Text(f"{fmt.BAD} none works", style="red")
         mark = f" {fmt.OK}" if fx.applied[i] else ""
@@ -243,7 +245,8 @@ class RankingView:
         if c.sense == "is" or not math.isfinite(m):
             what = str(r.fix.reason[i]) if c.name == "fix_resistor" else "not accepted"
             return Text(f"{fmt.check_label(c.name)}: {what or 'fails'}", style="red")
-        text = f"{fmt.check_label(c.name)} {fmt.quantity(m, c.unit)} {fmt.ratio(q)}".rstrip()
+        du = P.difference_unit(c.display_unit)
+        text = f"{fmt.check_label(c.name)} {fmt.quantity(m, du)} {fmt.ratio(q)}".rstrip()
         return Text(text, style="" if feasible else "red")
 
     def cells(self, i: int, marked: bool = False) -> tuple[Text | str, ...]:
@@ -258,7 +261,7 @@ class RankingView:
             f"{r.score[i]:.1f}" if fmt.finite(r.score[i]) else "—",
             self.handover_cell(i),
             fmt.quantity(p.glitch_v[i], "V") if handover else "—",
-            fmt.percent(p.thd_estimate[i]) if p.thd_estimate[i] > 0 else "—",
+            fmt.thd(ch.value[i, C.IDX["thd"]]) if ch.value[i, C.IDX["thd"]] > 0 else "—",
             self.fix_cell(i),
             fmt.quantity(ch.value[i, C.IDX["supply_current"]], "A"),
             fmt.quantity(ch.value[i, C.IDX["price"]], "currency unit"),

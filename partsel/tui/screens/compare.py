@@ -16,7 +16,6 @@ from textual.widgets import DataTable, Footer, Static
 
 from partsel.api import CAUTION, Prediction
 from partsel.errors import InputError
-from partsel.solver.substitute import compare_parts
 from partsel.tui import fmt, theme
 from partsel.tui.compare_model import CompareRow, catalogue_rows, compare_rows
 from partsel.tui.widgets.plots import WavePlot
@@ -76,7 +75,7 @@ class CompareScreen(Screen[None]):
             return
         try:
             idx = [r.index(pn) for pn in self.part_numbers]
-            cat = compare_parts(app.frame, list(self.part_numbers), None, r.requirements.basis)
+            cat = app.session.compare(list(self.part_numbers), None, basis=r.requirements.basis)
         except (KeyError, InputError) as exc:
             head.update(Text(f"cannot compare: {exc}", style="red"))
             return

@@ -18,7 +18,7 @@ from textual.worker import get_current_worker
 from partsel.api import CAUTION
 from partsel.errors import InputError
 from partsel.physics.circuit import Design
-from partsel.solver.substitute import Candidate, Vetting, vet_substitutes
+from partsel.solver.substitute import Candidate, Vetting
 from partsel.tui import fmt
 
 if TYPE_CHECKING:
@@ -160,11 +160,10 @@ class ReplacementScreen(Screen[None]):
     def _vet(self, pn: str, design: Design | None, basis: str, unsuitable: bool) -> None:
         worker = get_current_worker()
         try:
-            v = vet_substitutes(
-                self.app.frame,
+            v = self.app.session.vet(
                 pn,
                 design,
-                basis,  # type: ignore[arg-type]
+                basis=basis,  # type: ignore[arg-type]
                 include_unsuitable=unsuitable,
             )
         except InputError as exc:

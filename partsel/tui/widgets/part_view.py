@@ -1,7 +1,7 @@
 """The part view: one part's verdict and prediction in the current design.
 
 The summary, the margins and the catalogue data come from the ranking at once; the waveforms
-and the spectrum come from the time-domain simulation (:func:`partsel.api.predict_frame`),
+and the spectrum come from the time-domain simulation (:meth:`partsel.api.Session.predict`),
 which the app runs in a worker and hands over with :meth:`PartView.show_simulation`.
 """
 
@@ -16,11 +16,13 @@ from textual.app import ComposeResult
 from textual.containers import Vertical, VerticalScroll
 from textual.widgets import Static, TabbedContent, TabPane
 
+from partsel import present as P
 from partsel.api import CAUTION, Prediction
 from partsel.physics.spectrum import spectrum_db
 from partsel.solver import Ranking
 from partsel.solver import checks as C
-from partsel.solver.export import part_checks, verdict_text
+from partsel.solver.export import part_checks
+from partsel.solver.messages import check_message, failing_messages
 from partsel.tui import fmt, theme
 from partsel.tui.widgets.margins import MarginBars
 from partsel.tui.widgets.plots import SpectrumPlot, WavePlot
@@ -50,21 +52,19 @@ def summary_text(r: Ranking, i: int) -> Text:
     else:
         j = int(r.binding[i])
         out.append(f"{fmt.BAD} rejected", style="bold red")
-        c = C.CHECKS[j]
-        m = ch.margin[i, j]
-        miss = (
-            f" by {fmt.quantity(m, c.unit)} {fmt.ratio(ch.ratio[i, j])}"
-            if fmt.finite(m) and c.sense != "is"
-            else ""
-        )
-        out.append(f": binding {fmt.check_label(c.name)}{miss}; fails {int(r.n_failing[i])}")
+        name = C.CHECKS[j].name
+        out.append(f": {fmt.check_label(name)}: {check_message(r, i, name)}")
+        more = int(r.n_failing[i]) - 1
+        if more > 0:
+            others = [fmt.check_label(n) for n, _ in failing_messages(r, i)[1:]]
+            out.append(f"; also fails {', '.join(others)}")
     out.append("\n")
-    v = verdict_text(r, i)
+    v = str(p.conduction[i])
     if v == "changes-mode":
         out.append(f"{fmt.WARN} hands over", style="yellow")
         out.append(
             f" at {fmt.quantity(p.handover_out_v[i], 'V')} · glitch "
-            f"{fmt.quantity(p.glitch_v[i], 'V')} · THD est. {fmt.percent(p.thd_estimate[i])} · "
+            f"{fmt.quantity(p.glitch_v[i], 'V')} · THD est. {fmt.thd(p.thd_estimate[i])} · "
             f"held near {fmt.quantity(p.flat_level_v[i], 'V')}"
         )
     else:
@@ -76,15 +76,12 @@ def summary_text(r: Ranking, i: int) -> Text:
     out.append("\n")
     if not fx.needed[i]:
         out.append("fix not needed")
-    elif not fx.sized[i]:
-        out.append("fix not sized (rejected by other checks)", style="dim")
     elif fx.works[i]:
+        out.append("fix " + P.fix_summary(fx, i, symbols=True), style="bold")
         out.append(
-            f"fix {fmt.quantity(fx.r_ohm[i], 'ohm')} ({fx.series}) to "
-            f"{fmt.rail_label(str(fx.rail[i]))}",
-            style="bold",
+            f" (+{fmt.quantity(fx.extra_supply_a[i], 'A')}/ch; THD est. with it "
+            f"{fmt.thd(fx.thd_with_fix[i])}; {P.fix_rule(fx, i)})"
         )
-        out.append(f" (+{fmt.quantity(fx.extra_supply_a[i], 'A')}/ch)")
     else:
         out.append(f"{fmt.BAD} no fix resistor works: {fx.reason[i]}", style="red")
     out.append(
@@ -185,9 +182,6 @@ class PartView(Vertical):
             simf = pred.sim_fixed
             r_fix = float(getattr(pred.fix, rec).r_ohm[k])
             label = f"with {fmt.quantity(r_fix, 'ohm')} to {fmt.rail_label(rec)}"
-            note = ""
-            if r.fix.works[i] and fmt.finite(r.fix.r_ohm[i]) and r.fix.r_ohm[i] != r_fix:
-                note = f" (ranking's corner sweep: {fmt.quantity(r.fix.r_ohm[i], 'ohm')})"
             fixplot.draw(
                 t_ms,
                 simf.v_ideal,
@@ -195,13 +189,13 @@ class PartView(Vertical):
                     (sim.v_out[k], "as designed", theme.PLOT_PREDICTED),
                     (simf.v_out[k], label, theme.PLOT_FIXED),
                 ],
-                title=f"{label}{note}: THD_F {fmt.percent(simf.thd_f[k], 3)}, handover "
+                title=f"{label}: THD_F {fmt.percent(simf.thd_f[k], 3)}, handover "
                 + ("yes" if simf.handover[k] else "no"),
             )
             lf = spectrum_db(simf.v_out[k : k + 1], simf.n_record, simf.harmonics_v.shape[1] - 1)
             spectra.append((lf[0], label, theme.PLOT_FIXED))
         elif rec == "none":
-            fixplot.show_message(f"{pn}: no fix resistor keeps the stage in one mode")
+            fixplot.show_message(f"{pn}: no fix resistor works: {pred.fix.reason[k]}")
         else:
             fixplot.show_message(f"{pn}: no fix needed (the stage stays in one mode)")
         self.query_one(SpectrumPlot).draw(
