@@ -4,8 +4,6 @@ from __future__ import annotations
 
 import copy
 import json
-import subprocess
-import sys
 from pathlib import Path
 from typing import Any
 
@@ -118,16 +116,3 @@ def test_bad_requirements_name_the_field(req: dict[str, Any], pointer: str) -> N
     with pytest.raises(InputError) as exc:
         design_from_mapping(base(copy.deepcopy(req)))
     assert pointer in pointers(exc)
-
-
-def test_solver_core_imports_no_database_cli_or_ui() -> None:
-    """partsel.solver (and the physics it uses) must not pull in sqlmodel, typer or textual."""
-    code = (
-        "import sys, partsel.solver, partsel.solver.export, partsel.solver.relax; "
-        "bad = [m for m in ('sqlmodel', 'sqlalchemy', 'typer', 'textual', 'pint') "
-        "if m in sys.modules]; print(','.join(bad))"
-    )
-    out = subprocess.run(
-        [sys.executable, "-c", code], capture_output=True, text=True, check=True
-    ).stdout.strip()
-    assert out == ""

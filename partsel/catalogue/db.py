@@ -353,19 +353,16 @@ def write_transaction(engine: Engine, what: str) -> Iterator[Connection]:
 def find_sample_catalogue() -> Path | None:
     """The bundled sample catalogue's parts folder, or None when there is none (or it is empty).
 
-    ``$PARTSEL_SAMPLE_CATALOG`` wins; else walk up from the package to the project folder
-    holding both ``pyproject.toml`` and ``sample-catalog/``.
+    ``$PARTSEL_SAMPLE_CATALOG`` wins; else the sample shipped in the package
+    (:mod:`partsel.sample`, package data: the same for a checkout and an installed wheel).
     """
     env = os.environ.get(SAMPLE_ENV)
     if env:
         base = Path(env)
     else:
-        for parent in Path(__file__).resolve().parents:
-            if (parent / "pyproject.toml").is_file() and (parent / "sample-catalog").is_dir():
-                base = parent / "sample-catalog"
-                break
-        else:
-            return None
+        from partsel.sample import sample_folder
+
+        base = sample_folder()
     parts = base / "parts"
     folder = parts if parts.is_dir() else base
     if not any(f.suffix.lower() in CATALOGUE_SUFFIXES for f in folder.rglob("*")):

@@ -14,6 +14,7 @@ from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass, field
 from enum import IntEnum
+from pathlib import Path
 from typing import Annotated, Any, NoReturn, ParamSpec, TypeVar
 
 import typer
@@ -37,6 +38,17 @@ class ExitCode(IntEnum):
 
 
 JsonFlag = Annotated[bool, typer.Option("--json", help="Print JSON on stdout instead of text.")]
+DesignArg = Annotated[Path, typer.Argument(help="Design file (.toml, .yaml or .json).")]
+#: The one --basis option of every evaluating command (the rule: partsel.api.resolve_requirements).
+BasisOpt = Annotated[
+    str | None,
+    typer.Option(
+        "--basis",
+        "-b",
+        help="Value basis, overriding the design's: 'worst-case' (guaranteed values) or "
+        "'typical' (default: the design's requirements.basis, else worst-case).",
+    ),
+]
 
 
 @dataclass

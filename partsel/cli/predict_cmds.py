@@ -13,6 +13,8 @@ import typer
 
 from partsel import api
 from partsel.cli.common import (
+    BasisOpt,
+    DesignArg,
     JsonFlag,
     bad_input_exits,
     database_errors_exit,
@@ -23,18 +25,8 @@ from partsel.cli.common import (
 from partsel.errors import InputError
 from partsel.report import prediction_text
 
-DesignArg = Annotated[Path, typer.Argument(help="Design file (.toml, .yaml or .json).")]
 PartsArg = Annotated[list[str] | None, typer.Argument(help="Part numbers (default: all).")]
 PartArg = Annotated[str, typer.Argument(help="Part number.")]
-BasisOpt = Annotated[
-    str | None,
-    typer.Option(
-        "--basis",
-        "-b",
-        help="Value basis, overriding the design's: 'worst-case' or 'typical' (default: the "
-        "design's requirements.basis, else worst-case).",
-    ),
-]
 SeriesOpt = Annotated[
     str | None,
     typer.Option(

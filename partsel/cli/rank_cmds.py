@@ -19,6 +19,8 @@ from rich.table import Table
 
 from partsel import present as P
 from partsel.cli.common import (
+    BasisOpt,
+    DesignArg,
     ExitCode,
     JsonFlag,
     bad_input_exits,
@@ -48,16 +50,6 @@ from partsel.solver.messages import failing_messages
 from partsel.solver.pareto import dominators
 from partsel.solver.relax import part_relaxation
 from partsel.solver.requirements import LIMIT_BY_KEY
-
-DesignArg = Annotated[Path, typer.Argument(help="Design file (.toml, .yaml or .json).")]
-BasisOpt = Annotated[
-    str | None,
-    typer.Option(
-        "--basis",
-        "-b",
-        help="Value basis, overriding the design's: 'worst-case' or 'typical'.",
-    ),
-]
 
 
 def _solve(ctx: typer.Context, design_path: Path, basis: str | None) -> Ranking:

@@ -16,6 +16,7 @@ import typer
 
 from partsel import present as P
 from partsel.cli.common import (
+    BasisOpt,
     ExitCode,
     JsonFlag,
     bad_input_exits,
@@ -38,15 +39,6 @@ from partsel.solver.substitute import (
 DesignOpt = Annotated[
     Path | None,
     typer.Option("--design", "-d", help="Design file: judge the parts in this circuit too."),
-]
-BasisOpt = Annotated[
-    str | None,
-    typer.Option(
-        "--basis",
-        "-b",
-        help="Value basis: 'worst-case' (guaranteed values) or 'typical'. Default: the "
-        "design's requirements.basis, else worst-case.",
-    ),
 ]
 PackageOpt = Annotated[
     str | None,
