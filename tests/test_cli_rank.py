@@ -17,12 +17,12 @@ from typing import Any
 
 import pandas as pd
 import pytest
+import tomlkit
 from jsonschema import Draft202012Validator
 from typer.testing import CliRunner, Result
 
 from partsel.catalogue import load_paths, open_catalogue
 from partsel.cli.main import app
-from partsel.design import toml_dumps
 
 ROOT = Path(__file__).resolve().parents[1]
 DESIGNS = sorted((ROOT / "sample-catalog" / "designs").glob("*.toml"))
@@ -161,7 +161,7 @@ def _design(tmp_path: Path, edit: Callable[[dict[str, Any]], None]) -> Path:
     data = copy.deepcopy(data)
     edit(data)
     out = tmp_path / "bad.toml"
-    out.write_text(toml_dumps(data), encoding="utf-8")
+    out.write_text(tomlkit.dumps(data), encoding="utf-8")
     return out
 
 

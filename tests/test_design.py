@@ -21,7 +21,6 @@ from partsel.design import (
     format_quantity,
     load_design,
     save_design,
-    toml_dumps,
 )
 from partsel.errors import InputError
 from partsel.physics.circuit import Design
@@ -474,37 +473,58 @@ def test_failed_save_leaves_file_unchanged(tmp_path: Path) -> None:
     assert list(tmp_path.iterdir()) == [p]
 
 
-# ---- writer helpers ------------------------------------------------------------------------
+# ---- saving keeps what did not change --------------------------------------------------------
 
-# Characters that need care in TOML strings and keys: quotes, backslash, dots, controls (NUL,
-# newline, tab, DEL), non-ASCII and astral-plane characters. A fixed alphabet also keeps
-# hypothesis from building (and caching on disk) its Unicode tables.
-_alphabet = st.sampled_from(list("aZ09 _-.\"'\\/#=[]{}\n\t\x00\x1f\x7fé€\U0001f600"))
-_text = st.text(alphabet=_alphabet, max_size=8)
-_toml_scalars = (
-    st.booleans()
-    | st.integers(min_value=-(2**63), max_value=2**63 - 1)
-    | st.floats(allow_nan=False)
-    | _text
-)
-_toml_values = st.recursive(
-    _toml_scalars,
-    lambda inner: st.lists(inner, max_size=3) | st.dictionaries(_text, inner, max_size=3),
-    max_leaves=12,
+LINE_DRIVER = (
+    Path(__file__).resolve().parents[1] / "sample-catalog" / "designs" / "line-driver-5v.toml"
 )
 
 
-@settings(max_examples=200, deadline=None, database=None)
-@given(st.dictionaries(_text, _toml_values, max_size=4))
-def test_toml_writer_against_tomllib(data: dict[str, Any]) -> None:
-    """The TOML writer's output reads back identically with Python's tomllib (TOML 1.0)."""
-    assert tomllib.loads(toml_dumps(data)) == data
+def test_save_keeps_comments_description_and_unchanged_text(tmp_path: Path) -> None:
+    """Saving a design over its file keeps the comments, the description, unknown fields and
+    the text of every value that still means the same; a changed value is rewritten; a THD
+    limit is written back as a percentage, as engineers write it."""
+    p = tmp_path / "d.toml"
+    text = (
+        "# my line driver\n"
+        'name = "driver"\n'
+        'description = "keeps 2 V of headroom"  # why\n'
+        "[supply]\n"
+        'positive = "5000 mV"  # the 5 V rail\n'
+        "[signal]\n"
+        'bias = "2.5 V"\n'
+        'amplitude = "0.5 V"\n'
+        'frequency = "1 kHz"\n'
+        "[amplifier]\n"
+        "gain = 2\n"
+        "[load]\n"
+        'resistance = "2 kohm"\n'
+        'coupling = "ac"\n'
+        'coupling_capacitor = "10 uF"\n'
+        "[requirements.limits]\n"
+        'max_thd = "0.1 %"\n'
+    )
+    p.write_text(text, encoding="utf-8")
+    d = load_design(p)
+    changed = dataclasses.replace(d, load=dataclasses.replace(d.load, r_load_ohm=4.7e3))
+    save_design(changed, p)
+    out = p.read_text(encoding="utf-8")
+    assert "# my line driver" in out and "# the 5 V rail" in out and "# why" in out
+    assert 'description = "keeps 2 V of headroom"' in out
+    assert 'positive = "5000 mV"' in out  # same value: the user's own text stays
+    assert 'resistance = "4.7 kohm"' in out  # changed: rewritten
+    assert 'max_thd = "0.1 %"' in out
+    again = load_design(p)
+    assert again.load.r_load_ohm == 4.7e3 and again.requirements == d.requirements
 
 
-def test_toml_writer_refuses_null() -> None:
-    with pytest.raises(InputError) as exc:
-        toml_dumps({"requirements": {"thd": None}})
-    assert pointers(exc) == ["/requirements/thd"]
+def test_save_as_writes_percent_limits(tmp_path: Path) -> None:
+    d = load_design(LINE_DRIVER)
+    p = tmp_path / "copy.toml"
+    save_design(d, p)
+    text = p.read_text(encoding="utf-8")
+    assert "max_thd = " in text and " %" in text.split("max_thd = ", 1)[1].splitlines()[0]
+    assert load_design(p) == dataclasses.replace(d, source=str(p))
 
 
 @settings(max_examples=100, deadline=None, database=None)

@@ -3,6 +3,7 @@ right. Describe the circuit first, then read the parts."""
 
 from __future__ import annotations
 
+import re
 from collections.abc import Iterable
 from functools import partial
 from pathlib import Path
@@ -28,6 +29,14 @@ from partsel.tui.widgets.ranking_pane import RankingPane
 
 if TYPE_CHECKING:
     from partsel.tui.app import PartselApp
+
+
+def file_stem(name: str) -> str:
+    """A file name proposed for a design called ``name``: its words in lower case joined by
+    dashes ("5 V line driver, AC-coupled" -> "5-v-line-driver-ac-coupled")."""
+    words = re.findall(r"[A-Za-z0-9]+", name.lower())
+    return "-".join(words)[:60].strip("-") or "design"
+
 
 BASIS_FIELD = FIELD_BY_PATH[("requirements", "basis")].id
 #: Field focused by F2 when no field was focused before.
@@ -360,8 +369,7 @@ class MainScreen(Screen[None]):
         if source and source not in samples:
             default = source
         else:
-            stem = Path(source).stem if source else "design"
-            default = str(self.app.work_dir / f"{stem}.toml")
+            default = str(self.app.work_dir / f"{file_stem(self.app.design.name)}.toml")
         self.app.push_screen(PathDialog("Save the design", default), self.save_design)
 
     def save_design(self, path: str | None) -> bool:
@@ -370,8 +378,9 @@ class MainScreen(Screen[None]):
         if not path or design is None:
             return False
         target = self.app._resolve(Path(path))
+        base = design.source if design.source and Path(design.source).is_file() else None
         try:
-            save_design(design, target)
+            save_design(design, target, base=base)
         except (InputError, OSError) as exc:
             self.notify(str(exc), title="design not saved", severity="error", timeout=10)
             return False

@@ -1,0 +1,491 @@
+"""Reading design files: text (TOML / YAML / JSON) to a :class:`~partsel.physics.circuit.Design`
+in three stages (schema, quantities, physical sense), every problem with its pointer."""
+
+from __future__ import annotations
+
+import copy
+import difflib
+import json
+import os
+import re
+import tomllib
+from collections.abc import Mapping
+from functools import lru_cache
+from pathlib import Path
+from typing import Any
+
+import yaml
+from jsonschema import Draft202012Validator
+
+from partsel.design.schema import (
+    _ABSOLUTE_ZERO_C,
+    EXTENSIONS,
+    FORMAT,
+    QUANTITY_FIELDS,
+    design_schema,
+)
+from partsel.errors import InputError, Problem, json_pointer
+from partsel.physics.circuit import ClosedLoop, Design, Load, Signal, Supply
+from partsel.present import si as format_si
+from partsel.solver import requirements as req_mod
+from partsel.units import parse_quantity
+
+
+def _requirements_key_problems(
+    data: Mapping[str, Any], file: str | None, record: str | None
+) -> list[Problem]:
+    """Unknown fields directly under ``[requirements]`` (the schema leaves that table open)."""
+    raw = data.get("requirements")
+    if not isinstance(raw, Mapping):
+        return []
+    allowed = list(req_mod.TOP_KEYS)
+    out = []
+    for key in raw:
+        if key not in allowed:
+            close = difflib.get_close_matches(str(key), allowed, n=1)
+            hint = f"did you mean {close[0]!r}?" if close else "allowed here: " + ", ".join(allowed)
+            out.append(
+                Problem(
+                    f"unknown field {key!r}; {hint}",
+                    file,
+                    record,
+                    json_pointer("requirements", key),
+                )
+            )
+    return out
+
+
+def _read_requirements(
+    data: Mapping[str, Any], file: str | None, record: str | None
+) -> tuple[dict[str, Any] | None, list[Problem]]:
+    """The ``[requirements]`` table with quantities in SI (the canonical mapping of
+    :meth:`partsel.solver.requirements.Requirements.from_mapping`), and its unit problems.
+
+    Only the fields given are kept (defaults are the solver's), so that writing the design
+    back gives the same table.
+    """
+    raw = data.get("requirements")
+    if raw is None:
+        return None, []
+    problems: list[Problem] = []
+    out = copy.deepcopy(dict(raw))
+    limits = raw.get("limits")
+    if isinstance(limits, Mapping):
+        parsed: dict[str, Any] = {}
+        for key, value in limits.items():
+            d = req_mod.LIMIT_BY_KEY.get(key)
+            if d is None:
+                parsed[key] = copy.deepcopy(value)
+                continue
+            try:
+                parsed[key] = parse_quantity(
+                    value,
+                    d.dimension,
+                    field=json_pointer("requirements", "limits", key),
+                    file=file,
+                    record=record,
+                )
+            except InputError as exc:
+                problems.extend(exc.problems)
+        out["limits"] = parsed
+    return out, problems
+
+
+# ---- reading ------------------------------------------------------------------------------
+
+
+class _UniqueKeyLoader(yaml.SafeLoader):
+    """Safe YAML loader that rejects a key given twice in one mapping."""
+
+
+def _construct_unique_mapping(loader: _UniqueKeyLoader, node: yaml.MappingNode) -> dict:
+    loader.flatten_mapping(node)
+    seen: set[Any] = set()
+    for key_node, _ in node.value:
+        key = loader.construct_object(key_node, deep=True)
+        if key in seen:
+            raise yaml.constructor.ConstructorError(
+                None, None, f"key {key!r} given twice", key_node.start_mark
+            )
+        seen.add(key)
+    return loader.construct_mapping(node, deep=True)
+
+
+_UniqueKeyLoader.add_constructor(
+    yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, _construct_unique_mapping
+)
+
+
+def _json_unique_pairs(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for key, value in pairs:
+        if key in out:
+            raise ValueError(f"key {key!r} given twice")
+        out[key] = value
+    return out
+
+
+def parse_structured(text: str, syntax: str, file: str, record: str | None) -> Any:
+    """Parse file text in ``syntax``; syntax errors become an InputError with the line."""
+
+    def fail(detail: str, line: int | None = None, column: int | None = None) -> InputError:
+        where = ""
+        if line is not None:
+            where = f" at line {line}" + (f", column {column}" if column is not None else "")
+        return InputError(f"malformed {syntax}{where}: {detail}", file=file, record=record)
+
+    if syntax == "TOML":
+        try:
+            return tomllib.loads(text)
+        except tomllib.TOMLDecodeError as exc:
+            msg = str(exc)
+            m = re.search(r"\s*\(at line (\d+), column (\d+)\)", msg)
+            if m:
+                raise fail(msg[: m.start()], int(m.group(1)), int(m.group(2))) from None
+            raise fail(msg) from None
+    if syntax == "YAML":
+        try:
+            return yaml.load(text, Loader=_UniqueKeyLoader)  # a SafeLoader subclass
+        except yaml.MarkedYAMLError as exc:
+            mark = exc.problem_mark
+            detail = exc.problem or exc.context or "syntax error"
+            if mark is None:
+                raise fail(detail) from None
+            raise fail(detail, mark.line + 1, mark.column + 1) from None
+        except yaml.YAMLError as exc:
+            raise fail(str(exc)) from None
+    try:
+        return json.loads(text, object_pairs_hook=_json_unique_pairs)
+    except json.JSONDecodeError as exc:
+        raise fail(exc.msg, exc.lineno, exc.colno) from None
+    except ValueError as exc:  # duplicate key from the hook
+        raise fail(str(exc)) from None
+
+
+def load_design(path: str | os.PathLike[str]) -> Design:
+    """Read a design file (TOML, YAML or JSON by extension) into a :class:`Design`.
+
+    Raises
+    ------
+    InputError
+        Unknown extension, unreadable or malformed file, or any problem of
+        :func:`design_from_mapping`; each names the file, the record and the field.
+    """
+    p = Path(path)
+    file, record = str(p), p.stem
+    syntax = EXTENSIONS.get(p.suffix.lower())
+    if syntax is None:
+        raise InputError(
+            f"unknown design file type {p.suffix or '(none)'!r}; use " + ", ".join(EXTENSIONS),
+            file=file,
+            record=record,
+        )
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputError("file not found", file=file, record=record) from None
+    except UnicodeDecodeError as exc:
+        raise InputError(f"not UTF-8 text (byte {exc.start})", file=file, record=record) from None
+    except OSError as exc:
+        raise InputError(f"cannot read file: {exc.strerror}", file=file, record=record) from None
+    data = parse_structured(text, syntax, file, record)
+    if data is None:
+        raise InputError("design file is empty", file=file, record=record)
+    return design_from_mapping(data, source=file)
+
+
+@lru_cache(maxsize=1)
+def _validator() -> Draft202012Validator:
+    return Draft202012Validator(design_schema())
+
+
+def _schema_problems(data: Any, file: str | None, record: str | None) -> list[Problem]:
+    """JSON Schema problems of ``data``, one per offending field, in schema order."""
+    validator = _validator()
+    problems: list[Problem] = []
+    for err in validator.iter_errors(data):
+        path = list(err.absolute_path)
+        kind = err.validator
+        if kind == "additionalProperties" and isinstance(err.instance, Mapping):
+            allowed = list(err.schema.get("properties", {}))
+            for key in err.instance:
+                if key in allowed:
+                    continue
+                close = difflib.get_close_matches(str(key), allowed, n=1)
+                hint = (
+                    f"did you mean {close[0]!r}?"
+                    if close
+                    else "allowed here: " + ", ".join(allowed)
+                )
+                problems.append(
+                    Problem(
+                        f"unknown field {key!r}; {hint}", file, record, json_pointer(*path, key)
+                    )
+                )
+        elif kind == "required" and isinstance(err.instance, Mapping):
+            for key in err.validator_value:
+                if key not in err.instance:
+                    problems.append(
+                        Problem("required field is missing", file, record, json_pointer(*path, key))
+                    )
+        elif kind == "type" and err.validator_value == ["number", "string"]:
+            unit = err.schema.get("x-unit", "")
+            problems.append(
+                Problem(
+                    f"expected a number or a quantity string in {unit}, got "
+                    f"{_json_type(err.instance)} {err.instance!r}",
+                    file,
+                    record,
+                    json_pointer(*path),
+                )
+            )
+        elif kind == "const":
+            problems.append(
+                Problem(
+                    f"unsupported format {err.instance!r}; this version reads {FORMAT!r}",
+                    file,
+                    record,
+                    json_pointer(*path),
+                )
+            )
+        else:
+            problems.append(Problem(err.message, file, record, json_pointer(*path)))
+    return problems
+
+
+def _json_type(value: Any) -> str:
+    if isinstance(value, bool):
+        return "a boolean"
+    if isinstance(value, Mapping):
+        return "a table"
+    if isinstance(value, list):
+        return "a list"
+    return type(value).__name__
+
+
+class _Reader:
+    """Parses quantity fields of a schema-valid mapping, collecting problems."""
+
+    def __init__(self, data: Mapping[str, Any], file: str | None, record: str | None) -> None:
+        self.data = data
+        self.file = file
+        self.record = record
+        self.problems: list[Problem] = []
+
+    def has(self, section: str, key: str) -> bool:
+        return key in self.data.get(section, {})
+
+    def get(self, section: str, key: str) -> float | None:
+        """Value of a quantity field in SI (its default if absent; None if absent w/o default
+        or unreadable)."""
+        q = QUANTITY_FIELDS[(section, key)]
+        raw = self.data.get(section, {}).get(key, q.default)
+        if raw is None:
+            return None
+        try:
+            return parse_quantity(
+                raw,
+                q.dimension,
+                field=json_pointer(section, key),
+                file=self.file,
+                record=self.record,
+            )
+        except InputError as exc:
+            self.problems.extend(exc.problems)
+            return None
+
+    def problem(self, message: str, section: str, key: str) -> None:
+        self.problems.append(Problem(message, self.file, self.record, json_pointer(section, key)))
+
+
+def _v(value: float) -> str:
+    return format_si(value, "V", digits=4)
+
+
+def design_from_mapping(data: Mapping[str, Any], source: str | None = None) -> Design:
+    """Build a :class:`Design` from a parsed design file (a mapping of sections).
+
+    Parameters
+    ----------
+    data : the file's content, e.g. from ``tomllib.load``.
+    source : file name, used in error messages and kept as ``Design.source``.
+
+    Raises
+    ------
+    InputError
+        Listing every schema, unit and physical-sense problem found (see the module docstring).
+    """
+    stem = Path(source).stem if source else None
+    if not isinstance(data, Mapping):
+        raise InputError(
+            f"the top level must be a table of sections, got {_json_type(data)}",
+            file=source,
+            record=stem,
+        )
+    raw_name = data.get("name")
+    name = raw_name if isinstance(raw_name, str) and raw_name.strip() else (stem or "design")
+    record = name
+    problems = _schema_problems(data, source, record)
+    problems += _requirements_key_problems(data, source, record)
+    if problems:
+        raise InputError(problems=problems)
+
+    r = _Reader(data, source, record)
+    v_pos = r.get("supply", "positive")
+    v_neg = r.get("supply", "negative")
+    bias = r.get("signal", "bias")
+    amplitude = r.get("signal", "amplitude")
+    freq = r.get("signal", "frequency")
+    gain = r.get("amplifier", "gain")
+    ref = r.get("amplifier", "reference")
+    r_f = r.get("amplifier", "feedback_resistor")
+    r_load = r.get("load", "resistance")
+    load_ref = r.get("load", "reference")
+    c_couple = r.get("load", "coupling_capacitor")
+    c_load = r.get("load", "capacitance")
+    r_neg = r.get("load", "to_negative_rail")
+    r_pos = r.get("load", "to_positive_rail")
+    t_min = r.get("environment", "ambient_min")
+    t_max = r.get("environment", "ambient_max")
+    requirements, req_problems = _read_requirements(data, source, record)
+    r.problems.extend(req_problems)
+    if r.problems:
+        raise InputError(problems=r.problems)
+
+    amp_sec = data.get("amplifier", {})
+    load_sec = data.get("load", {})
+    configuration = amp_sec.get("configuration", "non-inverting")
+    coupling = load_sec.get("coupling", "dc")
+    assert v_pos is not None and v_neg is not None and bias is not None  # required / defaulted
+    assert amplitude is not None and freq is not None and gain is not None
+    assert load_ref is not None and c_load is not None and t_min is not None
+    assert t_max is not None
+
+    # ---- physical sense -----------------------------------------------------------------
+    if not v_pos > v_neg:
+        r.problem(
+            f"positive rail {_v(v_pos)} must be above the negative rail {_v(v_neg)}",
+            "supply",
+            "positive",
+        )
+    if not freq > 0:
+        r.problem(f"frequency must be > 0, got {format_si(freq, 'Hz')}", "signal", "frequency")
+    if not amplitude >= 0:
+        r.problem(
+            f"amplitude is a peak value and must be >= 0, got {_v(amplitude)}",
+            "signal",
+            "amplitude",
+        )
+    if not gain > 0:
+        r.problem(f"gain is a magnitude and must be > 0, got {gain:g} V/V", "amplifier", "gain")
+    elif configuration == "non-inverting" and gain < 1:
+        r.problem(
+            f"a non-inverting stage has gain 1 + R_f/R_g >= 1, got {gain:g} V/V; use the "
+            "inverting configuration or an input divider for attenuation",
+            "amplifier",
+            "gain",
+        )
+    for key, value in (("feedback_resistor", r_f),):
+        if value is not None and not value > 0:
+            r.problem(f"resistance must be > 0, got {format_si(value, 'ohm')}", "amplifier", key)
+    for key, value in (
+        ("resistance", r_load),
+        ("to_negative_rail", r_neg),
+        ("to_positive_rail", r_pos),
+    ):
+        if value is not None and not value > 0:
+            r.problem(f"resistance must be > 0, got {format_si(value, 'ohm')}", "load", key)
+    if not c_load >= 0:
+        r.problem(f"capacitance must be >= 0, got {format_si(c_load, 'F')}", "load", "capacitance")
+    if coupling == "ac":
+        if c_couple is None:
+            r.problem("coupling = 'ac' needs coupling_capacitor", "load", "coupling_capacitor")
+        elif not c_couple > 0:
+            r.problem(
+                f"coupling capacitor must be > 0, got {format_si(c_couple, 'F')}",
+                "load",
+                "coupling_capacitor",
+            )
+        if r_load is None:
+            r.problem(
+                "coupling = 'ac' needs the load resistance it couples into", "load", "resistance"
+            )
+    elif c_couple is not None:
+        r.problem(
+            "coupling_capacitor is used only with coupling = 'ac'; set coupling = 'ac' "
+            "or remove it",
+            "load",
+            "coupling_capacitor",
+        )
+    if t_min < _ABSOLUTE_ZERO_C:
+        r.problem(f"{t_min:g} degC is below absolute zero", "environment", "ambient_min")
+    if t_min > t_max:
+        r.problem(
+            f"ambient_min {t_min:g} degC is above ambient_max {t_max:g} degC",
+            "environment",
+            "ambient_min",
+        )
+    try:
+        req_mod.Requirements.from_mapping(requirements, file=source, record=record)
+    except InputError as exc:
+        r.problems.extend(exc.problems)
+
+    design = Design(
+        name=name,
+        supply=Supply(v_pos_v=v_pos, v_neg_v=v_neg),
+        signal=Signal(
+            bias_v=bias,
+            amplitude_v=amplitude,
+            frequency_hz=freq,
+            waveform=data["signal"].get("waveform", "sine"),
+        ),
+        closed_loop=ClosedLoop(
+            configuration=configuration, gain=gain, reference_v=ref, feedback_ohm=r_f
+        ),
+        load=Load(
+            r_load_ohm=r_load,
+            reference_v=load_ref,
+            coupling=coupling,
+            c_couple_f=c_couple,
+            c_load_f=c_load,
+            r_to_neg_ohm=r_neg,
+            r_to_pos_ohm=r_pos,
+        ),
+        t_ambient_min_c=t_min,
+        t_ambient_max_c=t_max,
+        channels_used=int(data.get("environment", {}).get("channels_used", 1)),
+        requirements=requirements,
+        source=source,
+    )
+
+    # ---- levels against the rails (only when the values they depend on are sane) -----------
+    levels_ok = v_pos > v_neg and amplitude >= 0 and gain > 0
+    levels_ok = levels_ok and (configuration == "inverting" or gain >= 1)
+    if v_pos > v_neg:
+        rails = f"the rails {_v(v_neg)} … {_v(v_pos)}"
+        if not v_neg <= bias <= v_pos:
+            r.problem(f"signal bias {_v(bias)} lies outside {rails}", "signal", "bias")
+            levels_ok = False
+        if ref is not None and not v_neg <= ref <= v_pos:
+            r.problem(f"reference {_v(ref)} lies outside {rails}", "amplifier", "reference")
+            levels_ok = False
+        if levels_ok:
+            out_dc, out_pk = design.out_bias_v, design.out_amplitude_v
+            if not v_neg <= out_dc <= v_pos:
+                r.problem(
+                    f"ideal DC output {_v(out_dc)} (= reference + signal gain × (bias − "
+                    f"reference)) lies outside {rails}",
+                    "amplifier",
+                    "reference",
+                )
+            elif out_dc - out_pk < v_neg or out_dc + out_pk > v_pos:
+                r.problem(
+                    f"ideal output {_v(out_dc - out_pk)} … {_v(out_dc + out_pk)} "
+                    f"({_v(out_dc)} ± {_v(out_pk)} peak, gain {abs(design.signal_gain):g} V/V) "
+                    f"goes outside {rails}; lower the amplitude or the gain, or move the bias",
+                    "signal",
+                    "amplitude",
+                )
+    if r.problems:
+        raise InputError(problems=r.problems)
+    return design
