@@ -165,6 +165,55 @@ def test_bad_suffix_rule_is_reported(catalogue: Any) -> None:
 
 def test_normalise() -> None:
     assert normalise(" Orr \u2212 100\tA ") == "orr100a"
+    assert normalise("\ufeffORR-100") == "orr100"  # a byte-order mark pasted into a cell
+
+
+@pytest.mark.parametrize(
+    ("cell", "maker", "same"),
+    [
+        ("Orrin Devices", ORRIN, True),
+        ("orrin devices", ORRIN, True),
+        ("Orrin", ORRIN, True),  # the maker's first word: a short name (common practice)
+        ("Orrin Dev.", ORRIN, True),
+        ("Orr", ORRIN, False),  # the first word must be whole
+        ("Pellam", ORRIN, False),
+        ("Orrin Devices Europe", ORRIN, False),
+    ],
+)
+def test_maker_cells(cell: str, maker: str, same: bool) -> None:
+    from partsel.solver.bom.matching import maker_matches
+
+    assert maker_matches(cell, maker) is same
+
+
+def test_usual_header_words_and_quantities(catalogue: Any) -> None:
+    """Headers as BOM tools write them (common practice), a quantity with a count word, a
+    short maker name, and a lower-case part number with a packing suffix."""
+    raw = bom(
+        "RefDes,Mfr Part #,Qty,Manufacturer\n"
+        "U1,orr100-tr,1 pcs,Orrin\n"
+        "U2,PEL-200,2x,Pellam Micro\n"
+    )
+    rep = run(catalogue, raw)
+    assert rep.columns == {
+        "designators": "RefDes",
+        "part_number": "Mfr Part #",
+        "quantity": "Qty",
+        "maker": "Manufacturer",
+        "design": None,
+    }
+    a, b = rep.lines
+    assert (a.match.rule, a.match.part_number, a.quantity) == ("suffix", "ORR-100", 1)
+    assert "maker-mismatch" not in codes(a)
+    assert (b.match.part_number, b.quantity) == ("PEL-200", 2)
+    assert rep.warnings == ()
+    for header in ("MPN", "Manufacturer Part Number", "Part Number", "mpn"):
+        r = run(catalogue, bom(f"Designator,{header},Quantity\nU1,ORR-100,1\n"))
+        assert r.columns["part_number"] == header and r.columns["designators"] == "Designator"
+    # a designator column under another name is warned about, not silently ignored
+    r = run(catalogue, bom("Ref. Designators Used,MPN\nU1,ORR-100\n"))
+    assert r.columns["designators"] is None
+    assert r.warnings and "--column designators=" in r.warnings[0]
 
 
 # ---- lifecycle, design and substitutes --------------------------------------------------------
@@ -239,6 +288,8 @@ def test_designators_and_quantities() -> None:
     assert parse_designators("U5-U2")[1] is not None
     assert parse_quantity("2") == (2, None)
     assert parse_quantity("2.0") == (2, None)  # spreadsheets write whole numbers so
+    assert parse_quantity("1 pcs") == parse_quantity("1 PCS") == (1, None)
+    assert parse_quantity("3x") == (3, None) and parse_quantity("4 ea") == (4, None)
     for bad in ("abc", "0", "-1", "2.5", "inf"):
         q, problem = parse_quantity(bad)
         assert q is None and problem, bad

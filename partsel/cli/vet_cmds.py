@@ -236,6 +236,8 @@ def bom_text(rep: BomReport) -> str:
                 "           substitutes: "
                 + "; ".join(f"{s.part_number} ({s.verdict})" for s in ln.substitutes)
             )
+    for w in rep.warnings:
+        out.append(f"warning: {w}")
     s = rep.summary()
     out.append(
         f"{s['lines']} line(s): {s['ok']} clear, {s['with_findings']} with findings"

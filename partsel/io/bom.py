@@ -45,7 +45,10 @@ DELIMITERS: tuple[str, ...] = (",", ";", "\t", "|")
 
 
 def _header_key(name: str) -> str:
-    return re.sub(f"[\\s{re.escape(DASHES)}_]+", "", str(name)).casefold()
+    """A header cell as compared with the role names: case, spaces, dashes, underscores and
+    the marks '#', '.', '/' and a byte-order mark ignored ("Mfr Part #" -> "mfrpart")."""
+    text = str(name).replace("\ufeff", "")
+    return re.sub(f"[\\s{re.escape(DASHES)}_#./]+", "", text).casefold()
 
 
 # ---- columns -----------------------------------------------------------------------------------
@@ -82,12 +85,40 @@ class BomColumns:
 ROLES: tuple[str, ...] = tuple(f.name for f in fields(BomColumns))
 #: Other column names accepted for a role left at its default name.
 ALIASES: dict[str, tuple[str, ...]] = {
-    "designators": ("designator", "refdes", "references", "reference"),
-    "part_number": ("part", "pn", "mpn"),
-    "quantity": ("qty",),
-    "maker": ("manufacturer",),
+    "designators": (
+        "designator",
+        "refdes",
+        "ref des",
+        "references",
+        "reference",
+        "reference designator",
+        "reference designators",
+        "refs",
+        "ref",
+        "part reference",
+    ),
+    "part_number": (  # the maker's part number first: "Part" may be an in-house number
+        "mpn",
+        "mfr part #",
+        "mfr part number",
+        "mfr pn",
+        "mfg part number",
+        "mfg pn",
+        "manufacturer part number",
+        "manufacturer part no",
+        "manufacturer pn",
+        "part number",
+        "part no",
+        "part #",
+        "pn",
+        "part",
+    ),
+    "quantity": ("qty", "qty per board", "quantity per board", "count", "pcs"),
+    "maker": ("manufacturer", "manufacturer name", "mfr", "mfg", "make"),
     "design": (),
 }
+#: Header words that suggest a designator column (warned about when none was recognised).
+_DESIGNATOR_HINTS = ("ref", "desig")
 
 
 # ---- reading -----------------------------------------------------------------------------------
@@ -126,6 +157,7 @@ class BomTable:
     encoding: str
     line_findings: dict[int, tuple[Finding, ...]] = field(default_factory=dict)
     folder: Path | None = None  #: where per-line design paths are resolved
+    warnings: tuple[str, ...] = ()  #: about the BOM as a whole (e.g. a column not recognised)
 
     def cell(self, cells: Sequence[str], role: str) -> str:
         k = self.role_index.get(role)
@@ -205,8 +237,8 @@ def _find_roles(header: Sequence[str], columns: BomColumns, source: str) -> dict
                 if columns.part_number == "part_number"
                 else ""
             )
-            + f"; the header has {found}); name it with columns={{'part_number': ...}} or "
-            "--column part_number=NAME",
+            + f"; the header has {found}); name the column with "
+            '--column part_number="NAME"',
             file=source,
             record="header",
             pointer="/columns/part_number",
@@ -246,7 +278,15 @@ def read_bom(
         if not rows:
             raise InputError("the BOM has no lines below the header", file=label)
         roles = _find_roles(header, cols, label)
-        return BomTable(label, header, tuple(rows), roles, delimiter or ",", "n/a")
+        return BomTable(
+            label,
+            header,
+            tuple(rows),
+            roles,
+            delimiter or ",",
+            "n/a",
+            warnings=_role_warnings(header, roles),
+        )
     if isinstance(source, bytes):
         raw, label = source, name or "<bytes>"
     elif isinstance(source, io.TextIOBase):
@@ -339,7 +379,35 @@ def read_bom(
         raise InputError(
             "the BOM has a header but no lines below it", file=label, record=f"line {header_line}"
         )
-    return BomTable(label, header, tuple(lines), roles, delim, enc, findings, folder)
+    return BomTable(
+        label,
+        header,
+        tuple(lines),
+        roles,
+        delim,
+        enc,
+        findings,
+        folder,
+        warnings=_role_warnings(header, roles),
+    )
+
+
+def _role_warnings(header: Sequence[str], roles: Mapping[str, int | None]) -> tuple[str, ...]:
+    """Warn when a column looks like designators but none was recognised as such."""
+    if roles.get("designators") is not None:
+        return ()
+    used = {k for k in roles.values() if k is not None}
+    looks = [
+        h
+        for k, h in enumerate(header)
+        if k not in used and any(w in _header_key(h) for w in _DESIGNATOR_HINTS)
+    ]
+    if not looks:
+        return ()
+    return (
+        f"column {looks[0]!r} looks like designators but was not recognised; name it with "
+        f'--column designators="{looks[0]}"',
+    )
 
 
 def _has_surrogates(text: str) -> bool:
@@ -380,13 +448,19 @@ def parse_designators(text: str) -> tuple[tuple[str, ...], str | None]:
     return tuple(out), problem
 
 
+#: Count words a quantity cell may end with ("1 pcs", "2 pc", "3x", "4 ea"): common practice.
+_COUNT_WORDS = re.compile(r"\s*(pcs|pc|pieces|piece|ea|each|x|stk|units?)\.?$", re.IGNORECASE)
+
+
 def parse_quantity(text: str) -> tuple[int | None, str | None]:
-    """A quantity cell as a whole number above zero; (None, problem) when it is not one."""
+    """A quantity cell as a whole number above zero ("2", "2 pcs", "3x"); (None, problem)
+    when it is not one."""
     t = str(text).strip()
     if not t:
         return None, None
+    number = _COUNT_WORDS.sub("", t) if len(t) < 64 else t
     try:
-        v = float(t.replace("\u2009", "").replace(" ", ""))
+        v = float(number.replace("\u2009", "").replace(" ", ""))
     except ValueError:
         return None, f"quantity {t!r} is not a number"
     if not math.isfinite(v) or v != int(v):

@@ -13,6 +13,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any, Literal
 
+from partsel.design import PERCENT_LIMITS as _PERCENT_LIMITS
 from partsel.design import QUANTITY_FIELDS, design_from_mapping, design_to_mapping
 from partsel.errors import InputError, Problem, json_pointer
 from partsel.physics.circuit import Design
@@ -86,8 +87,9 @@ _GROUPS: dict[str, str] = {
 
 _UNIT_SHOWN: dict[str, str] = {"ohm": "Ω", "degC": "°C", "1": "", "currency unit": ""}
 
-#: Limits shown as percentages in the form (ratios that engineers state in %).
-PERCENT_LIMITS = ("max_thd", "max_gain_error")
+#: Limits shown as percentages in the form (ratios that engineers state in %): the design
+#: file's own rule (partsel.design.PERCENT_LIMITS).
+PERCENT_LIMITS = tuple(sorted(_PERCENT_LIMITS))
 
 
 def _quantity_unit(section: str, key: str) -> str:

@@ -26,7 +26,7 @@ from partsel.params import Lifecycle
 from partsel.physics.circuit import Design
 from partsel.physics.stage import Basis
 from partsel.solver import checks as C
-from partsel.solver.bom.matching import Match, PartMatcher
+from partsel.solver.bom.matching import MAKER_RULE, Match, PartMatcher, maker_matches
 from partsel.solver.bom.report import BomLine, BomReport, SubstituteHint
 from partsel.solver.export import part_checks
 from partsel.solver.messages import failing_messages
@@ -235,7 +235,7 @@ def check_bom(
                         pn_col,
                     )
                 )
-            elif maker_cell and m.maker and maker_cell.casefold() != m.maker.strip().casefold():
+            elif maker_cell and m.maker and not maker_matches(maker_cell, m.maker):
                 f.append(
                     Finding(
                         "maker-mismatch",
@@ -329,6 +329,8 @@ def check_bom(
         basis=basis,
         design=design.name if design is not None else None,
         lines=tuple(out_lines),
+        warnings=table.warnings,
+        maker_rule=MAKER_RULE,
     )
 
 

@@ -23,8 +23,34 @@ _NORMALISE = re.compile(f"[\\s{re.escape(DASHES)}]+")
 
 
 def normalise(part_number: str) -> str:
-    """Part number with case, whitespace and dashes ignored (the 'normalised' rule)."""
-    return _NORMALISE.sub("", str(part_number)).casefold()
+    """Part number with case, whitespace, dashes and byte-order marks ignored (the
+    'normalised' rule)."""
+    return _NORMALISE.sub("", str(part_number).replace("\ufeff", "")).casefold()
+
+
+def _maker_words(name: str) -> list[str]:
+    return re.findall(r"[0-9a-z]+", str(name).replace("\ufeff", "").casefold())
+
+
+def maker_matches(cell: str, maker: str) -> bool:
+    """A BOM's maker cell names ``maker``: the same name (case, punctuation ignored), or its
+    first words, each word possibly cut short ("Brindle" and "Brindle Semi" name "Brindle
+    Semiconductor"; "Brind" does not: a cut word needs three letters and the first word must
+    be whole). The rule is partsel's own, stated in the BOM check's output."""
+    a, b = _maker_words(cell), _maker_words(maker)
+    if not a or len(a) > len(b):
+        return False
+    if a[0] != b[0]:
+        return False
+    rest = zip(a[1:], b[1 : len(a)], strict=True)
+    return all(x == y or (len(x) >= 3 and y.startswith(x)) for x, y in rest)
+
+
+#: The maker rule, in words (shown with the BOM check).
+MAKER_RULE = (
+    "a maker cell matches the catalogue's maker by the same name or its first words, "
+    "a later word possibly cut short ('Brindle', 'Brindle Semi')"
+)
 
 
 # ---- matching ----------------------------------------------------------------------------------
@@ -135,8 +161,7 @@ class PartMatcher:
     def _narrow(self, res: Match, maker: str | None, hits: list[int], rule: MatchRule) -> Match:
         if res.index is not None or not maker:
             return res
-        key = maker.strip().casefold()
-        mine = [k for k in hits if self._makers[k].strip().casefold() == key]
+        mine = [k for k in hits if maker_matches(maker, self._makers[k])]
         return self._result(rule, mine, res.stripped) if len(mine) == 1 else res
 
     def close_matches(self, text: str, n: int = 3) -> list[str]:

@@ -118,6 +118,8 @@ class BomReport:
     basis: Basis | None  #: the basis asked for (None: each design's own, else worst-case)
     design: str | None  #: name of the BOM-wide design
     lines: tuple[BomLine, ...]
+    warnings: tuple[str, ...] = ()  #: about the BOM as a whole
+    maker_rule: str = ""  #: how a maker cell is matched, in words
 
     @property
     def exit_code(self) -> int:
@@ -146,6 +148,8 @@ class BomReport:
             "basis": self.basis,
             "design": self.design,
             "summary": self.summary(),
+            "warnings": list(self.warnings),
+            "maker_rule": self.maker_rule,
             "lines": [ln.to_dict() for ln in self.lines],
             "caution": CAUTION,
         }

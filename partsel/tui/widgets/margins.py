@@ -10,6 +10,7 @@ from typing import Any
 from rich.text import Text
 from textual.widgets import Static
 
+from partsel import present as P
 from partsel.solver import checks as C
 from partsel.tui import fmt
 
@@ -77,11 +78,11 @@ def margin_text(rows: Sequence[dict[str, Any]], width: int = 24) -> Text:
             out.append(row["status"], style="dim")
         else:
             out.append_text(bar(row["ratio"], width))
-            margin = fmt.quantity(row["margin"], c.unit)
+            u = c.display_unit
+            margin = fmt.quantity(row["margin"], P.difference_unit(u))
             out.append(f" {margin:>10} {fmt.ratio(row['ratio']):>7}")
             out.append(
-                f"  value {fmt.quantity(row['value'], c.unit)}, limit "
-                f"{fmt.quantity(row['limit'], c.unit)}",
+                f"  value {fmt.quantity(row['value'], u)}, limit {fmt.quantity(row['limit'], u)}",
                 style="dim",
             )
         out.append("\n")
