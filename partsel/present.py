@@ -326,3 +326,17 @@ def fix_summary(fix: Any, i: int, *, symbols: bool = False) -> str:
         },
         symbols=symbols,
     )
+
+
+#: Lifecycle states for people: a risk is flagged wherever a part appears.
+LIFECYCLE_TEXT: dict[str, str] = {
+    "active": "active",
+    "not-for-new-designs": "⚠ not for new designs",
+    "obsolete": "⚠ OBSOLETE",
+}
+
+
+def lifecycle(state: str) -> str:
+    """A lifecycle state for people, flagged when it is a risk (obsolete, not for new
+    designs)."""
+    return LIFECYCLE_TEXT.get(str(state), str(state) or "unknown")

@@ -18,8 +18,9 @@ from typing import Annotated, Any
 import pandas as pd
 import typer
 import yaml
-from rich.table import Column, Table
+from rich.table import Table
 
+from partsel import present as P
 from partsel.catalogue import (
     EditResult,
     HistoryEntry,
@@ -44,6 +45,7 @@ from partsel.catalogue.validate import canonical_part
 from partsel.cli.common import (
     JsonFlag,
     bad_input_exits,
+    data_table,
     database_errors_exit,
     echo_json,
     engine,
@@ -176,26 +178,27 @@ def list_parts(
     if df.empty:
         message("no parts match")
         return
-    table = Table(
+    table = data_table(
+        "Part",
         "Maker",
         "Ch",
-        "Topology",
+        "Stage",
         "Lifecycle",
         "Supply",
         "GBW typ",
         "SR rise typ",
         "Iq/ch typ",
         "Price",
+        keep=("Part",),
     )
-    table.columns.insert(0, Column("Part", no_wrap=True))
     for r in df.itertuples(index=False):
         price = "—" if math.isnan(r.price) else f"{r.price:.2f} {r.currency}"
         table.add_row(
             r.part_number,
             r.maker,
             str(r.channels),
-            r.topology,
-            r.lifecycle,
+            P.TOPOLOGY_SHORT.get(r.topology, r.topology),
+            P.lifecycle(r.lifecycle),
             f"{r.supply_min_v:g}–{r.supply_max_v:g} V",
             _fmt(r.gbw_typ, "frequency"),
             _fmt(r.slew_rise_typ, "slew"),

@@ -9,6 +9,7 @@ from __future__ import annotations
 import functools
 import json
 import math
+import os
 import sys
 from collections.abc import Callable, Iterator
 from contextlib import contextmanager
@@ -19,6 +20,7 @@ from typing import Annotated, Any, NoReturn, ParamSpec, TypeVar
 
 import typer
 from rich.console import Console
+from rich.table import Table
 from sqlalchemy.engine import Engine
 
 from partsel.catalogue.db import DatabaseErrors, engine_label
@@ -137,9 +139,28 @@ def err_console() -> Console:
     return Console(stderr=True, highlight=False)
 
 
+#: Width of tables written to a file or a pipe when ``COLUMNS`` does not say otherwise.
+PIPE_WIDTH = 120
+
+
 def out_console() -> Console:
-    """Console for data meant for people (stdout)."""
-    return Console(highlight=False)
+    """Console for data meant for people (stdout): the terminal's width, else ``$COLUMNS``,
+    else :data:`PIPE_WIDTH` for files and pipes."""
+    con = Console(highlight=False)
+    if not con.is_terminal and not os.environ.get("COLUMNS", "").strip().isdigit():
+        con.width = PIPE_WIDTH
+    return con
+
+
+def data_table(*headers: str, title: str | None = None, keep: tuple[str, ...] = ()) -> Table:
+    """A table for people whose headers are never cut: each column is at least as wide as the
+    longest word of its header, and cells wrap (fold) instead of being cut; ``keep``: columns
+    kept on one line (part numbers)."""
+    t = Table(title=title, show_lines=False)
+    for h in headers:
+        widest = max((len(w) for w in h.split()), default=1)
+        t.add_column(h, min_width=widest, overflow="fold", no_wrap=h in keep)
+    return t
 
 
 def message(text: str) -> None:

@@ -24,6 +24,7 @@ from partsel.cli.common import (
     ExitCode,
     JsonFlag,
     bad_input_exits,
+    data_table,
     database_errors_exit,
     echo_json,
     fail_bad_input,
@@ -67,11 +68,8 @@ _TOPO = P.TOPOLOGY_SHORT
 
 
 def _console() -> Any:
-    """Console for data on stdout: 120 columns when not a terminal (files, pipes)."""
-    con = out_console()
-    if not con.is_terminal:
-        con.width = 120
-    return con
+    """Console for data on stdout (see :func:`partsel.cli.common.out_console`)."""
+    return out_console()
 
 
 def _crossover(r: Ranking, i: int) -> str:
@@ -111,11 +109,11 @@ def _miss(r: Ranking, i: int, j: int) -> str:
 
 
 def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
-    t = Table(title=None, show_lines=False)
-    for head in (
+    t = data_table(
         "#",
         "Part",
         "Stage",
+        "Lifecycle",
         "Score",
         "Pareto",
         "Handover",
@@ -125,8 +123,8 @@ def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
         "Supply I",
         "Price",
         "Tightest",
-    ):
-        t.add_column(head, no_wrap=head in ("Part", "Fix", "Handover", "Tightest", "THD est."))
+        keep=("Part",),
+    )
     ch = r.checks
     for i in rows:
         j = int(r.tightest[i])
@@ -135,6 +133,7 @@ def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
             str(r.rank[i]),
             str(r.table.part_number[i]),
             _TOPO.get(str(r.table.topology[i]), str(r.table.topology[i])),
+            P.lifecycle(str(r.table.lifecycle[i])),
             f"{r.score[i]:.1f}",
             "yes" if r.pareto[i] else "",
             _crossover(r, i),
@@ -150,15 +149,25 @@ def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
 
 
 def _miss_table(r: Ranking, rows: np.ndarray) -> Table:
-    t = Table(title="Nearest misses")
-    for head in ("Part", "Maker", "Stage", "Fails", "Binding check", "Misses by", "Fix"):
-        t.add_column(head, no_wrap=head == "Part")
+    t = data_table(
+        "Part",
+        "Maker",
+        "Stage",
+        "Lifecycle",
+        "Fails",
+        "Binding check",
+        "Misses by",
+        "Fix",
+        title="Nearest misses",
+        keep=("Part",),
+    )
     for i in rows:
         j = int(r.binding[i])
         t.add_row(
             str(r.table.part_number[i]),
             str(r.table.text("maker")[i]),
             _TOPO.get(str(r.table.topology[i]), str(r.table.topology[i])),
+            P.lifecycle(str(r.table.lifecycle[i])),
             str(int(r.n_failing[i])),
             P.check_label(C.CHECKS[j].name),
             _miss(r, i, j),
@@ -235,6 +244,8 @@ def rank_cmd(
     feas = r.order[: min(k, r.n_feasible)]
     if feas.size:
         con.print(_rank_table(r, feas))
+        if feas.size < r.n_feasible:
+            con.print(f"{feas.size} of {r.n_feasible} feasible parts shown (-n 0 for all)")
     if r.n_feasible < min(k, 5):
         rej = r.order[r.n_feasible : r.n_feasible + max(3, min(k, 10) - feas.size)]
         if rej.size:
