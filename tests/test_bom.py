@@ -190,9 +190,7 @@ def test_usual_header_words_and_quantities(catalogue: Any) -> None:
     """Headers as BOM tools write them (common practice), a quantity with a count word, a
     short maker name, and a lower-case part number with a packing suffix."""
     raw = bom(
-        "RefDes,Mfr Part #,Qty,Manufacturer\n"
-        "U1,orr100-tr,1 pcs,Orrin\n"
-        "U2,PEL-200,2x,Pellam Micro\n"
+        "RefDes,Mfr Part #,Qty,Manufacturer\nU1,orr100-tr,1 pcs,Orrin\nU2,PEL-200,2x,Pellam Micro\n"
     )
     rep = run(catalogue, raw)
     assert rep.columns == {

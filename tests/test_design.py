@@ -455,7 +455,7 @@ def test_duplicate_json_key(tmp_path: Path) -> None:
 def test_unknown_extension_and_missing_file(tmp_path: Path) -> None:
     with pytest.raises(InputError, match="unknown design file type"):
         load_design(tmp_path / "design.ini")
-    with pytest.raises(InputError, match="file not found"):
+    with pytest.raises(InputError, match="no such design file"):
         load_design(tmp_path / "absent.toml")
 
 

@@ -212,6 +212,19 @@ def _conflict_text(exc: ConflictError) -> None:
         message("nothing was changed.")
 
 
+#: Commands that change the stored catalogue (a refusal says that nothing was changed).
+CHANGING_COMMANDS = frozenset({"load", "edit", "restore", "import-sheet", "characterise"})
+
+
+#: The subcommand of the running invocation (set by the main callback).
+RUNNING: dict[str, str | None] = {"command": None}
+
+
+def _changes_catalogue() -> bool:
+    """The running command is one of :data:`CHANGING_COMMANDS`."""
+    return RUNNING["command"] in CHANGING_COMMANDS
+
+
 def fail_bad_input(exc: InputError, *, json_out: bool = False) -> NoReturn:
     """List every problem on stderr (and as JSON on stdout with ``json_out``); exit 2.
 
@@ -224,7 +237,8 @@ def fail_bad_input(exc: InputError, *, json_out: bool = False) -> NoReturn:
         for p in exc.problems:
             message(f"error: {p}")
         n = len(exc.problems)
-        message(f"{n} problem{'s' if n != 1 else ''}; nothing was changed.")
+        tail = "; nothing was changed in the catalogue." if _changes_catalogue() else "."
+        message(f"{n} problem{'s' if n != 1 else ''}{tail}")
     if json_out:
         echo_json(problems_json(exc.problems))
     raise typer.Exit(ExitCode.BAD_INPUT)

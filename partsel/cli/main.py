@@ -14,7 +14,7 @@ from typing import Annotated
 import typer
 
 from partsel.cli import catalogue_cmds, predict_cmds, rank_cmds, vet_cmds
-from partsel.cli.common import AppState, ExitCode
+from partsel.cli.common import RUNNING, AppState, ExitCode
 
 app = typer.Typer(
     name="partsel",
@@ -61,6 +61,7 @@ def main(
     ] = None,
 ) -> None:
     """Choose op-amps for single-supply designs."""
+    RUNNING["command"] = ctx.invoked_subcommand
     st = AppState(db_url=db, read_only=read_only, user=user)
     ctx.obj = st
     ctx.call_on_close(st.close)

@@ -178,16 +178,17 @@ def load_design(path: str | os.PathLike[str]) -> Design:
         raise InputError(
             f"unknown design file type {p.suffix or '(none)'!r}; use " + ", ".join(EXTENSIONS),
             file=file,
-            record=record,
         )
     try:
         text = p.read_text(encoding="utf-8")
     except FileNotFoundError:
-        raise InputError("file not found", file=file, record=record) from None
+        raise InputError("no such design file", file=file) from None
+    except IsADirectoryError:
+        raise InputError("is a folder, not a design file", file=file) from None
     except UnicodeDecodeError as exc:
-        raise InputError(f"not UTF-8 text (byte {exc.start})", file=file, record=record) from None
+        raise InputError(f"not UTF-8 text (byte {exc.start})", file=file) from None
     except OSError as exc:
-        raise InputError(f"cannot read file: {exc.strerror}", file=file, record=record) from None
+        raise InputError(f"cannot read the design: {exc.strerror or exc}", file=file) from None
     data = parse_structured(text, syntax, file, record)
     if data is None:
         raise InputError("design file is empty", file=file, record=record)

@@ -167,8 +167,10 @@ def check_bom(
                 designs[cell] = exc
         got = designs[cell]
         if isinstance(got, InputError):
+            first = got.problems[0]
+            where = f" (field {first.pointer})" if first.pointer else ""
             return None, Finding(
-                "bad-design", "error", f"design {cell}: {str(got).splitlines()[0]}", "design"
+                "bad-design", "error", f"design {cell}: {first.message}{where}", "design"
             )
         return got, None
 

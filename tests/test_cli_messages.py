@@ -1,0 +1,52 @@
+"""Command-line messages for people: no Python syntax, no repeated file names, and "nothing
+was changed" only where a command could have changed the catalogue."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+PROJECT = Path(__file__).resolve().parents[1]
+DESIGN = PROJECT / "sample-catalog" / "designs" / "line-driver-5v.toml"
+
+
+def test_missing_design_names_the_file_once(cli, tmp_path: Path) -> None:
+    missing = tmp_path / "nosuch.toml"
+    r = cli("rank", missing)
+    assert r.exit_code == 2
+    err = r.stderr
+    assert f"error: {missing}: no such design file" in err
+    assert err.count("nosuch") == 1 and "record" not in err
+    assert "nothing was changed" not in err  # rank changes nothing
+
+
+def test_a_refused_load_says_nothing_was_changed(cli, tmp_path: Path) -> None:
+    bad = tmp_path / "bad.yaml"
+    bad.write_text("parts:\n  - part_number: X-1\n", encoding="utf-8")
+    r = cli("load", bad)
+    assert r.exit_code == 2
+    assert "nothing was changed in the catalogue" in r.stderr
+    r = cli("check", bad)  # check only reads
+    assert r.exit_code == 2 and "nothing was changed" not in r.stderr
+
+
+def test_bom_column_message_speaks_command_line(cli, tmp_path: Path) -> None:
+    bom = tmp_path / "b.csv"
+    bom.write_text("Ref,Manufacturer Part,Count\nU1,BRQ-622A,1\n", encoding="utf-8")
+    r = cli("bom-check", bom)
+    assert r.exit_code == 2
+    assert '--column part_number="NAME"' in r.stderr
+    assert "{" not in r.stderr and "columns=" not in r.stderr
+
+
+def test_bad_per_line_design_is_named_once(cli, tmp_path: Path) -> None:
+    r = cli("load", PROJECT / "sample-catalog" / "parts")
+    assert r.exit_code == 0
+    bom = tmp_path / "b.csv"
+    bom.write_text("designators,part_number,design\nU1,BRQ-622A,nosuch.toml\n", encoding="utf-8")
+    r = cli("bom-check", bom, "--json")
+    assert r.exit_code == 1
+    import json
+
+    line = json.loads(r.stdout)["lines"][0]
+    msg = next(f["message"] for f in line["findings"] if f["code"] == "bad-design")
+    assert msg == "design nosuch.toml: no such design file"
