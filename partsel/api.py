@@ -27,7 +27,7 @@ from __future__ import annotations
 
 import json
 from collections import OrderedDict
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -40,7 +40,7 @@ from partsel.catalogue import open_catalogue, parts_frame
 from partsel.design import load_design
 from partsel.errors import InputError
 from partsel.physics.circuit import Design
-from partsel.physics.simulate import SimResult, simulate
+from partsel.physics.simulate import SimResult, default_steps, simulate
 from partsel.physics.spectrum import DEFAULT_HARMONICS
 from partsel.physics.stage import Basis, StageParams
 from partsel.solver import PartTable, Ranking, Requirements
@@ -191,6 +191,60 @@ class Prediction:
     def parts(self) -> list[dict[str, Any]]:
         """Every predicted part as the documented JSON."""
         return [self.part(k) for k in range(self.n)]
+
+
+#: Parts simulated per call when a caller follows the progress.
+SIM_CHUNK = 16
+
+
+def _simulate_chunks(
+    stage: StageParams,
+    design: Design,
+    r_neg: np.ndarray | None,
+    r_pos: np.ndarray | None,
+    n_harmonics: int,
+    progress: Callable[[int], None] | None,
+) -> SimResult:
+    """:func:`simulate` of every part, in chunks when ``progress`` follows it."""
+    if progress is None or stage.n <= SIM_CHUNK:
+        out = simulate(
+            stage, design, r_to_neg_ohm=r_neg, r_to_pos_ohm=r_pos, n_harmonics=n_harmonics
+        )
+        if progress is not None:
+            progress(stage.n)
+        return out
+    parts = []
+    for start in range(0, stage.n, SIM_CHUNK):
+        idx = np.arange(start, min(start + SIM_CHUNK, stage.n))
+        parts.append(
+            simulate(
+                stage.take(idx),
+                design,
+                r_to_neg_ohm=None if r_neg is None else r_neg[idx],
+                r_to_pos_ohm=None if r_pos is None else r_pos[idx],
+                n_harmonics=n_harmonics,
+                steps_per_period=default_steps(stage, design),
+            )
+        )
+        progress(idx.size)
+    return concat_results(parts)
+
+
+#: Fields of a SimResult common to every part (the time axis and the ideal waveform).
+_SHARED = frozenset({"t_s", "v_ideal", "n_record", "steps_per_period"})
+
+
+def concat_results(parts: Sequence[SimResult]) -> SimResult:
+    """Simulations of consecutive groups of parts (same design and steps) as one."""
+    first = parts[0]
+    kw: dict[str, Any] = {}
+    for name in first.__dataclass_fields__:
+        vals = [getattr(p, name) for p in parts]
+        if name in _SHARED or not isinstance(vals[0], np.ndarray):
+            kw[name] = vals[0]
+        else:
+            kw[name] = np.concatenate(vals, axis=0)
+    return SimResult(**kw)
 
 
 def simulation_stage(ranking: Ranking, rows: np.ndarray) -> StageParams:
@@ -345,12 +399,14 @@ class Session:
         simulate_fix: bool = True,
         n_harmonics: int = DEFAULT_HARMONICS,
         ranking: Ranking | None = None,
+        progress: Callable[[int], None] | None = None,
         **options: Any,
     ) -> Prediction:
         """Predict ``parts`` (None: every part) in ``design``: the evaluation's verdict, fix
         and closed-form estimates, plus the time-domain simulation as designed and with the
         recommended fix resistor fitted. ``ranking``: an evaluation to take the parts from
-        (the terminal UI passes its ranking)."""
+        (the terminal UI passes its ranking); ``progress(n)``: called as parts are simulated
+        (:data:`SIM_CHUNK` at a time)."""
         if ranking is None:
             ranking = self.evaluate(design, parts, **options)
         if parts is None:
@@ -364,15 +420,14 @@ class Session:
         sim = sim_fixed = None
         if run_simulation and rows.size:
             stage = simulation_stage(ranking, rows)
-            sim = simulate(stage, ranking.design, n_harmonics=n_harmonics)
             fix = ranking.fix.take(rows)
-            if simulate_fix and np.isfinite(fix.r_neg_ohm).any() | np.isfinite(fix.r_pos_ohm).any():
-                sim_fixed = simulate(
-                    stage,
-                    ranking.design,
-                    r_to_neg_ohm=fix.r_neg_ohm,
-                    r_to_pos_ohm=fix.r_pos_ohm,
-                    n_harmonics=n_harmonics,
+            with_fix = simulate_fix and bool(
+                np.isfinite(fix.r_neg_ohm).any() or np.isfinite(fix.r_pos_ohm).any()
+            )
+            sim = _simulate_chunks(stage, ranking.design, None, None, n_harmonics, progress)
+            if with_fix:
+                sim_fixed = _simulate_chunks(
+                    stage, ranking.design, fix.r_neg_ohm, fix.r_pos_ohm, n_harmonics, progress
                 )
         return Prediction(ranking, rows, sim, sim_fixed)
 

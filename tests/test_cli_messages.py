@@ -50,3 +50,31 @@ def test_bad_per_line_design_is_named_once(cli, tmp_path: Path) -> None:
     line = json.loads(r.stdout)["lines"][0]
     msg = next(f["message"] for f in line["findings"] if f["code"] == "bad-design")
     assert msg == "design nosuch.toml: no such design file"
+
+
+def test_progress_only_in_a_terminal(monkeypatch) -> None:
+    """A progress bar is drawn on a terminal, and nowhere else (pipes, files, --json)."""
+    import io
+
+    from rich.console import Console
+
+    from partsel.cli import common
+
+    buf = io.StringIO()
+    monkeypatch.setattr(
+        common, "err_console", lambda: Console(file=buf, force_terminal=True, width=80)
+    )
+    with common.progress(10, "simulating") as advance:
+        for _ in range(10):
+            advance(1)
+    assert "simulating" in buf.getvalue()
+    buf2 = io.StringIO()
+    monkeypatch.setattr(common, "err_console", lambda: Console(file=buf2, force_terminal=False))
+    with common.progress(10, "simulating") as advance:
+        advance(10)
+    assert buf2.getvalue() == ""
+    buf3 = io.StringIO()
+    monkeypatch.setattr(common, "err_console", lambda: Console(file=buf3, force_terminal=True))
+    with common.progress(10, "simulating", enabled=False) as advance:  # --json
+        advance(10)
+    assert buf3.getvalue() == ""

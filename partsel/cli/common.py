@@ -152,6 +152,25 @@ def out_console() -> Console:
     return con
 
 
+@contextmanager
+def progress(total: int, what: str, *, enabled: bool = True) -> Iterator[Callable[[int], None]]:
+    """A progress bar on stderr for work of ``total`` steps that may take over a second, shown
+    only in a terminal (never in pipes, files or with --json: ``enabled=False``). Yields
+    ``advance(n)``."""
+    con = err_console()
+    if not (enabled and con.is_terminal and total > 1):
+        yield lambda n=1: None
+        return
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress, TimeRemainingColumn
+
+    with Progress(
+        f"[bold]{what}", BarColumn(), MofNCompleteColumn(), TimeRemainingColumn(), console=con,
+        transient=True,
+    ) as bar:  # fmt: skip
+        task = bar.add_task(what, total=total)
+        yield lambda n=1: bar.advance(task, n)
+
+
 def data_table(*headers: str, title: str | None = None, keep: tuple[str, ...] = ()) -> Table:
     """A table for people whose headers are never cut: each column is at least as wide as the
     longest word of its header, and cells wrap (fold) instead of being cut; ``keep``: columns

@@ -20,6 +20,7 @@ from partsel.cli.common import (
     database_errors_exit,
     echo_json,
     message,
+    progress,
     session,
 )
 from partsel.errors import InputError
@@ -53,13 +54,17 @@ def _prediction(
     series: str | None,
     margin: float | None,
     run_sim: bool,
+    show_progress: bool = True,
 ) -> api.Prediction:
     """The session's prediction: the same verdict, fix and estimates as ``rank``."""
     s = session(ctx)
     design = s.load_design(design_path)
-    return s.predict(
-        design, parts or None, run_simulation=run_sim, basis=basis, series=series, margin=margin
-    )
+    ranking = s.evaluate(design, parts or None, basis=basis, series=series, margin=margin)
+    n = ranking.n if not parts else len(parts)
+    with progress(2 * n if run_sim else 0, "simulating", enabled=show_progress) as advance:
+        return s.predict(
+            design, parts or None, run_simulation=run_sim, ranking=ranking, progress=advance
+        )
 
 
 def predict(
@@ -77,7 +82,7 @@ def predict(
     The verdict, the fix and the estimates are the ranking's for the same design and options.
     """
     with bad_input_exits(json_out=json_out):
-        pred = _prediction(ctx, design, parts, basis, series, margin, not no_sim)
+        pred = _prediction(ctx, design, parts, basis, series, margin, not no_sim, not json_out)
     rows = pred.parts()
     if json_out:
         echo_json(rows)

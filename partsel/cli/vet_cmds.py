@@ -23,6 +23,7 @@ from partsel.cli.common import (
     database_errors_exit,
     echo_json,
     message,
+    progress,
     session,
 )
 from partsel.design import load_design
@@ -246,6 +247,15 @@ def bom_text(rep: BomReport) -> str:
     return "\n".join(out)
 
 
+def _count_lines(path: Path) -> int:
+    """Lines of a file below its header, for a progress bar (0 when it cannot be read)."""
+    try:
+        with path.open("rb") as fh:
+            return max(sum(1 for _ in fh) - 1, 0)
+    except OSError:
+        return 0
+
+
 def _column_map(items: list[str] | None) -> dict[str, str]:
     out: dict[str, str] = {}
     for item in items or []:
@@ -303,16 +313,19 @@ def bom_check(
             raise InputError("--substitutes must be 0 or more", pointer="/substitutes")
         cols = _column_map(column)
         d = _design(design)
-        rep = session(ctx).check_bom(
-            bom,
-            d,
-            columns=cols,
-            basis=basis,
-            substitutes=substitutes,
-            encoding=encoding,
-            delimiter=delimiter,
-            package=package,
-        )
+        lines = _count_lines(bom)
+        with progress(lines, "checking the BOM", enabled=not json_out) as advance:
+            rep = session(ctx).check_bom(
+                bom,
+                d,
+                columns=cols,
+                basis=basis,
+                progress=advance,
+                substitutes=substitutes,
+                encoding=encoding,
+                delimiter=delimiter,
+                package=package,
+            )
         if csv_out is not None and str(csv_out) != "-":
             try:
                 rep.write_csv(csv_out)

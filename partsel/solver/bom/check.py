@@ -103,6 +103,7 @@ def check_bom(
     encoding: str = "utf-8",
     delimiter: str | None = None,
     package: str | None = None,
+    progress: Callable[[int], None] | None = None,
 ) -> BomReport:
     """Check every line of a BOM against the catalogue.
 
@@ -121,6 +122,7 @@ def check_bom(
         out-of-spec error (0: none).
     encoding, delimiter: see :func:`read_bom`.
     package: package code on the board, passed to the substitute vetting.
+    progress: called with 1 as each line is done (a progress bar).
     """
     frame = catalogue.frame if isinstance(catalogue, PartTable) else catalogue
     table = (
@@ -305,6 +307,8 @@ def check_bom(
                     frame, m.part_number, d, basis_for(d), substitutes, package, out_of_spec
                 )
             subs = vet_cache[key]
+        if progress is not None:
+            progress(1)
         out_lines.append(
             BomLine(
                 line=p["n"],
