@@ -78,3 +78,30 @@ def test_progress_only_in_a_terminal(monkeypatch) -> None:
     with common.progress(10, "simulating", enabled=False) as advance:  # --json
         advance(10)
     assert buf3.getvalue() == ""
+
+
+def test_output_paths_are_checked_before_the_work(cli, tmp_path: Path) -> None:
+    """An output that cannot be written stops the command at once with exit 2, the path and
+    the reason (no traceback, no work done first); nothing is left behind."""
+    assert cli("load", PROJECT / "sample-catalog" / "parts").exit_code == 0
+    blocker = tmp_path / "a-file"
+    blocker.write_text("x", encoding="utf-8")
+    cases = [
+        ("export-csv", tmp_path / "nofolder" / "p.csv"),
+        ("export", blocker),  # a file where a folder is wanted
+        ("deck", DESIGN, "BRQ-622", "-o", blocker / "d.cir"),
+        ("waveform", DESIGN, "BRQ-622", "-o", tmp_path / "nofolder" / "w.png"),
+        ("bom-check", PROJECT / "sample-catalog" / "bom" / "mixed-board.csv", "--csv",
+         tmp_path / "nofolder" / "out.csv"),
+    ]  # fmt: skip
+    for args in cases:
+        r = cli(*args)
+        assert r.exit_code == 2, (args, r.output)
+        assert (
+            "Traceback" not in r.output
+            and r.exception is None
+            or isinstance(r.exception, SystemExit)
+        )
+        target = str(args[-1])
+        assert f"error: {target}:" in r.stderr, (args, r.stderr)
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a-file"]

@@ -56,6 +56,7 @@ from partsel.cli.common import (
     writable_engine,
 )
 from partsel.errors import InputError
+from partsel.io.paths import output_file, output_folder
 from partsel.params import PARAMS, SIDES, Lifecycle, Topology
 from partsel.units import UNIT_LABEL, format_si
 
@@ -468,7 +469,12 @@ def export(
     ),
 ) -> None:
     """Write the catalogue as loadable files, one per maker."""
-    files = export_catalogue(engine(ctx), directory, fmt.value)
+    with bad_input_exits():
+        output_folder(directory)
+    try:
+        files = export_catalogue(engine(ctx), directory, fmt.value)
+    except OSError as exc:
+        fail_bad_input(InputError(f"cannot write: {exc.strerror or exc}", file=str(directory)))
     message(f"wrote {len(files)} files to {directory}")
 
 
@@ -480,11 +486,17 @@ def export_csv(
     ],
 ) -> None:
     """Write the flat SI columns of every part as CSV (one row per part)."""
+    if str(file) != "-":
+        with bad_input_exits():
+            output_file(file)
     df = parts_frame(engine(ctx))
     if str(file) == "-":
         df.to_csv(sys.stdout, index=False, columns=list(FLAT_COLUMN_NAMES))
         return
-    df.to_csv(file, index=False, columns=list(FLAT_COLUMN_NAMES))
+    try:
+        df.to_csv(file, index=False, columns=list(FLAT_COLUMN_NAMES))
+    except OSError as exc:
+        fail_bad_input(InputError(f"cannot write: {exc.strerror or exc}", file=str(file)))
     message(f"wrote {len(df)} parts to {file}")
 
 

@@ -19,11 +19,13 @@ from partsel.cli.common import (
     bad_input_exits,
     database_errors_exit,
     echo_json,
+    fail_bad_input,
     message,
     progress,
     session,
 )
 from partsel.errors import InputError
+from partsel.io.paths import output_file
 from partsel.report import prediction_text
 
 PartsArg = Annotated[list[str] | None, typer.Argument(help="Part numbers (default: all).")]
@@ -107,9 +109,13 @@ def waveform(
 
     with bad_input_exits():
         if out.suffix.lower() not in (".png", ".svg"):
-            raise InputError(f"{out}: the figure must be a .png or .svg file", pointer="/out")
+            raise InputError("the figure must be a .png or .svg file", file=str(out))
+        output_file(out)  # before the simulation, not after it
         pred = _prediction(ctx, design, [part], basis, series, margin, True)
-    path = waveform_figure(pred, 0, out)
+    try:
+        path = waveform_figure(pred, 0, out)
+    except OSError as exc:
+        fail_bad_input(InputError(f"cannot write: {exc.strerror or exc}", file=str(out)))
     message(f"wrote {path} ({pred.ranking.requirements.basis} basis)")
 
 
@@ -130,9 +136,10 @@ def deck(
     from partsel.physics.spice import spice_deck
 
     with bad_input_exits():
-        pred = _prediction(ctx, design, [part], basis, series, margin, False)
         if periods < 1:
             raise InputError("periods must be at least 1", pointer="/periods")
+        output_file(out)
+        pred = _prediction(ctx, design, [part], basis, series, margin, False)
     rn = rp = None
     if with_fix:
         rn = float(pred.fix.r_neg_ohm[0])
@@ -151,7 +158,10 @@ def deck(
         periods=periods,
         title=f"partsel macro-model of {pn} in {pred.design.name}",
     )
-    out.write_text(text, encoding="utf-8")
+    try:
+        out.write_text(text, encoding="utf-8")
+    except OSError as exc:
+        fail_bad_input(InputError(f"cannot write: {exc.strerror or exc}", file=str(out)))
     message(f"wrote {out} ({pred.ranking.requirements.basis} basis)")
 
 

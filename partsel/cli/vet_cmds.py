@@ -28,6 +28,7 @@ from partsel.cli.common import (
 )
 from partsel.design import load_design
 from partsel.errors import InputError
+from partsel.io.paths import output_file
 from partsel.physics.circuit import Design
 from partsel.solver.bom import ROLES, BomReport
 from partsel.solver.substitute import (
@@ -312,6 +313,8 @@ def bom_check(
         if substitutes < 0:
             raise InputError("--substitutes must be 0 or more", pointer="/substitutes")
         cols = _column_map(column)
+        if csv_out is not None and str(csv_out) != "-":
+            output_file(csv_out)
         d = _design(design)
         lines = _count_lines(bom)
         with progress(lines, "checking the BOM", enabled=not json_out) as advance:
