@@ -88,7 +88,7 @@ def test_output_paths_are_checked_before_the_work(cli, tmp_path: Path) -> None:
     blocker.write_text("x", encoding="utf-8")
     cases = [
         ("export-csv", tmp_path / "nofolder" / "p.csv"),
-        ("export", blocker),  # a file where a folder is wanted
+        ("export", blocker / "sub"),  # below a file: no folder can be made there
         ("deck", DESIGN, "BRQ-622", "-o", blocker / "d.cir"),
         ("waveform", DESIGN, "BRQ-622", "-o", tmp_path / "nofolder" / "w.png"),
         ("bom-check", PROJECT / "sample-catalog" / "bom" / "mixed-board.csv", "--csv",
