@@ -106,3 +106,17 @@ def test_output_paths_are_checked_before_the_work(cli, tmp_path: Path) -> None:
         assert f"error: {target}:" in r.stderr, (args, r.stderr)
     left = sorted(p.name for p in tmp_path.iterdir() if not p.name.startswith("catalogue"))
     assert left == ["a-file"]  # (the test catalogue lives here too)
+
+
+def test_huge_integers_on_the_command_line_are_refused(cli) -> None:
+    """A version or a count beyond what the database holds is a usage error (exit 2), not an
+    overflow in the database driver."""
+    assert cli("load", PROJECT / "sample-catalog" / "parts").exit_code == 0
+    for args in (
+        ("restore", "BRQ-622", "99999999999999999999"),
+        ("rank", DESIGN, "-n", "99999999999999999999"),
+        ("deck", DESIGN, "BRQ-622", "-o", "x.cir", "--periods", "1000000"),
+    ):
+        r = cli(*args)
+        assert r.exit_code == 2, (args, r.output)
+        assert "Traceback" not in r.output

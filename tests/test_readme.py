@@ -29,6 +29,6 @@ def test_test_command_installs_ngspice_as_root_or_with_sudo() -> None:
     _, test_it = setup_blocks()
     prefix = test_it.split(";", 1)[0]  # S=$(...)
     for uid, want in (("0", ""), ("1000", "sudo")):
-        script = f"id() {{ echo {uid}; }}; {prefix}; printf %s \"$S\""
+        script = f'id() {{ echo {uid}; }}; {prefix}; printf %s "$S"'
         out = subprocess.run(["bash", "-c", script], capture_output=True, text=True, check=True)
         assert out.stdout == want

@@ -61,6 +61,8 @@ from partsel.params import PARAMS, SIDES, Lifecycle, Topology
 from partsel.units import UNIT_LABEL, format_si
 
 Paths = Annotated[list[Path], typer.Argument(help="Catalogue files or folders (YAML/JSON).")]
+#: Largest part version a command accepts (a version is a 64-bit integer in the database).
+VERSION_MAX = 2**62
 DryRun = Annotated[bool, typer.Option("--dry-run", help="Check and report; store nothing.")]
 
 
@@ -353,6 +355,7 @@ ExpectVersion = Annotated[
         "--expect-version",
         metavar="N",
         min=0,
+        max=VERSION_MAX,
         help="The version the change was made against (see 'show'); 0 adds a new part. "
         "Refused, with what changed since, when the catalogue holds another version.",
     ),
@@ -442,13 +445,17 @@ def history(
 def restore(
     ctx: typer.Context,
     part: Annotated[str, typer.Argument(help="Part number.")],
-    version: Annotated[int, typer.Argument(help="Version to bring back (see 'history').")],
+    version: Annotated[
+        int,
+        typer.Argument(help="Version to bring back (see 'history').", min=1, max=VERSION_MAX),
+    ],
     expect_version: Annotated[
         int | None,
         typer.Option(
             "--expect-version",
             metavar="N",
             min=1,
+            max=VERSION_MAX,
             help="Refuse, with what changed since, unless the part is still at version N.",
         ),
     ] = None,

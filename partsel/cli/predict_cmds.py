@@ -128,7 +128,9 @@ def deck(
     with_fix: Annotated[
         bool, typer.Option("--with-fix", help="Add partsel's recommended fix resistor.")
     ] = False,
-    periods: Annotated[int, typer.Option("--periods", help="Periods to simulate.")] = 3,
+    periods: Annotated[
+        int, typer.Option("--periods", help="Periods to simulate (1 to 100).", min=1, max=100)
+    ] = 3,
     series: SeriesOpt = None,
     margin: MarginOpt = None,
 ) -> None:

@@ -211,7 +211,9 @@ def hint_lines(r: Ranking, limit: int = 6) -> list[str]:
 def rank_cmd(
     ctx: typer.Context,
     design: DesignArg,
-    top: Annotated[int, typer.Option("--top", "-n", help="Parts to list (0: all).", min=0)] = 10,
+    top: Annotated[
+        int, typer.Option("--top", "-n", help="Parts to list (0: all).", min=0, max=10**7)
+    ] = 10,
     basis: BasisOpt = None,
     json_out: JsonFlag = False,
     csv_out: Annotated[

@@ -128,7 +128,9 @@ def vet(
         typer.Option("--only", help="Vet only this candidate (repeat for more)."),
     ] = None,
     all_: Annotated[bool, typer.Option("--all", help="Also list unsuitable candidates.")] = False,
-    top: Annotated[int, typer.Option("--top", help="Show at most this many (0: all).")] = 10,
+    top: Annotated[
+        int, typer.Option("--top", help="Show at most this many (0: all).", min=0, max=10**6)
+    ] = 10,
     details: Annotated[
         bool, typer.Option("--details", help="Every parameter compared, and every note.")
     ] = False,
@@ -298,7 +300,10 @@ def bom_check(
     basis: BasisOpt = None,
     package: PackageOpt = None,
     substitutes: Annotated[
-        int, typer.Option("--substitutes", help="Substitutes suggested per line at risk.")
+        int,
+        typer.Option(
+            "--substitutes", help="Substitutes suggested per line at risk.", min=0, max=50
+        ),
     ] = 3,
     csv_out: Annotated[
         Path | None,
