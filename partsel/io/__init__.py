@@ -1,0 +1,11 @@
+"""Readers and writers at the edge of partsel, each bounded and each failing with InputError.
+
+- :mod:`partsel.io.textfile`: YAML / JSON / TOML files to Python data, with limits on size,
+  nesting depth, YAML alias expansion and number length (every structured-file reader uses it);
+- :mod:`partsel.io.csvout`: the one CSV writer (formula injection neutralised);
+- :mod:`partsel.io.suffix`: the maker suffix-rule language used to match BOM part numbers;
+- :mod:`partsel.io.partnumber`: characters allowed in part numbers and maker names, and the
+  cleaning of BOM cells before matching.
+
+Importing this package imports none of them (the core may import the pure ones alone).
+"""
