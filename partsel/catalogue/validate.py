@@ -21,6 +21,7 @@ zero-width or bidirectional characters), and suffix rules must be in partsel's s
 from __future__ import annotations
 
 import math
+import re
 from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field
 from functools import lru_cache
@@ -75,8 +76,12 @@ def _fast_is_valid() -> Callable[[Any], bool] | None:
 
 def _schema_errors(data: Any) -> list[ValidationError]:
     fast = _fast_is_valid()
-    if fast is not None and fast(data):
-        return []
+    try:
+        if fast is not None and fast(data):
+            return []
+    except (UnicodeEncodeError, ValueError, OverflowError):
+        pass  # text or numbers the fast validator cannot take: jsonschema decides
+
     return sorted(_validator().iter_errors(data), key=lambda e: list(map(str, e.path)))
 
 
@@ -128,6 +133,7 @@ def _given(value: Any) -> str:
     return excerpt(value) if not isinstance(value, float) else f"{value:g}"
 
 
+_SURROGATE = re.compile("[\ud800-\udfff]")
 #: Largest integer magnitude stored as given (a float and a JSON reader keep it exactly).
 MAX_EXACT_INT = 2**53
 
@@ -135,17 +141,22 @@ MAX_EXACT_INT = 2**53
 def number_problems(
     data: Any, *, file: str | None, record_of: Callable[[Path_], str | None]
 ) -> list[Problem]:
-    """Numbers anywhere in ``data`` that cannot be stored as given: non-finite floats and
-    integers beyond +/-:data:`MAX_EXACT_INT` (iterative walk; ``record_of`` names the record
-    of a path)."""
+    """Values anywhere in ``data`` that cannot be stored as given: non-finite floats,
+    integers beyond +/-:data:`MAX_EXACT_INT`, text (values or keys) with a lone surrogate code
+    point (iterative walk; ``record_of`` names the record of a path)."""
     problems: list[Problem] = []
     stack: list[tuple[Any, Path_]] = [(data, [])]
     while stack:
         node, path = stack.pop()
         if isinstance(node, dict):
             stack.extend((v, [*path, k]) for k, v in node.items())
+            stack.extend((k, path) for k in node if isinstance(k, str) and _SURROGATE.search(k))
         elif isinstance(node, list):
             stack.extend((v, [*path, i]) for i, v in enumerate(node))
+        elif isinstance(node, str):
+            if _SURROGATE.search(node):
+                message = "text holds a lone surrogate code point; it cannot be stored as UTF-8"
+                problems.append(Problem(message, file, record_of(path), json_pointer(*path)))
         elif isinstance(node, bool):
             continue
         elif isinstance(node, float) and not math.isfinite(node):
@@ -157,8 +168,8 @@ def number_problems(
         elif isinstance(node, int) and abs(node) > MAX_EXACT_INT:
             problems.append(
                 Problem(
-                    f"{excerpt(node)} is out of range (integers are kept up to 2**53; write a "
-                    "quantity such as '1e21 Hz' instead)",
+                    f"{excerpt(node)} is out of range (integers are kept up to 2**53; write "
+                    "a large value in exponent form, e.g. 1e21)",
                     file,
                     record_of(path),
                     json_pointer(*path),

@@ -161,7 +161,13 @@ def read_structured(
     if text.startswith("\ufeff"):
         text = text[1:]
     try:
-        return _PARSERS[syntax](text, max_depth, max_alias_nodes)
+        if _SURROGATE.search(text):  # only text given as str can hold them
+            pos = _SURROGATE.search(text).start()  # type: ignore[union-attr]
+            raise _Refusal("not UTF-8 text: a lone surrogate code point", *_line_col(text, pos))
+        data = _PARSERS[syntax](text, max_depth, max_alias_nodes)
+        if _SURROGATE_ESCAPE.search(text):
+            _check_no_surrogates(data)
+        return data
     except _Refusal as exc:
         raise InputError(
             f"{exc.message}{_at(exc.line, exc.column)}", file=file, record=record
@@ -196,6 +202,32 @@ def _decode(data: bytes, file: str | None, record: str | None) -> str:
             file=file,
             record=record,
         ) from None
+
+
+# ---- surrogates -------------------------------------------------------------------------------
+
+_SURROGATE = re.compile("[\ud800-\udfff]")
+#: An escape that can make a surrogate code point in a JSON or YAML string.
+_SURROGATE_ESCAPE = re.compile(r"\\u[dD][89a-fA-F]|\\U0000[dD][89a-fA-F]")
+
+
+def _check_no_surrogates(data: Any) -> None:
+    """Refuse strings (keys too) holding a lone surrogate (from an escape such as \\udcff):
+    such text cannot be stored or written as UTF-8."""
+    stack = [data]
+    while stack:
+        node = stack.pop()
+        if isinstance(node, str):
+            if _SURROGATE.search(node):
+                raise _Refusal(
+                    "a string holds a lone surrogate code point (an escape such as \\udcff); "
+                    "such text cannot be stored"
+                )
+        elif isinstance(node, dict):
+            stack.extend(node.keys())
+            stack.extend(node.values())
+        elif isinstance(node, list):
+            stack.extend(node)
 
 
 # ---- nesting depth before parsing (JSON, TOML) -------------------------------------------------
@@ -621,7 +653,13 @@ def _parse_yaml(text: str, max_depth: int, max_alias_nodes: int) -> Any:
     loader_cls = _LOADERS.get(key)
     if loader_cls is None:
         loader_cls = _LOADERS.setdefault(key, _yaml_loader(max_depth, max_alias_nodes))
-    loader = loader_cls(text)
+    try:
+        loader = loader_cls(text)
+    except yaml.reader.ReaderError as exc:  # a character YAML does not allow, checked up front
+        line, col = _line_col(text, exc.position)
+        raise _Refusal(
+            f"malformed YAML: character U+{exc.character:04X} is not allowed in YAML", line, col
+        ) from None
     try:
         return loader.get_single_data()
     except loader_cls.LimitError as exc:  # type: ignore[attr-defined]
