@@ -560,6 +560,23 @@ PLAUSIBLE: dict[str, Plausible] = {
 }  # fmt: skip
 
 
+def _ranges() -> dict[str, tuple[float, float, bool]]:
+    return {d: (r.low, r.high, d == "temperature") for d, r in PLAUSIBLE.items()}
+
+
+_RANGES = _ranges()
+
+
+def is_plausible(value: float, dimension: str) -> bool:
+    """True when ``value`` lies in the plausible range of ``dimension`` (zero, NaN and
+    dimensions without a range count as plausible). The test behind :func:`plausibility`."""
+    rng = _RANGES.get(dimension)
+    if rng is None or value == 0 or value != value:
+        return True
+    lo, hi, signed = rng
+    return lo <= (value if signed else abs(value)) <= hi
+
+
 def plausibility(
     value: float,
     dimension: str,
@@ -575,20 +592,16 @@ def plausibility(
     where it comes from (:data:`PLAUSIBLE`), and is for people to look at: callers keep the
     value.
     """
-    rng = PLAUSIBLE.get(dimension)
-    if rng is None or value == 0 or not math.isfinite(value):
+    if not math.isfinite(value) or is_plausible(value, dimension):
         return None
+    rng = PLAUSIBLE[dimension]
     label = UNIT_LABEL[dimension]
     if dimension == "temperature":
-        if rng.low <= value <= rng.high:
-            return None
         message = (
             f"{value:g} degC is outside the plausible range {rng.low:g} .. {rng.high:g} degC "
             f"({rng.source}); check the value and its unit"
         )
     else:
-        if rng.low <= abs(value) <= rng.high:
-            return None
         message = (
             f"{format_si(value, label)} is an implausible {_short_noun(dimension)} "
             f"(expected a magnitude from {format_si(rng.low, label)} to "

@@ -8,9 +8,10 @@ A valid part record is also turned into its *canonical* form: the same structure
 quantity parsed to an SI float and every spec written as an object ``{min?, typ?, max?, at?}``.
 Two records with equal canonical forms mean the same ("50 uA" and 5e-05).
 
-Besides the schema and the units, a document is refused when it holds a number that cannot be
-stored as given (not finite, or an integer beyond +/-2**53, the range a JSON number and a float
-keep exactly): what ``check`` accepts, ``load`` can store. Part numbers and maker names must be
+Besides the schema and the units, a document is refused when a part holds a value that cannot
+be stored as given (a number not finite or beyond the float range, an integer beyond +/-2**53,
+the range a JSON number and a float keep exactly, text with a lone surrogate): what ``check``
+accepts, ``load`` can store. Part numbers and maker names must be
 printable text (:func:`partsel.io.partnumber.name_problem`: no blank names, no control,
 zero-width or bidirectional characters), and suffix rules must be in partsel's suffix language
 (:mod:`partsel.io.suffix`). Values that parse but are implausible
@@ -37,7 +38,7 @@ from partsel.errors import InputError, Problem, excerpt, json_pointer
 from partsel.io.partnumber import name_problem
 from partsel.io.suffix import compile_rule
 from partsel.params import SIDES, Topology
-from partsel.units import parse_quantity, plausibility
+from partsel.units import is_plausible, parse_quantity, plausibility
 
 Path_ = list[str | int]
 
@@ -138,46 +139,6 @@ _SURROGATE = re.compile("[\ud800-\udfff]")
 MAX_EXACT_INT = 2**53
 
 
-def number_problems(
-    data: Any, *, file: str | None, record_of: Callable[[Path_], str | None]
-) -> list[Problem]:
-    """Values anywhere in ``data`` that cannot be stored as given: non-finite floats,
-    integers beyond +/-:data:`MAX_EXACT_INT`, text (values or keys) with a lone surrogate code
-    point (iterative walk; ``record_of`` names the record of a path)."""
-    problems: list[Problem] = []
-    stack: list[tuple[Any, Path_]] = [(data, [])]
-    while stack:
-        node, path = stack.pop()
-        if isinstance(node, dict):
-            stack.extend((v, [*path, k]) for k, v in node.items())
-            stack.extend((k, path) for k in node if isinstance(k, str) and _SURROGATE.search(k))
-        elif isinstance(node, list):
-            stack.extend((v, [*path, i]) for i, v in enumerate(node))
-        elif isinstance(node, str):
-            if _SURROGATE.search(node):
-                message = "text holds a lone surrogate code point; it cannot be stored as UTF-8"
-                problems.append(Problem(message, file, record_of(path), json_pointer(*path)))
-        elif isinstance(node, bool):
-            continue
-        elif isinstance(node, float) and not math.isfinite(node):
-            problems.append(
-                Problem(
-                    f"value is not finite ({node!r})", file, record_of(path), json_pointer(*path)
-                )
-            )
-        elif isinstance(node, int) and abs(node) > MAX_EXACT_INT:
-            problems.append(
-                Problem(
-                    f"{excerpt(node)} is out of range (integers are kept up to 2**53; write "
-                    "a large value in exponent form, e.g. 1e21)",
-                    file,
-                    record_of(path),
-                    json_pointer(*path),
-                )
-            )
-    return problems
-
-
 class _Walker:
     """Walks a record along the schema: parses quantities, checks signs and spec order."""
 
@@ -213,6 +174,23 @@ class _Walker:
         items = schema.get("items")
         if isinstance(value, list) and items is not None:
             return [self.walk(items, v, [*path, i]) for i, v in enumerate(value)]
+        return self.leaf(value, path)
+
+    def leaf(self, value: Any, path: Path_) -> Any:
+        """A value stored as given: refuse what could not be stored (check and load agree)."""
+        kind = type(value)
+        if kind is str:
+            if _SURROGATE.search(value):
+                self.problem("text holds a lone surrogate code point; it cannot be stored", path)
+        elif kind is float:
+            if not math.isfinite(value):
+                self.problem(f"value is not finite ({value!r})", path)
+        elif kind is int and abs(value) > MAX_EXACT_INT:
+            self.problem(
+                f"{excerpt(value)} is out of range (integers are kept up to 2**53; write a "
+                "large value in exponent form, e.g. 1e21)",
+                path,
+            )
         return value
 
     def quantity(self, dim: str, value: Any, path: Path_, nonneg: bool) -> float:
@@ -229,9 +207,10 @@ class _Walker:
                 return math.nan
         if nonneg and out < 0:
             self.problem(f"must not be negative (got {_given(value)})", path)
-        warning = plausibility(out, dim, field=json_pointer(*path), file=self.file)
+        warning = None if is_plausible(out, dim) else plausibility(out, dim)
         if warning is not None:
-            self.warnings.append(Problem(warning.message, self.file, self.record, warning.pointer))
+            pointer = json_pointer(*path)
+            self.warnings.append(Problem(warning.message, self.file, self.record, pointer))
         return canonical_float(out)
 
     def spec(self, schema: Schema, value: Any, path: Path_, nonneg: bool) -> dict[str, Any]:
@@ -460,12 +439,9 @@ def validate_document(data: Any, *, file: str) -> tuple[CatalogueDocument | None
         return None, [Problem("file is empty", file)]
     if not isinstance(data, dict):
         return None, [Problem("the top level must be an object with 'parts' and/or 'makers'", file)]
-    problems = number_problems(data, file=file, record_of=lambda p: _record_of(data, p))
-    reported = {p.pointer for p in problems}
+    problems: list[Problem] = []
     for err in _schema_errors(data):
-        problems.extend(
-            p for p in _schema_problems(err, file, data) if not _under(p.pointer, reported)
-        )
+        problems.extend(_schema_problems(err, file, data))
     # Names and rules, then semantic checks, run on schema-invalid records too (all problems of
     # a file at once), minus those at or below a field already reported.
     reported = {p.pointer for p in problems}
