@@ -84,3 +84,44 @@ class InputError(PartselError):
             for p in self.problems
         ]
         return InputError(problems=probs)
+
+
+#: Most characters of a given value quoted in a message (the rest is cut, with "…").
+EXCERPT_CHARS = 40
+
+
+def excerpt(value: object, limit: int = EXCERPT_CHARS) -> str:
+    """A short rendering of ``value`` for messages, never the whole of a large value.
+
+    Strings are quoted (``repr``) and cut to ``limit`` characters with "…" marking the cut;
+    numbers are written out unless they are long (``"a 401-digit number"``); lists and
+    objects are named by their kind and size, their contents are not rendered. Cheap for any
+    size: nothing is walked or formatted beyond ``limit`` characters.
+    """
+    if isinstance(value, str):
+        if len(value) <= limit:
+            return repr(value)
+        return repr(value[:limit])[:-1] + "…" + repr(value[:limit])[-1]
+    if isinstance(value, bool) or value is None:
+        return repr(value)
+    if isinstance(value, int):
+        if value.bit_length() <= 3 * limit:  # about limit decimal digits
+            text = str(value)
+            if len(text) <= limit:
+                return text
+        return f"a {_digit_count(value)}-digit number"
+    if isinstance(value, float):
+        return repr(value)
+    if isinstance(value, list | tuple):
+        return f"a list of {len(value)} item{'s' * (len(value) != 1)}"
+    if isinstance(value, dict):
+        return f"an object with {len(value)} field{'s' * (len(value) != 1)}"
+    return f"a {type(value).__name__}"
+
+
+def _digit_count(value: int) -> int:
+    """Decimal digits of ``value`` without converting it to text (no 4300-digit limit)."""
+    n = abs(value)
+    digits = max(1, int(n.bit_length() * 0.30102999566398120) + 1)  # log10(2)
+    # The estimate is exact or one too high: correct it with one comparison.
+    return digits - 1 if digits > 1 and n < 10 ** (digits - 1) else digits

@@ -84,7 +84,7 @@ def test_wrong_dimension_names_the_field(quill_doc: dict) -> None:
     quill_doc["parts"][0]["dynamics"]["slew_rise"]["min"] = "0.3 V"
     (p,) = problems_of(quill_doc)
     assert p.pointer == "/parts/0/dynamics/slew_rise/min"
-    assert "expected slew" in p.message
+    assert "a voltage, not a slew rate" in p.message
 
 
 def test_min_greater_than_typ(quill_doc: dict) -> None:

@@ -82,7 +82,7 @@ BAD = [
     ("yaml", None, None, "malformed YAML"),
     ("schema", "record QFA-2210", "/parts/0/lifecycle", "is not one of"),
     ("unit", "record QFA-2210", "/parts/0/dynamics/gbw/typ", "unknown unit"),
-    ("dimension", "record QFA-2210", "/parts/0/output/stage_current/typ", "expected current"),
+    ("dimension", "record QFA-2210", "/parts/0/output/stage_current/typ", "not a current"),
     ("order", "record QFA-2210", "/parts/0/output/stage_current/min", "greater than typ"),
     # reported at the second occurrence (brightwater.json), naming the first (bad.yaml)
     ("duplicate", "record BWD-R71", "/parts/0/part_number", "duplicate part number"),

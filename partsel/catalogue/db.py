@@ -5,6 +5,14 @@ it picks the URL (argument, else ``PARTSEL_DB``, else the default file), makes t
 brings the schema up to date and, on first use of the default file, fills it from the bundled
 sample catalogue.
 
+The first fill is atomic: the catalogue is built in a temporary file next to the default one
+and published with a hard link (create-if-absent), so a first run killed or interrupted at any
+moment leaves either no catalogue (the next run fills it again) or the full one, and two first
+runs at once both succeed with the one catalogue published first. A default file that holds no
+part, maker or history row at all (left by an interrupted fill of an older partsel) is filled
+again in place, in one transaction. ``PARTSEL_TEST_FILL_PAUSE`` (tests only) names a stage of
+the fill at which it stops until a line arrives on standard input (:data:`FILL_STAGES`).
+
 Two backends take the same code paths: SQLite (the default file, WAL journal) and PostgreSQL
 through psycopg 3 (``postgresql+psycopg://user@host/db``; install ``partsel[postgres]``).
 Every change goes through :func:`write_transaction`, which serialises writers: SQLite takes its
@@ -16,7 +24,10 @@ from __future__ import annotations
 
 import logging
 import os
+import re
+import secrets
 import sqlite3
+import sys
 import time
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -33,13 +44,20 @@ from sqlalchemy.engine import Connection, Engine
 from sqlalchemy.pool import StaticPool
 
 from partsel.catalogue.files import CATALOGUE_SUFFIXES
-from partsel.catalogue.tables import part_table
+from partsel.catalogue.tables import history_table, maker_table, part_table
 from partsel.errors import InputError
 
 #: Environment variable naming the database URL.
 DB_ENV = "PARTSEL_DB"
 #: Environment variable naming the sample catalogue folder used to fill a new default database.
 SAMPLE_ENV = "PARTSEL_SAMPLE_CATALOG"
+#: Environment variable (tests only): the stage of the first fill at which to pause.
+FILL_PAUSE_ENV = "PARTSEL_TEST_FILL_PAUSE"
+#: Stages of the first fill, in order: temporary file created; schema migrated; inside the load
+#: transaction after the first part was written; sample loaded and committed; published.
+FILL_STAGES = ("created", "migrated", "loading", "loaded", "published")
+#: Age after which a temporary fill file left by a killed first run is removed, seconds.
+STALE_FILL_SECONDS = 3600
 #: SQLite busy timeout, ms: how long a writer waits for another writer's lock.
 SQLITE_BUSY_TIMEOUT_MS = 5000
 #: PostgreSQL lock timeout, ms: how long a writer waits for another writer before giving up.
@@ -371,8 +389,109 @@ def find_sample_catalogue() -> Path | None:
 
 
 def _remove_sqlite_file(path: Path) -> None:
-    for p in (path, path.with_name(path.name + "-wal"), path.with_name(path.name + "-shm")):
-        p.unlink(missing_ok=True)
+    for suffix in ("", "-wal", "-shm", "-journal"):
+        path.with_name(path.name + suffix).unlink(missing_ok=True)
+
+
+def _fill_pause(stage: str) -> None:
+    """Test hook: stop at ``stage`` until a line arrives on stdin (see FILL_PAUSE_ENV)."""
+    if os.environ.get(FILL_PAUSE_ENV) == stage:
+        sys.stderr.write(f"partsel: first fill paused at {stage}\n")
+        sys.stderr.flush()
+        sys.stdin.readline()
+
+
+_PART_INSERT = re.compile(r'\s*INSERT INTO "?part"?\s*\(', re.IGNORECASE)
+
+
+def _pause_inside_load(engine: Engine) -> None:
+    """Test hook: pause at stage 'loading', after the first part row was written."""
+    if os.environ.get(FILL_PAUSE_ENV) != "loading":
+        return
+    done = False
+
+    def after_execute(_conn: Any, _cursor: Any, statement: str, *_args: Any) -> None:
+        nonlocal done
+        if not done and _PART_INSERT.match(statement):
+            done = True
+            _fill_pause("loading")
+
+    sa.event.listen(engine, "after_cursor_execute", after_execute)
+
+
+def _fill_files(path: Path) -> list[Path]:
+    return sorted(path.parent.glob(f".{path.name}.fill-*"))
+
+
+def _remove_stale_fills(path: Path) -> None:
+    """Remove temporary fill files of first runs that were killed long ago."""
+    now = time.time()
+    for f in _fill_files(path):
+        if f.name.endswith(("-wal", "-shm", "-journal")):
+            continue
+        try:
+            if now - f.stat().st_mtime > STALE_FILL_SECONDS:
+                _remove_sqlite_file(f)
+        except OSError:
+            continue
+
+
+def _publish(tmp: Path, path: Path) -> None:
+    """Make ``tmp`` the catalogue at ``path`` unless one is there already (then keep that)."""
+    try:
+        os.link(tmp, path)  # atomic create-if-absent: never replaces a published catalogue
+    except FileExistsError:
+        log.info("another first run published %s first; using it", path)
+    except OSError:  # no hard links on this file system: rename, unless one appeared meanwhile
+        if not path.exists():
+            os.replace(tmp, path)
+    finally:
+        _remove_sqlite_file(tmp)
+
+
+def _fill_default(path: Path) -> None:
+    """Create the default catalogue at ``path`` from the sample catalogue, atomically."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    _remove_stale_fills(path)
+    sample = find_sample_catalogue()
+    tmp = path.with_name(f".{path.name}.fill-{os.getpid()}-{secrets.token_hex(4)}")
+    engine = make_engine(sqlite_url(tmp))
+    try:
+        with engine.connect():
+            pass  # creates the file
+        _fill_pause("created")
+        _bring_up_to_date(engine)
+        _fill_pause("migrated")
+        if sample is None:
+            log.info("no sample catalogue found; new catalogue %s is empty", path)
+        else:
+            from partsel.catalogue.store import load_paths  # store imports this module
+
+            _pause_inside_load(engine)
+            load_paths(engine, [sample], user="partsel (sample catalogue)")
+        _fill_pause("loaded")
+        engine.dispose()
+        # Fold the write-ahead log into the file, so that the one file is the whole catalogue.
+        conn = sqlite3.connect(tmp)
+        try:
+            conn.execute("PRAGMA journal_mode=DELETE")
+        finally:
+            conn.close()
+        _publish(tmp, path)
+    except BaseException:
+        engine.dispose()
+        _remove_sqlite_file(tmp)
+        raise
+    _fill_pause("published")
+
+
+def _never_filled(engine: Engine) -> bool:
+    """True when the catalogue has no part, maker or history row at all."""
+    with engine.connect() as conn:
+        for table in (part_table, maker_table, history_table):
+            if conn.execute(sa.select(sa.literal(1)).select_from(table).limit(1)).first():
+                return False
+    return True
 
 
 def _bring_up_to_date(engine: Engine) -> None:
@@ -412,10 +531,11 @@ def _bring_up_to_date(engine: Engine) -> None:
 def open_catalogue(url: str | None = None, *, read_only: bool = False) -> Engine:
     """Engine of the catalogue database at ``url`` (see :func:`resolve_db_url`), schema current.
 
-    The first use of the default SQLite file creates it and loads the sample catalogue into it;
-    if that catalogue does not validate the new file is removed again and the InputError raised.
-    With ``read_only`` nothing is created, upgraded or changed (see :func:`make_engine`).
-    Raises InputError when the database cannot be opened or its schema is not usable.
+    The first use of the default SQLite file creates it, filled with the sample catalogue, in
+    one atomic step (see the module docstring); if that catalogue does not validate no file is
+    created and the InputError is raised. With ``read_only`` nothing is created, upgraded or
+    changed (see :func:`make_engine`). Raises InputError when the database cannot be opened or
+    its schema is not usable.
     """
     explicit = url or os.environ.get(DB_ENV)
     if explicit:
@@ -427,29 +547,24 @@ def open_catalogue(url: str | None = None, *, read_only: bool = False) -> Engine
             raise
         return engine
     path = default_db_path()
-    fresh = not path.exists()
-    if fresh and read_only:
-        raise ReadOnlyError(
-            f"there is no catalogue at {path} yet: run partsel once without --read-only to "
-            "create it"
-        )
+    if not path.exists():
+        if read_only:
+            raise ReadOnlyError(
+                f"there is no catalogue at {path} yet: run partsel once without --read-only to "
+                "create it"
+            )
+        _fill_default(path)
     engine = make_engine(sqlite_url(path), read_only=read_only)
     try:
         _bring_up_to_date(engine)
+        if not read_only and _never_filled(engine):
+            sample = find_sample_catalogue()
+            if sample is not None:
+                from partsel.catalogue.store import load_paths  # store imports this module
+
+                log.info("catalogue %s was never filled; loading the sample catalogue", path)
+                load_paths(engine, [sample], user="partsel (sample catalogue)")
     except BaseException:
         engine.dispose()
         raise
-    if fresh:
-        sample = find_sample_catalogue()
-        if sample is None:
-            log.info("no sample catalogue found; new catalogue %s is empty", path)
-            return engine
-        from partsel.catalogue.store import load_paths  # store imports this module
-
-        try:
-            load_paths(engine, [sample], user="partsel (sample catalogue)")
-        except Exception:
-            engine.dispose()
-            _remove_sqlite_file(path)
-            raise
     return engine

@@ -211,9 +211,11 @@ def _part_skeleton() -> Schema:
         "One amplifier part",
         {
             "part_number": _text(
-                "Orderable part number, unique in the catalogue (case-insensitive)", minLength=1
+                "Orderable part number, unique in the catalogue (case-insensitive); printable "
+                "characters and plain spaces, at most 200",
+                minLength=1,
             ),
-            "maker": _text("Maker name", minLength=1),
+            "maker": _text("Maker name (printable characters and plain spaces)", minLength=1),
             "family": _text("Part family"),
             "description": _text("Short description"),
             "channels": {
@@ -345,9 +347,12 @@ def build_schema() -> Schema:
             "name": _text("Maker name", minLength=1),
             "suffix_rules": {
                 "type": "array",
-                "items": _text("Regular expression (Python re)"),
-                "description": "Regular expressions stripped from BOM part numbers "
-                "when matching them to catalogue part numbers",
+                "items": _text(
+                    "Suffix rule: literal characters, '#' for a digit, '[A-Z]' classes, an "
+                    "optional trailing '$' (see partsel.io.suffix); not a regular expression"
+                ),
+                "description": "Packing or package suffixes stripped from the end of BOM part "
+                "numbers when matching them to catalogue part numbers (e.g. '-TR', '/R7')",
             },
         },
         ("name",),

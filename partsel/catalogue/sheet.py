@@ -18,26 +18,45 @@ which field of a part record, in which unit the column's numbers are, and defaul
 
 Fields are JSON pointers into a part record (see DEVELOPERS.md). Each row becomes one record,
 checked exactly like a catalogue file; problems name the sheet, the row (its number in the
-sheet) and the field, and the column the value came from.
+sheet) and the field, and the column the value came from. A column's ``unit`` must be a unit of
+the field's dimension (:func:`partsel.units.check_unit`: no ``[MHz]``, no ``%`` for a
+frequency); the mapping file is read with the bounded reader (:mod:`partsel.io.textfile`).
+
+Reading is bounded and every failure is an InputError naming the file and the reason, never a
+parser traceback: a sheet file of at most :data:`partsel.io.textfile.MAX_BYTES`; an XLSX file
+must be a zip archive whose parts unpack to at most :data:`MAX_XLSX_UNPACKED` bytes, and its XML
+is parsed by openpyxl through defusedxml (no entity declarations, no external references;
+without defusedxml installed XLSX files are refused). A byte-order mark or zero-width character
+pasted into a part-number or maker cell is dropped (:func:`partsel.io.partnumber.clean_cell`).
 """
 
 from __future__ import annotations
 
 import math
 import re
+import zipfile
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
 import pandas as pd
 
-from partsel.catalogue.files import read_document
 from partsel.catalogue.schema import Schema, catalogue_schema
 from partsel.catalogue.validate import CatalogueDocument, validate_documents
-from partsel.errors import InputError, Problem, json_pointer
-from partsel.units import parse_quantity
+from partsel.errors import InputError, Problem, excerpt, json_pointer
+from partsel.io.partnumber import clean_cell
+from partsel.io.textfile import MAX_BYTES, read_structured, syntax_for
+from partsel.units import check_unit
 
 MAP_FORMAT = "partsel.sheet-map/1"
+#: Largest total size the parts of an XLSX archive may unpack to, bytes.
+MAX_XLSX_UNPACKED = 200 * 1024 * 1024
+#: Most parts (files) in an XLSX archive.
+MAX_XLSX_PARTS = 10_000
+#: Largest header row (the last row of a worksheet in the XLSX format).
+MAX_HEADER_ROW = 1_048_576
+#: Fields whose cells are cleaned of invisible characters before checking.
+_NAME_FIELDS = ("/part_number", "/maker")
 _TRUE = {"true", "yes", "y", "1", "x"}
 _FALSE = {"false", "no", "n", "0", ""}
 
@@ -89,7 +108,7 @@ def _leaf_schema(pointer: str) -> Schema | None:
 def read_mapping(path: Path) -> SheetMapping:
     """Read and check a mapping file; raise InputError naming its bad entries."""
     file = str(path)
-    data = read_document(path)
+    data = read_structured(Path(path), syntax=syntax_for(path) or "YAML", file=file)
     if not isinstance(data, dict) or not isinstance(data.get("columns"), dict):
         raise InputError(
             "a mapping needs an object 'columns' (sheet column -> field)",
@@ -104,11 +123,29 @@ def read_mapping(path: Path) -> SheetMapping:
     if data.get("format", MAP_FORMAT) != MAP_FORMAT:
         problems.append(Problem(f"format must be {MAP_FORMAT!r}", file, None, "/format"))
     header_row = data.get("header_row", 1)
-    if not isinstance(header_row, int) or isinstance(header_row, bool) or header_row < 1:
+    if (
+        not isinstance(header_row, int)
+        or isinstance(header_row, bool)
+        or not 1 <= header_row <= MAX_HEADER_ROW
+    ):
         problems.append(
-            Problem("header_row must be a whole number >= 1", file, None, "/header_row")
+            Problem(
+                f"header_row must be a whole number from 1 to {MAX_HEADER_ROW:,}",
+                file,
+                None,
+                "/header_row",
+            )
         )
         header_row = 1
+    sheet = data.get("sheet")
+    if sheet is not None and not (
+        (isinstance(sheet, str) and sheet.strip())
+        or (isinstance(sheet, int) and not isinstance(sheet, bool) and sheet >= 0)
+    ):
+        problems.append(
+            Problem("sheet must be a worksheet name or a 0-based index", file, None, "/sheet")
+        )
+        sheet = None
     columns: list[ColumnMap] = []
     for name, entry in data["columns"].items():
         where = json_pointer("columns", str(name))
@@ -116,24 +153,35 @@ def read_mapping(path: Path) -> SheetMapping:
         if not isinstance(spec, dict) or not isinstance(spec.get("field"), str):
             problems.append(Problem("give a field pointer, or {field, unit}", file, None, where))
             continue
+        unknown = [k for k in spec if k not in ("field", "unit")]
+        if unknown:
+            problems.append(Problem(f"unknown entry {excerpt(str(unknown[0]))}", file, None, where))
+            continue
         field_ptr, unit = spec["field"], spec.get("unit")
         leaf = _leaf_schema(field_ptr) if field_ptr.startswith("/") else None
         if leaf is None:
             problems.append(
                 Problem(
-                    f"{field_ptr!r} is not a field of a part record", file, None, where + "/field"
+                    f"{excerpt(field_ptr)} is not a field of a part record",
+                    file,
+                    None,
+                    where + "/field",
                 )
             )
             continue
         if unit is not None:
             dim = leaf.get("x-dimension")
-            try:
-                if dim is None:
-                    raise InputError(f"field {field_ptr} takes no unit")
-                parse_quantity(f"1 {unit}", dim)
-            except InputError as exc:
-                problems.append(Problem(str(exc.problems[0].message), file, None, where + "/unit"))
+            if dim is None:
+                problems.append(
+                    Problem(f"field {field_ptr} takes no unit", file, None, where + "/unit")
+                )
                 continue
+            try:
+                check_unit(unit, dim)
+            except InputError as exc:
+                problems.append(Problem(exc.problems[0].message, file, None, where + "/unit"))
+                continue
+            unit = unit.strip()
         columns.append(ColumnMap(str(name), field_ptr, unit, leaf))
     defaults = data.get("defaults") or {}
     if not isinstance(defaults, dict):
@@ -145,7 +193,7 @@ def read_mapping(path: Path) -> SheetMapping:
         if not (isinstance(ptr, str) and ptr.startswith("/") and _leaf_schema(ptr)):
             problems.append(
                 Problem(
-                    f"{ptr!r} is not a field of a part record",
+                    f"{excerpt(ptr)} is not a field of a part record",
                     file,
                     None,
                     json_pointer("defaults", str(ptr)),
@@ -153,7 +201,7 @@ def read_mapping(path: Path) -> SheetMapping:
             )
     if problems:
         raise InputError(problems=problems)
-    return SheetMapping(columns, dict(defaults), data.get("sheet"), header_row)
+    return SheetMapping(columns, dict(defaults), sheet, header_row)
 
 
 def _set(record: dict[str, Any], pointer: str, value: Any) -> None:
@@ -213,11 +261,11 @@ def _convert(cell: Any, cm: ColumnMap) -> Any:
     kind = leaf.get("type")
     if kind == "integer":
         if num is None or float(num) != int(float(num)):
-            raise ValueError(f"expected a whole number, got {cell!r}")
+            raise ValueError(f"expected a whole number, got {excerpt(cell)}")
         return int(float(num))
     if kind == "number":
         if num is None:
-            raise ValueError(f"expected a number, got {cell!r}")
+            raise ValueError(f"expected a number, got {excerpt(cell)}")
         return float(num)
     if kind == "boolean":
         text = str(cell).strip().casefold()
@@ -225,23 +273,177 @@ def _convert(cell: Any, cm: ColumnMap) -> Any:
             return cell
         if text in _TRUE or text in _FALSE:
             return text in _TRUE
-        raise ValueError(f"expected yes/no, got {cell!r}")
+        raise ValueError(f"expected yes/no, got {excerpt(cell)}")
     if isinstance(cell, float) and cell.is_integer():
         return str(int(cell))
+    if cm.field in _NAME_FIELDS:
+        return clean_cell(str(cell))
     return str(cell).strip()
 
 
+def _xlsx_reason(exc: BaseException) -> str:
+    """Why an XLSX file could not be read, from the exception and its causes."""
+    import xml.parsers.expat
+    import zlib
+    from xml.etree.ElementTree import ParseError
+
+    try:
+        from defusedxml import DefusedXmlException
+    except ImportError:  # pragma: no cover - refused before reading
+        DefusedXmlException = ()  # type: ignore[assignment,misc]
+    seen: list[BaseException] = []
+    e: BaseException | None = exc
+    while e is not None and len(seen) < 10:
+        seen.append(e)
+        e = e.__cause__ or e.__context__
+    for e in seen:
+        if isinstance(e, DefusedXmlException):
+            return (
+                "the XLSX file declares XML entities or external references, which are refused "
+                "(they can expand without bound or reach outside the file)"
+            )
+    for e in seen:
+        if isinstance(e, zipfile.BadZipFile | zlib.error | EOFError):
+            return f"damaged XLSX file: the zip archive is truncated or corrupt ({excerpt(str(e))})"
+        if isinstance(e, ParseError | xml.parsers.expat.ExpatError):
+            return f"damaged XLSX file: malformed XML ({excerpt(str(e), 80)})"
+        if isinstance(e, KeyError):
+            part = e.args[0] if e.args else "?"
+            return f"damaged XLSX file: a part is missing ({excerpt(str(part), 80)})"
+    return f"damaged XLSX file ({type(exc).__name__}: {excerpt(str(exc), 80)})"
+
+
+def _check_xlsx_archive(path: Path) -> None:
+    """A zip archive of bounded size, read through defusedxml (raises InputError)."""
+    file = str(path)
+    import openpyxl
+
+    if not getattr(openpyxl, "DEFUSEDXML", False):
+        raise InputError(
+            "XLSX import needs the defusedxml package (pip install defusedxml) so that the "
+            "sheet's XML is read safely; or export the sheet as CSV",
+            file=file,
+        )
+    try:
+        if not zipfile.is_zipfile(path):
+            raise InputError("not an XLSX file: not a zip archive (or a truncated one)", file=file)
+        with zipfile.ZipFile(path) as archive:
+            infos = archive.infolist()
+    except (OSError, zipfile.BadZipFile) as exc:
+        raise InputError(f"cannot read sheet: {_xlsx_reason(exc)}", file=file) from None
+    if len(infos) > MAX_XLSX_PARTS:
+        raise InputError(
+            f"not read: the XLSX archive has {len(infos):,} parts (at most {MAX_XLSX_PARTS:,})",
+            file=file,
+        )
+    unpacked = sum(i.file_size for i in infos)
+    if unpacked > MAX_XLSX_UNPACKED:
+        raise InputError(
+            f"not read: the XLSX archive would unpack to {unpacked / 2**20:.0f} MiB (at most "
+            f"{MAX_XLSX_UNPACKED / 2**20:.0f} MiB)",
+            file=file,
+        )
+
+
+def _header_names(cells: tuple[Any, ...]) -> list[str]:
+    """Column names as pandas makes them: 'Unnamed: k' for blanks, '.1' for repeats."""
+    names: list[str] = []
+    seen: dict[str, int] = {}
+    for k, c in enumerate(cells):
+        name = f"Unnamed: {k}" if _is_blank(c) else str(c)
+        if isinstance(c, float) and c.is_integer():
+            name = str(int(c))
+        if name in seen:
+            seen[name] += 1
+            name = f"{name}.{seen[name]}"
+        else:
+            seen[name] = 0
+        names.append(name)
+    return names
+
+
+def _xlsx_rows(openpyxl: Any, fh: Any, mapping: SheetMapping, file: str) -> list[tuple[Any, ...]]:
+    """The rows of the mapping's worksheet of an open XLSX file."""
+    book = openpyxl.load_workbook(fh, read_only=True, data_only=True, keep_links=False)
+    try:
+        wanted = mapping.sheet if mapping.sheet is not None else 0
+        if isinstance(wanted, str):
+            if wanted not in book.sheetnames:
+                names = ", ".join(repr(n) for n in book.sheetnames[:10])
+                raise InputError(
+                    f"the workbook has no sheet {excerpt(wanted)} (it has {names})", file=file
+                )
+            sheet = book[wanted]
+        else:
+            if wanted >= len(book.worksheets):
+                raise InputError(
+                    f"the workbook has {len(book.worksheets)} sheet(s); sheet index {wanted} "
+                    "does not exist",
+                    file=file,
+                )
+            sheet = book.worksheets[wanted]
+        return [tuple(r) for r in sheet.iter_rows(values_only=True)]
+    finally:
+        book.close()
+
+
+def _read_xlsx(path: Path, mapping: SheetMapping) -> pd.DataFrame:
+    import openpyxl
+
+    file = str(path)
+    _check_xlsx_archive(path)
+    try:
+        with path.open("rb") as fh:  # closed here even when openpyxl fails half-way
+            rows = _xlsx_rows(openpyxl, fh, mapping, file)
+    except InputError:
+        raise
+    except Exception as exc:  # openpyxl's and zipfile's assorted errors, read as a reason
+        raise InputError(f"cannot read sheet: {_xlsx_reason(exc)}", file=file) from None
+    k = mapping.header_row - 1
+    if k >= len(rows):
+        raise InputError(
+            f"the sheet has {len(rows)} row(s); header_row {mapping.header_row} is past the end",
+            file=file,
+        )
+    width = max(len(r) for r in rows[k:])
+    header = _header_names(rows[k] + (None,) * (width - len(rows[k])))
+    body = [r + (None,) * (width - len(r)) for r in rows[k + 1 :]]
+    return pd.DataFrame(body, columns=header, dtype=object)
+
+
 def read_sheet(path: Path, mapping: SheetMapping) -> pd.DataFrame:
-    """The sheet's cells (CSV, or XLSX by its name ending) with the mapping's header row."""
+    """The sheet's cells (CSV, or XLSX by its name ending) with the mapping's header row.
+
+    Raises InputError naming the file and the reason for a file that cannot be read (see the
+    module docstring for the limits).
+    """
     file = str(path)
     try:
-        if path.suffix.lower() in (".xlsx", ".xlsm"):
-            return pd.read_excel(
-                path, sheet_name=mapping.sheet or 0, header=mapping.header_row - 1, dtype=object
-            )
-        return pd.read_csv(path, header=mapping.header_row - 1, dtype=str, keep_default_na=False)
+        size = path.stat().st_size
+    except OSError as exc:
+        raise InputError(f"cannot read sheet: {exc.strerror or exc}", file=file) from None
+    if size > MAX_BYTES:
+        raise InputError(
+            f"too large: {size / 2**20:.1f} MiB, at most {MAX_BYTES / 2**20:g} MiB", file=file
+        )
+    if path.suffix.lower() in (".xlsx", ".xlsm"):
+        return _read_xlsx(path, mapping)
+    try:
+        return pd.read_csv(
+            path,
+            header=mapping.header_row - 1,
+            dtype=str,
+            keep_default_na=False,
+            encoding="utf-8-sig",
+        )
+    except UnicodeDecodeError as exc:
+        raise InputError(
+            f"cannot read sheet: not UTF-8 text (byte 0x{exc.object[exc.start]:02x} at offset "
+            f"{exc.start}); save the sheet as UTF-8 CSV",
+            file=file,
+        ) from None
     except (OSError, ValueError, KeyError, pd.errors.ParserError) as exc:
-        raise InputError(f"cannot read sheet: {exc}", file=file) from None
+        raise InputError(f"cannot read sheet: {excerpt(str(exc), 120)}", file=file) from None
 
 
 def sheet_documents(sheet: Path, mapping_file: Path) -> list[CatalogueDocument]:
@@ -256,7 +458,7 @@ def sheet_documents(sheet: Path, mapping_file: Path) -> list[CatalogueDocument]:
     missing = [cm.column for cm in mapping.columns if cm.column not in df.columns]
     if missing:
         raise InputError(
-            problems=[Problem(f"the sheet has no column {c!r}", file) for c in missing]
+            problems=[Problem(f"the sheet has no column {excerpt(c)}", file) for c in missing]
         )
     first_row = mapping.header_row + 1
     problems: list[Problem] = []

@@ -7,6 +7,16 @@ the record has none) and the field as a JSON pointer into the file, e.g.
 A valid part record is also turned into its *canonical* form: the same structure with every
 quantity parsed to an SI float and every spec written as an object ``{min?, typ?, max?, at?}``.
 Two records with equal canonical forms mean the same ("50 uA" and 5e-05).
+
+Besides the schema and the units, a document is refused when a part holds a value that cannot
+be stored as given (a number not finite or beyond the float range, an integer beyond +/-2**53,
+the range a JSON number and a float keep exactly, text with a lone surrogate): what ``check``
+accepts, ``load`` can store. Part numbers and maker names must be
+printable text (:func:`partsel.io.partnumber.name_problem`: no blank names, no control,
+zero-width or bidirectional characters), and suffix rules must be in partsel's suffix language
+(:mod:`partsel.io.suffix`). Values that parse but are implausible
+(:func:`partsel.units.plausibility`) are *warnings*: the document is valid and carries them in
+:attr:`CatalogueDocument.warnings`. Messages quote at most 40 characters of a value.
 """
 
 from __future__ import annotations
@@ -24,9 +34,11 @@ from jsonschema.exceptions import ValidationError
 
 from partsel.catalogue.files import find_files, read_document
 from partsel.catalogue.schema import Schema, catalogue_schema
-from partsel.errors import InputError, Problem, json_pointer
+from partsel.errors import InputError, Problem, excerpt, json_pointer
+from partsel.io.partnumber import name_problem
+from partsel.io.suffix import compile_rule
 from partsel.params import SIDES, Topology
-from partsel.units import parse_quantity
+from partsel.units import is_plausible, parse_quantity, plausibility
 
 Path_ = list[str | int]
 
@@ -36,13 +48,15 @@ class CatalogueDocument:
     """One validated catalogue file.
 
     ``makers`` and ``parts`` are the records as given (for storing and dumping them back);
-    ``canonical_parts`` are the same parts with SI floats (see module docstring).
+    ``canonical_parts`` are the same parts with SI floats (see module docstring);
+    ``warnings`` the implausible values found (the document is valid all the same).
     """
 
     file: str
     makers: list[dict[str, Any]] = field(default_factory=list)
     parts: list[dict[str, Any]] = field(default_factory=list)
     canonical_parts: list[dict[str, Any]] = field(default_factory=list)
+    warnings: list[Problem] = field(default_factory=list)
 
 
 @lru_cache(maxsize=1)
@@ -63,8 +77,12 @@ def _fast_is_valid() -> Callable[[Any], bool] | None:
 
 def _schema_errors(data: Any) -> list[ValidationError]:
     fast = _fast_is_valid()
-    if fast is not None and fast(data):
-        return []
+    try:
+        if fast is not None and fast(data):
+            return []
+    except (UnicodeEncodeError, ValueError, OverflowError):
+        pass  # text or numbers the fast validator cannot take: jsonschema decides
+
     return sorted(_validator().iter_errors(data), key=lambda e: list(map(str, e.path)))
 
 
@@ -100,20 +118,39 @@ def part_label(record: Any, index: int) -> str:
     """Record label used in problems: the part number, or ``#index`` without one."""
     if isinstance(record, dict):
         pn = record.get("part_number")
-        if isinstance(pn, str) and pn.strip():
+        if isinstance(pn, str) and name_problem(pn) is None:
             return pn
     return f"#{index}"
 
 
+def _maker_label(record: Any, index: int) -> str:
+    name = record.get("name") if isinstance(record, dict) else None
+    if isinstance(name, str) and name_problem(name, "maker name") is None:
+        return name
+    return f"#{index}"
+
+
 def _given(value: Any) -> str:
-    return repr(value) if isinstance(value, str) else f"{value:g}"
+    return excerpt(value) if not isinstance(value, float) else f"{value:g}"
+
+
+_SURROGATE = re.compile("[\ud800-\udfff]")
+#: Largest integer magnitude stored as given (a float and a JSON reader keep it exactly).
+MAX_EXACT_INT = 2**53
 
 
 class _Walker:
     """Walks a record along the schema: parses quantities, checks signs and spec order."""
 
-    def __init__(self, problems: list[Problem], file: str | None, record: str | None) -> None:
+    def __init__(
+        self,
+        problems: list[Problem],
+        file: str | None,
+        record: str | None,
+        warnings: list[Problem] | None = None,
+    ) -> None:
         self.problems = problems
+        self.warnings = warnings if warnings is not None else []
         self.file = file
         self.record = record
 
@@ -137,11 +174,28 @@ class _Walker:
         items = schema.get("items")
         if isinstance(value, list) and items is not None:
             return [self.walk(items, v, [*path, i]) for i, v in enumerate(value)]
+        return self.leaf(value, path)
+
+    def leaf(self, value: Any, path: Path_) -> Any:
+        """A value stored as given: refuse what could not be stored (check and load agree)."""
+        kind = type(value)
+        if kind is str:
+            if _SURROGATE.search(value):
+                self.problem("text holds a lone surrogate code point; it cannot be stored", path)
+        elif kind is float:
+            if not math.isfinite(value):
+                self.problem(f"value is not finite ({value!r})", path)
+        elif kind is int and abs(value) > MAX_EXACT_INT:
+            self.problem(
+                f"{excerpt(value)} is out of range (integers are kept up to 2**53; write a "
+                "large value in exponent form, e.g. 1e21)",
+                path,
+            )
         return value
 
     def quantity(self, dim: str, value: Any, path: Path_, nonneg: bool) -> float:
-        if type(value) is float or type(value) is int:  # SI already: the common bulk case
-            out = float(value)
+        if type(value) is float and dim != "temperature" and math.isfinite(value):
+            out = value  # SI already: the common bulk case
         else:
             try:
                 out = parse_quantity(value, dim)
@@ -151,11 +205,12 @@ class _Walker:
                     for p in exc.problems
                 ]
                 return math.nan
-        if not math.isfinite(out):
-            self.problem("value is not finite", path)
-            return math.nan
         if nonneg and out < 0:
             self.problem(f"must not be negative (got {_given(value)})", path)
+        warning = None if is_plausible(out, dim) else plausibility(out, dim)
+        if warning is not None:
+            pointer = json_pointer(*path)
+            self.warnings.append(Problem(warning.message, self.file, self.record, pointer))
         return canonical_float(out)
 
     def spec(self, schema: Schema, value: Any, path: Path_, nonneg: bool) -> dict[str, Any]:
@@ -209,6 +264,14 @@ def _record_checks(canon: dict[str, Any], base: Path_, w: _Walker) -> None:
         w.problem("temperature minimum must be below the maximum", [*base, "temperature", "min"])
     if _num(canon.get("junction_max")) < temp.get("max", math.nan):
         w.problem("junction_max is below the rated ambient maximum", [*base, "junction_max"])
+    price = _dict(canon.get("price")).get("unit")
+    storable = isinstance(price, float) or (
+        isinstance(price, int) and not isinstance(price, bool) and abs(price) <= MAX_EXACT_INT
+    )
+    if storable and math.isfinite(price):
+        warning = plausibility(float(price), "price", field=json_pointer(*base, "price", "unit"))
+        if warning is not None:
+            w.warnings.append(Problem(warning.message, w.file, w.record, warning.pointer))
     out = _dict(canon.get("output"))
     if out.get("topology") == Topology.CLASS_B_PULLDOWN and "dead_band" not in out:
         w.problem(
@@ -237,31 +300,73 @@ def canonical_part(
     file: str | None = None,
     record_label: str | None = None,
     pointer: Path_ | None = None,
+    warnings: list[Problem] | None = None,
 ) -> tuple[dict[str, Any], list[Problem]]:
     """Canonical form of one schema-valid part record, and the problems found on the way.
 
     ``pointer`` is the record's location in its file (default ``[]``), prefixed to every
-    problem's field pointer.
+    problem's field pointer. Implausible values are appended to ``warnings`` when given.
     """
     base: Path_ = list(pointer or [])
     problems: list[Problem] = []
-    w = _Walker(problems, file, record_label)
+    w = _Walker(problems, file, record_label, warnings)
     canon = w.walk(_resolved_defs()["part"], record, base)
     _record_checks(canon, base, w)
     return canon, problems
 
 
+def _record_of(data: Any, path: Path_) -> str | None:
+    """The record label of a path into a catalogue document (None above the records)."""
+    if len(path) >= 2 and path[0] in ("parts", "makers") and isinstance(path[1], int):
+        items = data.get(path[0]) if isinstance(data, dict) else None
+        if isinstance(items, list) and path[1] < len(items):
+            item = items[path[1]]
+            return part_label(item, path[1]) if path[0] == "parts" else _maker_label(item, path[1])
+    return None
+
+
+_TYPE_WORDS = {
+    "string": "text",
+    "number": "a number",
+    "integer": "a whole number",
+    "boolean": "true or false",
+    "array": "a list",
+    "object": "an object (mapping)",
+    "null": "null",
+}
+
+
+def _schema_message(err: ValidationError) -> str:
+    """A message for one schema violation that quotes at most 40 characters of the value."""
+    v, value = err.validator, err.validator_value
+    got = excerpt(err.instance)
+    if v == "type":
+        kinds = value if isinstance(value, list) else [value]
+        return f"must be {' or '.join(_TYPE_WORDS.get(k, k) for k in kinds)}, got {got}"
+    if v == "enum":
+        return f"{got} is not one of {', '.join(map(repr, value))}"
+    if v == "const":
+        return f"must be {value!r}, got {got}"
+    if v == "minLength":
+        return "must not be empty" if value == 1 else f"must be at least {value} characters long"
+    if v == "maxLength":
+        return f"must be at most {value} characters long"
+    if v == "pattern":
+        return f"{got} does not have the required form (pattern {value})"
+    if v in ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum"):
+        op = {"minimum": ">=", "maximum": "<=", "exclusiveMinimum": ">", "exclusiveMaximum": "<"}
+        return f"must be {op[v]} {value}, got {got}"
+    if v == "minItems":
+        return f"needs at least {value} item{'s' * (value != 1)}, got {got}"
+    if v == "maxItems":
+        return f"takes at most {value} item{'s' * (value != 1)}, got {got}"
+    text = err.message
+    return text if len(text) <= 200 else text[:200] + "…"
+
+
 def _schema_problems(err: ValidationError, file: str, data: Any) -> list[Problem]:
     path: Path_ = list(err.absolute_path)
-    record = None
-    if len(path) >= 2 and path[0] in ("parts", "makers") and isinstance(path[1], int):
-        item = data[path[0]][path[1]]
-        if path[0] == "parts":
-            record = part_label(item, path[1])
-        elif isinstance(item, dict) and isinstance(item.get("name"), str):
-            record = item["name"]
-        else:
-            record = f"#{path[1]}"
+    record = _record_of(data, path)
     if err.validator == "required" and isinstance(err.instance, dict):
         return [
             Problem("required field is missing", file, record, json_pointer(*path, name))
@@ -271,64 +376,96 @@ def _schema_problems(err: ValidationError, file: str, data: Any) -> list[Problem
     if err.validator == "additionalProperties" and isinstance(err.instance, dict):
         known = err.schema.get("properties", {})
         return [
-            Problem(f"unknown field {name!r}", file, record, json_pointer(*path, name))
+            Problem(f"unknown field {excerpt(str(name))}", file, record, json_pointer(*path, name))
             for name in err.instance
             if name not in known
         ]
     message = err.schema.get("x-message") if err.validator in ("anyOf", "oneOf") else None
-    return [Problem(message or err.message, file, record, json_pointer(*path))]
+    return [Problem(message or _schema_message(err), file, record, json_pointer(*path))]
+
+
+def _text_problems(data: dict[str, Any], file: str) -> list[Problem]:
+    """Part numbers, makers of parts and maker names that are not printable names; suffix
+    rules outside the suffix language."""
+    problems: list[Problem] = []
+    parts = data.get("parts") if isinstance(data.get("parts"), list) else []
+    makers = data.get("makers") if isinstance(data.get("makers"), list) else []
+    for i, part in enumerate(parts):
+        if not isinstance(part, dict):
+            continue
+        for key, what in (("part_number", "part number"), ("maker", "maker name")):
+            value = part.get(key)
+            why = name_problem(value, what) if isinstance(value, str) else None
+            if why:
+                problems.append(
+                    Problem(why, file, part_label(part, i), json_pointer("parts", i, key))
+                )
+    for i, maker in enumerate(makers):
+        if not isinstance(maker, dict):
+            continue
+        name = maker.get("name")
+        why = name_problem(name, "maker name") if isinstance(name, str) else None
+        label = _maker_label(maker, i)
+        if why:
+            problems.append(Problem(why, file, label, json_pointer("makers", i, "name")))
+        rules = maker.get("suffix_rules")
+        for k, rule in enumerate(rules if isinstance(rules, list) else []):
+            if not isinstance(rule, str):
+                continue  # the schema reports it
+            try:
+                compile_rule(rule)
+            except InputError as exc:
+                problems.append(
+                    Problem(
+                        exc.problems[0].message,
+                        file,
+                        label,
+                        json_pointer("makers", i, "suffix_rules", k),
+                    )
+                )
+    return problems
+
+
+def _under(pointer: str, reported: Iterable[str]) -> bool:
+    return any(pointer == r or pointer.startswith(r + "/") for r in reported)
 
 
 def validate_document(data: Any, *, file: str) -> tuple[CatalogueDocument | None, list[Problem]]:
-    """Validate one parsed catalogue file; return the document (None if invalid) and problems."""
+    """Validate one parsed catalogue file; return the document (None if invalid) and problems.
+
+    A valid document carries the warnings (implausible values) in ``warnings``.
+    """
     if data is None:
         return None, [Problem("file is empty", file)]
     if not isinstance(data, dict):
         return None, [Problem("the top level must be an object with 'parts' and/or 'makers'", file)]
     problems: list[Problem] = []
-    bad_records: set[tuple[str, int]] = set()
-    errors = _schema_errors(data)
-    for err in errors:
+    for err in _schema_errors(data):
         problems.extend(_schema_problems(err, file, data))
-        p = list(err.absolute_path)
-        if len(p) >= 2 and isinstance(p[1], int):
-            bad_records.add((str(p[0]), p[1]))
-    makers = data.get("makers") if isinstance(data.get("makers"), list) else []
+    # Names and rules, then semantic checks, run on schema-invalid records too (all problems of
+    # a file at once), minus those at or below a field already reported.
+    reported = {p.pointer for p in problems}
+    problems.extend(p for p in _text_problems(data, file) if not _under(p.pointer, reported))
+    reported = {p.pointer for p in problems}
     parts = data.get("parts") if isinstance(data.get("parts"), list) else []
-    for i, maker in enumerate(makers):
-        if ("makers", i) in bad_records:
-            continue
-        for k, rule in enumerate(maker.get("suffix_rules", [])):
-            try:
-                re.compile(rule)
-            except re.error as exc:
-                problems.append(
-                    Problem(
-                        f"not a valid regular expression: {exc}",
-                        file,
-                        maker["name"],
-                        json_pointer("makers", i, "suffix_rules", k),
-                    )
-                )
-    # Semantic checks run on schema-invalid parts too (all problems of a file at once), minus
-    # those at or below a field the schema already reported.
-    reported = [p.pointer for p in problems]
+    makers = data.get("makers") if isinstance(data.get("makers"), list) else []
     canon_parts: list[dict[str, Any]] = []
+    warnings: list[Problem] = []
     for i, part in enumerate(parts):
         if not isinstance(part, dict):
             continue
         canon, probs = canonical_part(
-            part, file=file, record_label=part_label(part, i), pointer=["parts", i]
+            part,
+            file=file,
+            record_label=part_label(part, i),
+            pointer=["parts", i],
+            warnings=warnings,
         )
-        problems.extend(
-            p
-            for p in probs
-            if not any(p.pointer == r or p.pointer.startswith(r + "/") for r in reported)
-        )
+        problems.extend(p for p in probs if not _under(p.pointer, reported))
         canon_parts.append(canon)
     if problems:
         return None, problems
-    return CatalogueDocument(file, list(makers), list(parts), canon_parts), []
+    return CatalogueDocument(file, list(makers), list(parts), canon_parts, warnings), []
 
 
 def _cross_file_problems(docs: Sequence[CatalogueDocument]) -> list[Problem]:
@@ -343,7 +480,7 @@ def _cross_file_problems(docs: Sequence[CatalogueDocument]) -> list[Problem]:
                 f0, i0 = seen[key]
                 problems.append(
                     Problem(
-                        f"duplicate part number {part['part_number']!r} (part numbers are "
+                        f"duplicate part number {excerpt(part['part_number'])} (part numbers are "
                         f"case-insensitive; first at {f0} /parts/{i0})",
                         doc.file,
                         part["part_number"],
@@ -360,7 +497,7 @@ def _cross_file_problems(docs: Sequence[CatalogueDocument]) -> list[Problem]:
             elif prev[2].get("suffix_rules", []) != maker.get("suffix_rules", []):
                 problems.append(
                     Problem(
-                        f"maker {maker['name']!r} is given again with other suffix_rules "
+                        f"maker {excerpt(maker['name'])} is given again with other suffix_rules "
                         f"(first at {prev[0]} /makers/{prev[1]})",
                         doc.file,
                         maker["name"],
