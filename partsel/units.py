@@ -87,23 +87,9 @@ SI_UNIT: dict[str, str] = {
     "price": "",
 }
 
-#: Unit symbol shown to people and written into the JSON Schemas.
-UNIT_LABEL: dict[str, str] = {
-    "voltage": "V",
-    "current": "A",
-    "resistance": "ohm",
-    "capacitance": "F",
-    "frequency": "Hz",
-    "time": "s",
-    "slew": "V/s",
-    "power": "W",
-    "thermal_resistance": "K/W",
-    "temperature": "degC",
-    "noise_voltage": "V/rtHz",
-    "noise_current": "A/rtHz",
-    "dimensionless": "1",
-    "price": "currency unit",
-}
+#: Unit symbol shown to people and written into the JSON Schemas: the SI unit, with "1" for a
+#: plain ratio and "currency unit" for a price.
+UNIT_LABEL: dict[str, str] = {**SI_UNIT, "dimensionless": "1", "price": "currency unit"}
 
 #: What a value of each dimension is called in messages.
 NOUN: dict[str, str] = {
@@ -616,18 +602,6 @@ def _short_noun(dimension: str) -> str:
 
 # ---- formatting --------------------------------------------------------------------------------
 
-_PREFIXES = [
-    (1e9, "G"),
-    (1e6, "M"),
-    (1e3, "k"),
-    (1.0, ""),
-    (1e-3, "m"),
-    (1e-6, "u"),
-    (1e-9, "n"),
-    (1e-12, "p"),
-    (1e-15, "f"),
-]
-
 #: Units written without an engineering prefix (a prefix would not read back, or means little).
 _NO_PREFIX = {"degC", "K/W", "1", "currency unit", "%", "V/V"}
 
@@ -646,41 +620,11 @@ def format_si(value: float, unit: str, digits: int = 3) -> str:
         return f"{value:.{digits}g} {shown}".strip()
     if value == 0 or not math.isfinite(value):
         return f"{value:g} {unit}".strip()
+    from partsel.present import PREFIXES  # the one SI-prefix table
+
     mag = abs(value)
-    for scale, prefix in _PREFIXES:
+    for scale, prefix in PREFIXES:
         if mag >= scale * 0.9995:
             return f"{value / scale:.{digits}g} {prefix}{unit}".strip()
-    scale, prefix = _PREFIXES[-1]
+    scale, prefix = PREFIXES[-1]
     return f"{value / scale:.{digits}g} {prefix}{unit}".strip()
-
-
-def format_for_people(value: object, unit: str, digits: int = 3, *, symbols: bool = False) -> str:
-    """A value with its catalogue unit label for people: engineering prefixes, slew rates in
-    V/µs, temperatures in °C, '—' when missing. ``symbols`` (screens) also writes ohm as Ω,
-    micro as µ and a bare number for an empty unit."""
-    if value is None:
-        return "—"
-    try:
-        v = float(value)  # type: ignore[arg-type]
-    except (TypeError, ValueError, OverflowError):
-        return str(value)
-    if math.isnan(v):
-        return "—"
-    if math.isinf(v):
-        return "∞" if v > 0 else "-∞"
-    if unit == "1" or (symbols and unit == ""):
-        return f"{v:.{digits}g}"
-    if unit == "degC":
-        return f"{v:.4g} °C"
-    if unit == "V/s":
-        return f"{v * 1e-6:.{digits}g} V/µs"
-    if unit == "currency unit":
-        return f"{v:.2f}"
-    if unit == "V/V":
-        return f"{v:.{digits}g} V/V"
-    if unit == "V/rtHz":
-        return format_si(v, "V/√Hz", digits)
-    if symbols and unit == "ohm":
-        return format_si(v, "Ω", digits)
-    text = format_si(v, unit, digits)
-    return text.replace(" u", " µ") if symbols else text

@@ -120,3 +120,30 @@ def test_huge_integers_on_the_command_line_are_refused(cli) -> None:
         r = cli(*args)
         assert r.exit_code == 2, (args, r.output)
         assert "Traceback" not in r.output
+
+
+def test_implausible_values_are_warned_not_refused(cli, tmp_path: Path) -> None:
+    """A value that parses but is implausible (a 1e30 V supply) is stored as given, with a
+    warning naming the field and the plausible range (partsel.units.PLAUSIBLE)."""
+    import yaml
+
+    src = PROJECT / "sample-catalog" / "parts" / "brindle-semi.yaml"
+    doc = yaml.safe_load(src.read_text(encoding="utf-8"))
+    doc["parts"] = doc["parts"][:1]
+    doc["parts"][0]["supply"]["range"]["max"] = "1e30 V"
+    f = tmp_path / "odd.yaml"
+    f.write_text(yaml.safe_dump(doc, sort_keys=False), encoding="utf-8")
+    r = cli("check", f)
+    assert r.exit_code == 0, r.output
+    assert "warning:" in r.stderr and "/supply/range/max" in r.stderr
+    r = cli("load", f, "--json")
+    assert r.exit_code == 0, r.output
+    import json
+
+    report = json.loads(r.stdout)
+    assert report["added"] == 1 and report["warnings"]
+    assert report["warnings"][0]["pointer"].endswith("/supply/range/max")
+    design = tmp_path / "d.toml"
+    design.write_text(DESIGN.read_text().replace('frequency = "1 kHz"', 'frequency = "1e13 Hz"'))
+    r = cli("rank", design)
+    assert "warning:" in r.stderr and "/signal/frequency" in r.stderr

@@ -67,6 +67,7 @@ class LoadReport:
     makers_added: list[str] = field(default_factory=list)
     makers_changed: list[str] = field(default_factory=list)
     dry_run: bool = False
+    warnings: list[Problem] = field(default_factory=list)  #: implausible values, kept as given
 
     def counts(self) -> dict[str, int]:
         """Numbers of parts added, changed, unchanged and makers added, changed."""
@@ -273,7 +274,7 @@ def load_documents(
     history ("load", "import-sheet"). Raises ReadOnlyError for a read-only catalogue (a dry run
     is allowed there) and BusyError when another writer holds the catalogue too long.
     """
-    report = LoadReport(dry_run=dry_run)
+    report = LoadReport(dry_run=dry_run, warnings=[w for d in docs for w in d.warnings])
     if dry_run:
         with engine.connect() as conn:
             _load_makers(conn, docs, report, False)

@@ -52,13 +52,15 @@ from partsel.cli.common import (
     fail_bad_input,
     message,
     out_console,
+    problems_json,
     user,
     writable_engine,
 )
 from partsel.errors import InputError
+from partsel.io.csvout import write_frame
 from partsel.io.paths import output_file, output_folder
 from partsel.params import PARAMS, SIDES, Lifecycle, Topology
-from partsel.units import UNIT_LABEL, format_si
+from partsel.units import UNIT_LABEL
 
 Paths = Annotated[list[Path], typer.Argument(help="Catalogue files or folders (YAML/JSON).")]
 #: Largest part version a command accepts (a version is a 64-bit integer in the database).
@@ -73,19 +75,9 @@ class ExportFormat(StrEnum):
     JSON = "json"
 
 
-#: Units shown to people where the SI unit reads badly (V/s for slew rates).
-_DISPLAY: dict[str, tuple[str, float]] = {"slew": ("V/us", 1e-6)}
-
-
 def _fmt(value: float, dimension: str) -> str:
-    if value is None or (isinstance(value, float) and math.isnan(value)):
-        return "—"
-    if dimension == "temperature":
-        return f"{value:g} °C"
-    if dimension in _DISPLAY:
-        unit, scale = _DISPLAY[dimension]
-        return f"{value * scale:.3g} {unit}"
-    return format_si(value, UNIT_LABEL[dimension])
+    """A catalogue value for people (:func:`partsel.present.quantity`)."""
+    return P.quantity(value, UNIT_LABEL[dimension])
 
 
 def check(paths: Paths, json_out: JsonFlag = False) -> None:
@@ -94,17 +86,23 @@ def check(paths: Paths, json_out: JsonFlag = False) -> None:
         docs = read_and_validate(paths)
     n_parts = sum(len(d.parts) for d in docs)
     n_makers = sum(len(d.makers) for d in docs)
+    warnings = [w for d in docs for w in d.warnings]
+    for w in warnings:
+        message(f"warning: {w}")
     message(f"ok: {n_parts} parts and {n_makers} makers in {len(docs)} files")
     if json_out:
-        echo_json([])
+        echo_json([{**w, "severity": "warning"} for w in problems_json(warnings)])
 
 
 def _report(report: LoadReport, json_out: bool) -> None:
+    for w in report.warnings:
+        message(f"warning: {w}")
     if json_out:
         echo_json(
             {
                 **report.counts(),
                 "dry_run": report.dry_run,
+                "warnings": problems_json(report.warnings),
                 "parts": {
                     "added": report.added,
                     "changed": report.changed,
@@ -497,13 +495,10 @@ def export_csv(
         with bad_input_exits():
             output_file(file)
     df = parts_frame(engine(ctx))
+    with bad_input_exits():
+        write_frame(df, sys.stdout if str(file) == "-" else file, columns=list(FLAT_COLUMN_NAMES))
     if str(file) == "-":
-        df.to_csv(sys.stdout, index=False, columns=list(FLAT_COLUMN_NAMES))
         return
-    try:
-        df.to_csv(file, index=False, columns=list(FLAT_COLUMN_NAMES))
-    except OSError as exc:
-        fail_bad_input(InputError(f"cannot write: {exc.strerror or exc}", file=str(file)))
     message(f"wrote {len(df)} parts to {file}")
 
 

@@ -124,6 +124,16 @@ def session(ctx: typer.Context) -> Any:
     return state(ctx).session()
 
 
+def load_design(path: Path) -> Any:
+    """Read a design file; its warnings (implausible values) go to stderr."""
+    from partsel.api import Session
+
+    design = Session.load_design(path)
+    for w in design.warnings:
+        message(f"warning: {w}")
+    return design
+
+
 def writable_engine(ctx: typer.Context, what: str) -> Engine:
     """The catalogue engine for a command that changes it (``what``: "load", "edit X")."""
     return state(ctx).writable_engine(what)

@@ -20,6 +20,7 @@ from partsel.cli.common import (
     database_errors_exit,
     echo_json,
     fail_bad_input,
+    load_design,
     message,
     progress,
     session,
@@ -60,7 +61,7 @@ def _prediction(
 ) -> api.Prediction:
     """The session's prediction: the same verdict, fix and estimates as ``rank``."""
     s = session(ctx)
-    design = s.load_design(design_path)
+    design = load_design(design_path)
     ranking = s.evaluate(design, parts or None, basis=basis, series=series, margin=margin)
     n = ranking.n if not parts else len(parts)
     with progress(2 * n if run_sim else 0, "simulating", enabled=show_progress) as advance:

@@ -28,11 +28,13 @@ from partsel.cli.common import (
     database_errors_exit,
     echo_json,
     fail_bad_input,
+    load_design,
     message,
     out_console,
     session,
 )
 from partsel.errors import InputError
+from partsel.io.csvout import write_frame
 from partsel.report import fix_lines
 from partsel.solver import Ranking
 from partsel.solver import checks as C
@@ -56,7 +58,7 @@ from partsel.solver.requirements import LIMIT_BY_KEY
 def _solve(ctx: typer.Context, design_path: Path, basis: str | None) -> Ranking:
     """The session's ranking of the design (InputError for bad input)."""
     s = session(ctx)
-    return s.rank(s.load_design(design_path), basis=basis)
+    return s.rank(load_design(design_path), basis=basis)
 
 
 # ---- formatting for people --------------------------------------------------------------------
@@ -233,7 +235,7 @@ def rank_cmd(
         echo_json(ranking_dict(r, top or None))
         raise typer.Exit(code)
     if csv_out:
-        ranking_frame(r, top or None).to_csv(sys.stdout, index=False)
+        write_frame(ranking_frame(r, top or None), sys.stdout)
         raise typer.Exit(code)
     con = _console()
     req = r.requirements

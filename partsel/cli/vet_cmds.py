@@ -22,11 +22,11 @@ from partsel.cli.common import (
     bad_input_exits,
     database_errors_exit,
     echo_json,
+    load_design,
     message,
     progress,
     session,
 )
-from partsel.design import load_design
 from partsel.errors import InputError
 from partsel.io.paths import output_file
 from partsel.physics.circuit import Design
@@ -309,6 +309,14 @@ def bom_check(
         Path | None,
         typer.Option("--csv", help="Write the BOM with partsel_* columns added ('-': stdout)."),
     ] = None,
+    raw_cells: Annotated[
+        bool,
+        typer.Option(
+            "--raw-cells",
+            help="With --csv: write the BOM's own cells exactly as read, also those that "
+            "start like a spreadsheet formula (for trusted pipelines only).",
+        ),
+    ] = False,
     json_out: JsonFlag = False,
 ) -> None:
     """Check every line of a BOM: match, lifecycle, in-circuit spec, substitutes."""
@@ -336,13 +344,13 @@ def bom_check(
             )
         if csv_out is not None and str(csv_out) != "-":
             try:
-                rep.write_csv(csv_out)
+                rep.write_csv(csv_out, raw_cells=raw_cells)
             except OSError as exc:
                 raise InputError(
                     f"cannot write the checked BOM: {exc.strerror or exc}", file=str(csv_out)
                 ) from None
     if csv_out is not None and str(csv_out) == "-":
-        rep.write_csv(sys.stdout)  # type: ignore[arg-type]
+        rep.write_csv(sys.stdout, raw_cells=raw_cells)  # type: ignore[arg-type]
     elif json_out:
         echo_json(rep.to_dict())
     else:

@@ -5,16 +5,12 @@ from __future__ import annotations
 
 import copy
 import difflib
-import json
 import os
-import re
-import tomllib
 from collections.abc import Mapping
 from functools import lru_cache
 from pathlib import Path
 from typing import Any
 
-import yaml
 from jsonschema import Draft202012Validator
 
 from partsel.design.schema import (
@@ -25,10 +21,11 @@ from partsel.design.schema import (
     design_schema,
 )
 from partsel.errors import InputError, Problem, json_pointer
+from partsel.io.textfile import read_structured
 from partsel.physics.circuit import ClosedLoop, Design, Load, Signal, Supply
 from partsel.present import si as format_si
 from partsel.solver import requirements as req_mod
-from partsel.units import parse_quantity
+from partsel.units import parse_quantity, plausibility
 
 
 def _requirements_key_problems(
@@ -94,72 +91,10 @@ def _read_requirements(
 # ---- reading ------------------------------------------------------------------------------
 
 
-class _UniqueKeyLoader(yaml.SafeLoader):
-    """Safe YAML loader that rejects a key given twice in one mapping."""
-
-
-def _construct_unique_mapping(loader: _UniqueKeyLoader, node: yaml.MappingNode) -> dict:
-    loader.flatten_mapping(node)
-    seen: set[Any] = set()
-    for key_node, _ in node.value:
-        key = loader.construct_object(key_node, deep=True)
-        if key in seen:
-            raise yaml.constructor.ConstructorError(
-                None, None, f"key {key!r} given twice", key_node.start_mark
-            )
-        seen.add(key)
-    return loader.construct_mapping(node, deep=True)
-
-
-_UniqueKeyLoader.add_constructor(
-    yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, _construct_unique_mapping
-)
-
-
-def _json_unique_pairs(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
-    out: dict[str, Any] = {}
-    for key, value in pairs:
-        if key in out:
-            raise ValueError(f"key {key!r} given twice")
-        out[key] = value
-    return out
-
-
 def parse_structured(text: str, syntax: str, file: str, record: str | None) -> Any:
-    """Parse file text in ``syntax``; syntax errors become an InputError with the line."""
-
-    def fail(detail: str, line: int | None = None, column: int | None = None) -> InputError:
-        where = ""
-        if line is not None:
-            where = f" at line {line}" + (f", column {column}" if column is not None else "")
-        return InputError(f"malformed {syntax}{where}: {detail}", file=file, record=record)
-
-    if syntax == "TOML":
-        try:
-            return tomllib.loads(text)
-        except tomllib.TOMLDecodeError as exc:
-            msg = str(exc)
-            m = re.search(r"\s*\(at line (\d+), column (\d+)\)", msg)
-            if m:
-                raise fail(msg[: m.start()], int(m.group(1)), int(m.group(2))) from None
-            raise fail(msg) from None
-    if syntax == "YAML":
-        try:
-            return yaml.load(text, Loader=_UniqueKeyLoader)  # a SafeLoader subclass
-        except yaml.MarkedYAMLError as exc:
-            mark = exc.problem_mark
-            detail = exc.problem or exc.context or "syntax error"
-            if mark is None:
-                raise fail(detail) from None
-            raise fail(detail, mark.line + 1, mark.column + 1) from None
-        except yaml.YAMLError as exc:
-            raise fail(str(exc)) from None
-    try:
-        return json.loads(text, object_pairs_hook=_json_unique_pairs)
-    except json.JSONDecodeError as exc:
-        raise fail(exc.msg, exc.lineno, exc.colno) from None
-    except ValueError as exc:  # duplicate key from the hook
-        raise fail(str(exc)) from None
+    """Parse design-file text in ``syntax`` through the one bounded reader
+    (:func:`partsel.io.textfile.read_structured`: size, depth, aliases, duplicate keys)."""
+    return read_structured(text, syntax=syntax, file=file, record=record)  # type: ignore[arg-type]
 
 
 def load_design(path: str | os.PathLike[str]) -> Design:
@@ -179,17 +114,11 @@ def load_design(path: str | os.PathLike[str]) -> Design:
             f"unknown design file type {p.suffix or '(none)'!r}; use " + ", ".join(EXTENSIONS),
             file=file,
         )
-    try:
-        text = p.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise InputError("no such design file", file=file) from None
-    except IsADirectoryError:
-        raise InputError("is a folder, not a design file", file=file) from None
-    except UnicodeDecodeError as exc:
-        raise InputError(f"not UTF-8 text (byte {exc.start})", file=file) from None
-    except OSError as exc:
-        raise InputError(f"cannot read the design: {exc.strerror or exc}", file=file) from None
-    data = parse_structured(text, syntax, file, record)
+    if p.is_dir():
+        raise InputError("is a folder, not a design file", file=file)
+    if not p.exists():
+        raise InputError("no such design file", file=file)
+    data = read_structured(p, syntax=syntax, file=file, record=record)  # type: ignore[arg-type]
     if data is None:
         raise InputError("design file is empty", file=file, record=record)
     return design_from_mapping(data, source=file)
@@ -272,6 +201,7 @@ class _Reader:
         self.file = file
         self.record = record
         self.problems: list[Problem] = []
+        self.warnings: list[str] = []
 
     def has(self, section: str, key: str) -> bool:
         return key in self.data.get(section, {})
@@ -284,7 +214,7 @@ class _Reader:
         if raw is None:
             return None
         try:
-            return parse_quantity(
+            value = parse_quantity(
                 raw,
                 q.dimension,
                 field=json_pointer(section, key),
@@ -294,6 +224,12 @@ class _Reader:
         except InputError as exc:
             self.problems.extend(exc.problems)
             return None
+        warn = plausibility(
+            value, q.dimension, field=json_pointer(section, key), file=self.file, record=self.record
+        )
+        if warn is not None:
+            self.warnings.append(str(warn))
+        return value
 
     def problem(self, message: str, section: str, key: str) -> None:
         self.problems.append(Problem(message, self.file, self.record, json_pointer(section, key)))
@@ -457,6 +393,7 @@ def design_from_mapping(data: Mapping[str, Any], source: str | None = None) -> D
         channels_used=int(data.get("environment", {}).get("channels_used", 1)),
         requirements=requirements,
         source=source,
+        warnings=tuple(r.warnings),
     )
 
     # ---- levels against the rails (only when the values they depend on are sane) -----------

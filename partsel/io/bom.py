@@ -158,6 +158,8 @@ class BomTable:
     line_findings: dict[int, tuple[Finding, ...]] = field(default_factory=dict)
     folder: Path | None = None  #: where per-line design paths are resolved
     warnings: tuple[str, ...] = ()  #: about the BOM as a whole (e.g. a column not recognised)
+    line_ending: str = "\n"  #: the file's line ending (kept when the BOM is written back)
+    had_bom: bool = False  #: the file began with a byte-order mark (kept when written back)
 
     def cell(self, cells: Sequence[str], role: str) -> str:
         k = self.role_index.get(role)
@@ -306,7 +308,10 @@ def read_bom(
             raise InputError("is a folder, not a BOM file", file=label) from None
         except OSError as exc:
             raise InputError(f"cannot read the BOM: {exc.strerror}", file=label) from None
+    had_bom = raw.startswith((b"\xef\xbb\xbf", b"\xff\xfe", b"\xfe\xff"))
     text, enc = _decode(raw, encoding, label)
+    first_break = text.find("\n")
+    line_ending = "\r\n" if first_break > 0 and text[first_break - 1] == "\r" else "\n"
     if not text.strip():
         raise InputError("the BOM file is empty", file=label)
     first = next((ln for ln in text.splitlines() if ln.strip()), "")
@@ -389,6 +394,8 @@ def read_bom(
         findings,
         folder,
         warnings=_role_warnings(header, roles),
+        line_ending=line_ending,
+        had_bom=had_bom,
     )
 
 

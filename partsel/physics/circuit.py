@@ -91,6 +91,8 @@ class Design:
     channels_used: int = 1
     requirements: dict[str, Any] | None = None
     source: str | None = None
+    warnings: tuple[str, ...] = field(default=(), compare=False)
+    """Implausible values of the design file, for people (the values are kept)."""
 
     # ---- derived quantities of the ideal closed loop -------------------------------------
     @property

@@ -337,6 +337,8 @@ def check_bom(
         lines=tuple(out_lines),
         warnings=table.warnings,
         maker_rule=MAKER_RULE,
+        line_ending=table.line_ending,
+        had_bom=table.had_bom,
     )
 
 

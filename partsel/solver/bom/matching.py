@@ -10,8 +10,10 @@ from typing import Any, Literal
 
 import pandas as pd
 
-from partsel.errors import InputError, json_pointer
+from partsel.errors import json_pointer
 from partsel.io.bom import DASHES
+from partsel.io.partnumber import clean_cell
+from partsel.io.suffix import Rule, compile_rule
 
 MatchRule = Literal["exact", "normalised", "suffix", "none"]
 #: Matching rules, in the order they are tried.
@@ -25,7 +27,7 @@ _NORMALISE = re.compile(f"[\\s{re.escape(DASHES)}]+")
 def normalise(part_number: str) -> str:
     """Part number with case, whitespace, dashes and byte-order marks ignored (the
     'normalised' rule)."""
-    return _NORMALISE.sub("", str(part_number).replace("\ufeff", "")).casefold()
+    return _NORMALISE.sub("", clean_cell(part_number)).casefold()
 
 
 def _maker_words(name: str) -> list[str]:
@@ -80,7 +82,8 @@ class Match:
 class PartMatcher:
     """Match BOM part numbers to catalogue rows: exact, normalised, per-maker suffix rules.
 
-    ``makers`` is a list of ``{"name": ..., "suffix_rules": [regex, ...]}`` as returned by
+    ``makers`` is a list of ``{"name": ..., "suffix_rules": [rule, ...]}`` (the suffix-rule
+    language of :mod:`partsel.io.suffix`, linear-time) as returned by
     :func:`partsel.catalogue.makers`; the rules are applied case-insensitively.
     """
 
@@ -96,19 +99,17 @@ class PartMatcher:
         self._norm: dict[str, list[int]] = {}
         for k, p in enumerate(pns):
             self._norm.setdefault(normalise(p), []).append(k)
-        self._rules: list[tuple[str, list[re.Pattern[str]]]] = []
+        self._rules: list[tuple[str, list[Rule]]] = []
         for m_i, m in enumerate(makers):
             name = str(m.get("name", ""))
-            rules = []
-            for r_i, rule in enumerate(m.get("suffix_rules") or []):
-                try:
-                    rules.append(re.compile(str(rule), re.IGNORECASE))
-                except re.error as exc:
-                    raise InputError(
-                        f"suffix rule {rule!r} is not a regular expression: {exc}",
-                        record=name,
-                        pointer=json_pointer("makers", m_i, "suffix_rules", r_i),
-                    ) from None
+            rules = [
+                compile_rule(
+                    str(rule),
+                    record=name,
+                    pointer=json_pointer("makers", m_i, "suffix_rules", r_i),
+                )
+                for r_i, rule in enumerate(m.get("suffix_rules") or [])
+            ]
             if rules:
                 self._rules.append((name.strip().casefold(), rules))
 
@@ -121,7 +122,7 @@ class PartMatcher:
 
     def match(self, text: str, maker: str | None = None) -> Match:
         """Match one BOM part number (``maker``: the BOM's maker cell, narrows ties)."""
-        t = str(text).strip()
+        t = clean_cell(text)
         if not t:
             return Match("none")
         if t in self._exact:
@@ -135,11 +136,11 @@ class PartMatcher:
         for mkey, rules in self._rules:
             cur, stripped = compact, ()
             for _ in range(MAX_SUFFIX_STRIPS):
-                for rx in rules:
-                    m = rx.search(cur)
-                    if m and m.end() > m.start() and m.start() > 0:
-                        stripped = (*stripped, cur[m.start() : m.end()])
-                        cur = cur[: m.start()] + cur[m.end() :]
+                for rule in rules:
+                    split = rule.split(cur)  # linear in the rule's length
+                    if split is not None:
+                        cur, suffix = split
+                        stripped = (*stripped, suffix)
                         break
                 else:
                     break

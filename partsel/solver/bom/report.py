@@ -120,6 +120,8 @@ class BomReport:
     lines: tuple[BomLine, ...]
     warnings: tuple[str, ...] = ()  #: about the BOM as a whole
     maker_rule: str = ""  #: how a maker cell is matched, in words
+    line_ending: str = "\n"  #: the BOM file's line ending (kept by :meth:`write_csv`)
+    had_bom: bool = False  #: the BOM file began with a byte-order mark (kept too)
 
     @property
     def exit_code(self) -> int:
@@ -186,12 +188,20 @@ class BomReport:
             )
         return pd.DataFrame(rows, columns=names)
 
-    def write_csv(self, target: str | os.PathLike[str] | io.TextIOBase) -> None:
-        """Write :meth:`to_frame` as CSV (UTF-8, the BOM's delimiter)."""
-        frame = self.to_frame()
-        if isinstance(target, io.TextIOBase):
-            frame.to_csv(target, index=False, sep=self.delimiter, lineterminator="\n")
-        else:
-            frame.to_csv(
-                target, index=False, sep=self.delimiter, encoding="utf-8", lineterminator="\n"
-            )
+    def write_csv(
+        self, target: str | os.PathLike[str] | io.TextIOBase, *, raw_cells: bool = False
+    ) -> None:
+        """Write :meth:`to_frame` as CSV with the BOM's own delimiter, line ending and
+        byte-order mark, through the one CSV writer (:mod:`partsel.io.csvout`): a cell that
+        would start a spreadsheet formula is made inert. ``raw_cells`` keeps the BOM's own
+        cells as they were read (for trusted pipelines); partsel's columns are always safe."""
+        from partsel.io.csvout import write_frame
+
+        write_frame(
+            self.to_frame(),
+            target,  # type: ignore[arg-type]
+            delimiter=self.delimiter,
+            line_ending=self.line_ending,
+            bom=self.had_bom and not isinstance(target, io.TextIOBase),
+            keep_raw=tuple(self.header) if raw_cells else (),
+        )
