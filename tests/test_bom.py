@@ -158,7 +158,7 @@ def test_ambiguous_normalised_match_and_the_maker_cell(catalogue: Any) -> None:
 
 
 def test_bad_suffix_rule_is_reported(catalogue: Any) -> None:
-    with pytest.raises(InputError, match="suffix language|not part of the language") as exc:
+    with pytest.raises(InputError, match=r"suffix language|not part of the language") as exc:
         PartMatcher(catalogue[0], [{"name": "X", "suffix_rules": ["(unclosed"]}])
     assert exc.value.problems[0].pointer == "/makers/0/suffix_rules/0"
 
