@@ -99,7 +99,6 @@ def test_output_paths_are_checked_before_the_work(cli, tmp_path: Path) -> None:
         assert r.exit_code == 2, (args, r.output)
         assert "Traceback" not in r.output
         assert r.exception is None or isinstance(r.exception, SystemExit)
-        )
         target = str(args[-1])
         assert f"error: {target}:" in r.stderr, (args, r.stderr)
     left = sorted(p.name for p in tmp_path.iterdir() if not p.name.startswith("catalogue"))
