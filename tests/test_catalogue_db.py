@@ -19,6 +19,7 @@ from conftest import CATALOGUE_DATA, PROJECT
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+import partsel
 import partsel.catalogue.store as store
 from partsel.catalogue import (
     FLAT_COLUMN_NAMES,
@@ -294,8 +295,11 @@ def test_env_url_wins_and_is_not_seeded(monkeypatch: pytest.MonkeyPatch, tmp_pat
     eng.dispose()
 
 
-def test_sample_catalogue_found_next_to_pyproject() -> None:
-    assert find_sample_catalogue() == PROJECT / "sample-catalog" / "parts"
+def test_sample_catalogue_is_the_package_data() -> None:
+    """The sample comes with the package (sample-catalog/ in the checkout links to it)."""
+    found = find_sample_catalogue()
+    assert found is not None and found == (PROJECT / "sample-catalog" / "parts").resolve()
+    assert found.is_relative_to(Path(partsel.__file__).resolve().parent)
 
 
 def test_packed_floats_agree_with_the_columns(engine: sa.Engine) -> None:

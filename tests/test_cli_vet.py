@@ -19,6 +19,7 @@ from jsonschema import Draft202012Validator
 from typer.testing import CliRunner, Result
 
 from partsel.catalogue import load_paths, open_catalogue
+from partsel.io.csvout import neutralise
 
 PROJECT = Path(__file__).resolve().parents[1]
 SUBS = Draft202012Validator(
@@ -122,7 +123,8 @@ def test_compare_text_and_json(loaded) -> None:
 
 def test_sample_bom_check(loaded, tmp_path: Path) -> None:
     """The sample BOM has known, unknown, obsolete and suffix-variant lines (and per-line
-    designs): findings, so exit 1; JSON valid; the merged CSV keeps the BOM's own columns."""
+    designs): findings, so exit 1; JSON valid; the merged CSV keeps the BOM's own columns (a
+    cell that would start a spreadsheet formula made inert, partsel.io.csvout)."""
     out = tmp_path / "checked.csv"
     r = loaded("bom-check", SAMPLE_BOM, "--json", "--csv", out)
     assert r.exit_code == 1, r.output
@@ -139,7 +141,8 @@ def test_sample_bom_check(loaded, tmp_path: Path) -> None:
     with out.open(encoding="utf-8", newline="") as fh:
         merged = list(csv.reader(fh))
     width = len(original[0])
-    assert [row[:width] for row in merged] == original
+    assert [row[:width] for row in merged] == [[neutralise(c) for c in row] for row in original]
+    assert any(c.startswith("'+") for row in merged for c in row)  # "+/-15 V test output"
     assert merged[0][width] == "partsel_line"
     r = loaded("bom-check", SAMPLE_BOM)
     assert r.exit_code == 1 and "with findings" in r.stdout

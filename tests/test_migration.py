@@ -197,3 +197,16 @@ def test_opened_by_two_at_once_migrates_once(db_url: str) -> None:
     finally:
         for e in engines:
             e.dispose()
+
+
+def test_revision_graph_read_from_the_scripts_agrees_with_alembic() -> None:
+    """partsel reads the head revision from the migration scripts' own lines (to open an
+    up-to-date catalogue without importing Alembic); Alembic's script directory is the
+    reference."""
+    from alembic.script import ScriptDirectory
+
+    from partsel.catalogue.db import _revision_graph, alembic_config, head_revision
+
+    scripts = ScriptDirectory.from_config(alembic_config())
+    assert head_revision() == scripts.get_current_head()
+    assert _revision_graph() == {s.revision: s.down_revision for s in scripts.walk_revisions()}

@@ -37,9 +37,7 @@ import re
 import zipfile
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
-
-import pandas as pd
+from typing import TYPE_CHECKING, Any
 
 from partsel.catalogue.schema import Schema, catalogue_schema
 from partsel.catalogue.validate import CatalogueDocument, validate_documents
@@ -47,6 +45,9 @@ from partsel.errors import InputError, Problem, excerpt, json_pointer
 from partsel.io.partnumber import clean_cell
 from partsel.io.textfile import MAX_BYTES, read_structured, syntax_for
 from partsel.units import check_unit
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 MAP_FORMAT = "partsel.sheet-map/1"
 #: Largest total size the parts of an XLSX archive may unpack to, bytes.
@@ -389,6 +390,7 @@ def _xlsx_rows(openpyxl: Any, fh: Any, mapping: SheetMapping, file: str) -> list
 
 def _read_xlsx(path: Path, mapping: SheetMapping) -> pd.DataFrame:
     import openpyxl
+    import pandas as pd
 
     file = str(path)
     _check_xlsx_archive(path)
@@ -412,6 +414,8 @@ def _read_xlsx(path: Path, mapping: SheetMapping) -> pd.DataFrame:
 
 
 def read_sheet(path: Path, mapping: SheetMapping) -> pd.DataFrame:
+    import pandas as pd
+
     """The sheet's cells (CSV, or XLSX by its name ending) with the mapping's header row.
 
     Raises InputError naming the file and the reason for a file that cannot be read (see the

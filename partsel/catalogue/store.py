@@ -18,14 +18,13 @@ import hashlib
 import json
 import math
 import re
+import struct
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
-from typing import Any, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
-import numpy as np
-import pandas as pd
 import sqlalchemy as sa
 import yaml
 from sqlalchemy.engine import Connection, Engine
@@ -53,6 +52,9 @@ from partsel.catalogue.schema import FORMAT_NAME
 from partsel.catalogue.tables import history_table, maker_table, part_table
 from partsel.catalogue.validate import CatalogueDocument, read_and_validate, validate_documents
 from partsel.errors import InputError, Problem
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 ExportFormat = Literal["yaml", "json"]
 
@@ -135,13 +137,19 @@ def content_hash(canonical: dict[str, Any]) -> str:
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
+_FLOAT_STRUCT = struct.Struct(f"<{len(FLOAT_COLUMN_NAMES)}d")  # FLOAT_BLOCK_DTYPE, "<f8"
+
+
+def _pack_floats(values: list[float]) -> bytes:
+    """The ``float_block`` of one part: its float columns, little-endian float64."""
+    return _FLOAT_STRUCT.pack(*(float(v) for v in values))
+
+
 def _table_row(part: dict[str, Any], canon: dict[str, Any]) -> dict[str, Any]:
     """The stored columns of one part (flat columns with NaN as NULL, packed floats, record)."""
     flat = flatten_canonical(canon)
     row = {k: (None if v != v else v) for k, v in flat.items()}  # NaN -> NULL
-    row["float_block"] = np.array(
-        [flat[n] for n in FLOAT_COLUMN_NAMES], dtype=FLOAT_BLOCK_DTYPE
-    ).tobytes()
+    row["float_block"] = _pack_floats([flat[n] for n in FLOAT_COLUMN_NAMES])
     row["part_key"] = part_key(part["part_number"])
     row["record_json"] = json.dumps(part, ensure_ascii=False)
     return row
@@ -486,6 +494,16 @@ def _key_order(engine: Engine, column: sa.ColumnElement[str]) -> sa.ColumnElemen
     return column.collate("C") if backend(engine) == "postgresql" else column
 
 
+def _part_rows(engine: Engine, where: sa.ColumnElement[bool] | None) -> list[sa.Row[Any]]:
+    t = part_table
+    stmt = sa.select(*(t.c[n] for n in OTHER_COLUMN_NAMES), t.c.float_block)
+    stmt = stmt.order_by(_key_order(engine, t.c.part_key))
+    if where is not None:
+        stmt = stmt.where(where)
+    with engine.connect() as conn:
+        return list(conn.execute(stmt).fetchall())
+
+
 def parts_frame(engine: Engine, where: sa.ColumnElement[bool] | None = None) -> pd.DataFrame:
     """All parts (or those matching ``where``) as a frame of the flat columns, in one query.
 
@@ -494,13 +512,10 @@ def parts_frame(engine: Engine, where: sa.ColumnElement[bool] | None = None) -> 
     The float columns are read from the packed ``float_block`` (see
     :mod:`partsel.catalogue.tables`), which keeps 100k parts to about a second.
     """
-    t = part_table
-    stmt = sa.select(*(t.c[n] for n in OTHER_COLUMN_NAMES), t.c.float_block)
-    stmt = stmt.order_by(_key_order(engine, t.c.part_key))
-    if where is not None:
-        stmt = stmt.where(where)
-    with engine.connect() as conn:
-        rows = conn.execute(stmt).fetchall()
+    import numpy as np
+    import pandas as pd
+
+    rows = _part_rows(engine, where)
     n = len(rows)
     cols = list(zip(*rows, strict=True)) if rows else [()] * (len(OTHER_COLUMN_NAMES) + 1)
     data: dict[str, Any] = {
@@ -512,6 +527,19 @@ def parts_frame(engine: Engine, where: sa.ColumnElement[bool] | None = None) -> 
     for j, name in enumerate(FLOAT_COLUMN_NAMES):
         data[name] = floats[:, j]
     return pd.DataFrame({name: data[name] for name in FLAT_COLUMN_NAMES})
+
+
+def parts_records(
+    engine: Engine, where: sa.ColumnElement[bool] | None = None
+) -> list[dict[str, Any]]:
+    """The rows of :func:`parts_frame` as plain dicts (no pandas: for quick listings), in the
+    same order, with NaN for unknown floats."""
+    out = []
+    for row in _part_rows(engine, where):
+        rec = dict(zip(OTHER_COLUMN_NAMES, row[:-1], strict=True))
+        rec.update(zip(FLOAT_COLUMN_NAMES, _FLOAT_STRUCT.unpack(bytes(row[-1])), strict=True))
+        out.append({name: rec[name] for name in FLAT_COLUMN_NAMES})
+    return out
 
 
 def _flat_from_row(row: sa.Row[Any]) -> dict[str, Any]:

@@ -13,35 +13,12 @@ import math
 import sys
 from enum import StrEnum
 from pathlib import Path
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any
 
-import pandas as pd
 import typer
-import yaml
 from rich.table import Table
 
 from partsel import present as P
-from partsel.catalogue import (
-    EditResult,
-    HistoryEntry,
-    edit_document,
-    export_catalogue,
-    get_part,
-    load_documents,
-    load_paths,
-    part_history,
-    part_numbers,
-    parts_frame,
-    read_and_validate,
-    restore_part,
-    swing_points,
-)
-from partsel.catalogue.columns import FLAT_COLUMN_NAMES
-from partsel.catalogue.history import format_time
-from partsel.catalogue.schema import FORMAT_NAME
-from partsel.catalogue.sheet import sheet_documents
-from partsel.catalogue.store import LoadReport, StoredPart, part_key
-from partsel.catalogue.validate import canonical_part
 from partsel.cli.common import (
     JsonFlag,
     bad_input_exits,
@@ -61,6 +38,11 @@ from partsel.io.csvout import write_frame
 from partsel.io.paths import output_file, output_folder
 from partsel.params import PARAMS, SIDES, Lifecycle, Topology
 from partsel.units import UNIT_LABEL
+
+if TYPE_CHECKING:
+    from partsel.catalogue import EditResult, HistoryEntry
+    from partsel.catalogue.store import LoadReport, StoredPart
+
 
 Paths = Annotated[list[Path], typer.Argument(help="Catalogue files or folders (YAML/JSON).")]
 #: Largest part version a command accepts (a version is a 64-bit integer in the database).
@@ -82,6 +64,8 @@ def _fmt(value: float, dimension: str) -> str:
 
 def check(paths: Paths, json_out: JsonFlag = False) -> None:
     """Validate catalogue files and folders without touching the database."""
+    from partsel.catalogue import read_and_validate
+
     with bad_input_exits(json_out=json_out):
         docs = read_and_validate(paths)
     n_parts = sum(len(d.parts) for d in docs)
@@ -124,6 +108,8 @@ def load(
     ctx: typer.Context, paths: Paths, dry_run: DryRun = False, json_out: JsonFlag = False
 ) -> None:
     """Validate catalogue files, then add or update their parts (all or nothing)."""
+    from partsel.catalogue import load_paths
+
     eng = engine(ctx) if dry_run else writable_engine(ctx, "load")
     with bad_input_exits(json_out=json_out):
         report = load_paths(eng, paths, dry_run=dry_run, user=user(ctx))
@@ -131,33 +117,29 @@ def load(
 
 
 def _matches(
-    df: pd.DataFrame,
+    rows: list[dict[str, Any]],
     maker: str | None,
     topology: Topology | None,
     lifecycle: Lifecycle | None,
     search: str | None,
-) -> pd.DataFrame:
-    keep = pd.Series(True, index=df.index)
-    if maker:
-        keep &= df["maker"].str.casefold() == maker.strip().casefold()
-    if topology:
-        keep &= df["topology"] == topology.value
-    if lifecycle:
-        keep &= df["lifecycle"] == lifecycle.value
-    if search:
-        text = search.casefold()
-        hit = pd.Series(False, index=df.index)
-        for col in ("part_number", "maker", "family", "description"):
-            hit |= df[col].fillna("").str.casefold().str.contains(text, regex=False)
-        keep &= hit
-    return df[keep]
+) -> list[dict[str, Any]]:
+    """The rows that pass the list filters (plain dicts: no pandas for a listing)."""
+    text = search.casefold() if search else None
+    who = maker.strip().casefold() if maker else None
 
+    def keep(r: dict[str, Any]) -> bool:
+        if who is not None and str(r["maker"]).casefold() != who:
+            return False
+        if topology and r["topology"] != topology.value:
+            return False
+        if lifecycle and r["lifecycle"] != lifecycle.value:
+            return False
+        if text is not None:
+            cols = ("part_number", "maker", "family", "description")
+            return any(text in str(r.get(c) or "").casefold() for c in cols)
+        return True
 
-def _records(df: pd.DataFrame) -> list[dict[str, Any]]:
-    return [
-        {k: (v.item() if hasattr(v, "item") else v) for k, v in row.items()}
-        for row in df.to_dict("records")
-    ]
+    return [r for r in rows if keep(r)]
 
 
 def list_parts(
@@ -172,11 +154,13 @@ def list_parts(
     json_out: JsonFlag = False,
 ) -> None:
     """List stored parts (a table; --json: an array of flat rows in SI units)."""
-    df = _matches(parts_frame(engine(ctx)), maker, topology, lifecycle, search)
+    from partsel.catalogue.store import parts_records
+
+    rows = _matches(parts_records(engine(ctx)), maker, topology, lifecycle, search)
     if json_out:
-        echo_json(_records(df))
+        echo_json(rows)
         return
-    if df.empty:
+    if not rows:
         message("no parts match")
         return
     table = data_table(
@@ -192,25 +176,27 @@ def list_parts(
         "Price",
         keep=("Part",),
     )
-    for r in df.itertuples(index=False):
-        price = "—" if math.isnan(r.price) else f"{r.price:.2f} {r.currency}"
+    for r in rows:
+        price = "—" if math.isnan(r["price"]) else f"{r['price']:.2f} {r['currency']}"
         table.add_row(
-            r.part_number,
-            r.maker,
-            str(r.channels),
-            P.TOPOLOGY_SHORT.get(r.topology, r.topology),
-            P.lifecycle(r.lifecycle),
-            f"{r.supply_min_v:g}–{r.supply_max_v:g} V",
-            _fmt(r.gbw_typ, "frequency"),
-            _fmt(r.slew_rise_typ, "slew"),
-            _fmt(r.supply_current_typ, "current"),
+            r["part_number"],
+            r["maker"],
+            str(r["channels"]),
+            P.TOPOLOGY_SHORT.get(r["topology"], r["topology"]),
+            P.lifecycle(r["lifecycle"]),
+            f"{r['supply_min_v']:g}–{r['supply_max_v']:g} V",
+            _fmt(r["gbw_typ"], "frequency"),
+            _fmt(r["slew_rise_typ"], "slew"),
+            _fmt(r["supply_current_typ"], "current"),
             price,
         )
     out_console().print(table)
-    message(f"{len(df)} parts")
+    message(f"{len(rows)} parts")
 
 
 def _lookup(ctx: typer.Context, part: str) -> StoredPart:
+    from partsel.catalogue import get_part, part_numbers
+
     eng = engine(ctx)
     stored = get_part(eng, part)
     if stored is None:
@@ -226,6 +212,10 @@ def _conditions(spec: Any) -> str:
 
 
 def _show_text(stored: StoredPart) -> None:
+    from partsel.catalogue import swing_points
+    from partsel.catalogue.history import format_time
+    from partsel.catalogue.validate import canonical_part
+
     rec, flat = stored.record, stored.flat
     con = out_console()
     con.print(
@@ -307,6 +297,10 @@ def _show_text(stored: StoredPart) -> None:
 
 def record_file_text(stored: StoredPart) -> str:
     """The stored record as a one-part catalogue file (YAML) to edit and give to ``edit``."""
+    import yaml
+
+    from partsel.catalogue.schema import FORMAT_NAME
+
     pn = stored.record["part_number"]
     head = (
         f"# {pn} at version {stored.version}. Change this file, then store it with\n"
@@ -394,6 +388,9 @@ def edit(
     Get the file with 'partsel show PART --record > FILE'; the new version goes into the
     part's history.
     """
+    from partsel.catalogue import edit_document, read_and_validate
+    from partsel.catalogue.store import part_key
+
     eng = writable_engine(ctx, f"edit {part}")
     with bad_input_exits(json_out=json_out):
         (doc,) = read_and_validate([file])
@@ -411,6 +408,8 @@ def edit(
 
 
 def _history_text(entries: list[HistoryEntry]) -> None:
+    from partsel.catalogue.history import format_time
+
     n = len(entries)
     typer.echo(f"{entries[-1].part_number}: {n} version{'s' if n != 1 else ''}, newest first")
     for e in reversed(entries):
@@ -432,6 +431,8 @@ def history(
 
     --json: oldest first, each with the full record before and after.
     """
+    from partsel.catalogue import part_history
+
     stored = _lookup(ctx, part)
     entries = part_history(engine(ctx), stored.record["part_number"])
     if json_out:
@@ -460,6 +461,8 @@ def restore(
     json_out: JsonFlag = False,
 ) -> None:
     """Store an earlier version of a part again, as its newest version (kept in the history)."""
+    from partsel.catalogue import restore_part
+
     eng = writable_engine(ctx, f"restore {part}")
     with bad_input_exits(json_out=json_out):
         result = restore_part(eng, part, version, expected_version=expect_version, user=user(ctx))
@@ -474,6 +477,8 @@ def export(
     ),
 ) -> None:
     """Write the catalogue as loadable files, one per maker."""
+    from partsel.catalogue import export_catalogue
+
     with bad_input_exits():
         output_folder(directory)
     try:
@@ -491,6 +496,9 @@ def export_csv(
     ],
 ) -> None:
     """Write the flat SI columns of every part as CSV (one row per part)."""
+    from partsel.catalogue import parts_frame
+    from partsel.catalogue.columns import FLAT_COLUMN_NAMES
+
     if str(file) != "-":
         with bad_input_exits():
             output_file(file)
@@ -516,6 +524,9 @@ def import_sheet(
     json_out: JsonFlag = False,
 ) -> None:
     """Turn spreadsheet rows into part records, check them and add or update them."""
+    from partsel.catalogue import load_documents
+    from partsel.catalogue.sheet import sheet_documents
+
     eng = engine(ctx) if dry_run else writable_engine(ctx, "import-sheet")
     with bad_input_exits(json_out=json_out):
         docs = sheet_documents(sheet, mapping)

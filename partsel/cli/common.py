@@ -16,16 +16,18 @@ from contextlib import contextmanager
 from dataclasses import dataclass, field
 from enum import IntEnum
 from pathlib import Path
-from typing import Annotated, Any, NoReturn, ParamSpec, TypeVar
+from typing import TYPE_CHECKING, Annotated, Any, NoReturn, ParamSpec, TypeVar
 
 import typer
 from rich.console import Console
 from rich.table import Table
-from sqlalchemy.engine import Engine
 
-from partsel.catalogue.db import DatabaseErrors, engine_label
-from partsel.catalogue.history import ConflictError
 from partsel.errors import InputError, Problem
+
+if TYPE_CHECKING:
+    from sqlalchemy.engine import Engine
+
+    from partsel.catalogue.history import ConflictError
 
 
 class ExitCode(IntEnum):
@@ -260,6 +262,8 @@ def fail_bad_input(exc: InputError, *, json_out: bool = False) -> NoReturn:
     A :class:`~partsel.catalogue.history.ConflictError` is shown as one block: the refusal,
     who changed the part since, and each changed field with its values then and now.
     """
+    from partsel.catalogue.history import ConflictError
+
     if isinstance(exc, ConflictError):
         _conflict_text(exc)
     else:
@@ -286,6 +290,13 @@ _P = ParamSpec("_P")
 _R = TypeVar("_R")
 
 
+def _database_errors() -> tuple[type[BaseException], ...]:
+    """The database's failure types (imported when a command fails, not at start-up)."""
+    from partsel.catalogue.db import DatabaseErrors
+
+    return DatabaseErrors
+
+
 def database_errors_exit(command: Callable[_P, _R]) -> Callable[_P, _R]:
     """Wrap a command so that a database refusal or failure ends it with a clear message, exit 2.
 
@@ -297,9 +308,11 @@ def database_errors_exit(command: Callable[_P, _R]) -> Callable[_P, _R]:
     def run(*args: _P.args, **kwargs: _P.kwargs) -> _R:
         try:
             return command(*args, **kwargs)
-        except DatabaseErrors as exc:
+        except _database_errors() as exc:
             ctx = next((a for a in (*args, *kwargs.values()) if isinstance(a, typer.Context)), None)
             eng = state(ctx)._engine if ctx is not None else None
+            from partsel.catalogue.db import engine_label
+
             where = engine_label(eng) if eng is not None else "database"
             message(f"error: the catalogue {where} failed: {_first_line(exc)}")
             message("nothing was changed.")

@@ -7,11 +7,10 @@ from __future__ import annotations
 
 import math
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 
-from partsel import api
 from partsel.cli.common import (
     BasisOpt,
     DesignArg,
@@ -27,7 +26,9 @@ from partsel.cli.common import (
 )
 from partsel.errors import InputError
 from partsel.io.paths import output_file
-from partsel.report import prediction_text
+
+if TYPE_CHECKING:
+    from partsel.api import Prediction
 
 PartsArg = Annotated[list[str] | None, typer.Argument(help="Part numbers (default: all).")]
 PartArg = Annotated[str, typer.Argument(help="Part number.")]
@@ -58,7 +59,7 @@ def _prediction(
     margin: float | None,
     run_sim: bool,
     show_progress: bool = True,
-) -> api.Prediction:
+) -> Prediction:
     """The session's prediction: the same verdict, fix and estimates as ``rank``."""
     s = session(ctx)
     design = load_design(design_path)
@@ -84,6 +85,8 @@ def predict(
 
     The verdict, the fix and the estimates are the ranking's for the same design and options.
     """
+    from partsel.report import prediction_text
+
     with bad_input_exits(json_out=json_out):
         pred = _prediction(ctx, design, parts, basis, series, margin, not no_sim, not json_out)
     rows = pred.parts()
@@ -93,7 +96,9 @@ def predict(
     for r in rows:
         typer.echo(prediction_text(r))
         typer.echo("")
-    message(api.CAUTION)
+    from partsel.api import CAUTION
+
+    message(CAUTION)
 
 
 def waveform(

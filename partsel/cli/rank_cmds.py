@@ -10,9 +10,8 @@ from __future__ import annotations
 import math
 import sys
 from pathlib import Path
-from typing import Annotated, Any
+from typing import TYPE_CHECKING, Annotated, Any
 
-import numpy as np
 import typer
 from rich.markup import escape
 from rich.table import Table
@@ -34,25 +33,11 @@ from partsel.cli.common import (
     session,
 )
 from partsel.errors import InputError
-from partsel.io.csvout import write_frame
-from partsel.report import fix_lines
-from partsel.solver import Ranking
-from partsel.solver import checks as C
-from partsel.solver.export import (
-    CAUTION,
-    THD_LABEL,
-    fix_dict,
-    options_dict,
-    part_checks,
-    part_dict,
-    ranking_dict,
-    ranking_frame,
-    verdict_text,
-)
-from partsel.solver.messages import failing_messages
-from partsel.solver.pareto import dominators
-from partsel.solver.relax import part_relaxation
-from partsel.solver.requirements import LIMIT_BY_KEY
+
+if TYPE_CHECKING:
+    import numpy as np
+
+    from partsel.solver import Ranking
 
 
 def _solve(ctx: typer.Context, design_path: Path, basis: str | None) -> Ranking:
@@ -76,6 +61,8 @@ def _console() -> Any:
 
 def _crossover(r: Ranking, i: int) -> str:
     """Handover of the output stage: the output level where it happens, or none."""
+    from partsel.solver.export import verdict_text
+
     v = verdict_text(r, i)
     if v == "changes-mode":
         lvl = r.prediction.handover_out_v[i]
@@ -94,6 +81,8 @@ def _fix(r: Ranking, i: int) -> str:
 
 
 def _miss(r: Ranking, i: int, j: int) -> str:
+    from partsel.solver import checks as C
+
     c = C.CHECKS[j]
     st = int(r.checks.status[i, j])
     if st == C.UNKNOWN:
@@ -111,6 +100,8 @@ def _miss(r: Ranking, i: int, j: int) -> str:
 
 
 def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
+    from partsel.solver import checks as C
+
     t = data_table(
         "#",
         "Part",
@@ -151,6 +142,8 @@ def _rank_table(r: Ranking, rows: np.ndarray) -> Table:
 
 
 def _miss_table(r: Ranking, rows: np.ndarray) -> Table:
+    from partsel.solver import checks as C
+
     t = data_table(
         "Part",
         "Maker",
@@ -179,6 +172,8 @@ def _miss_table(r: Ranking, rows: np.ndarray) -> Table:
 
 
 def _hint_value(requirement: str, unit: str, value: Any) -> str:
+    from partsel.solver.requirements import LIMIT_BY_KEY
+
     if isinstance(value, list | tuple):
         return ", ".join(str(v) for v in value)
     if isinstance(value, str):
@@ -226,6 +221,9 @@ def rank_cmd(
 
     Exit code 0 when at least one part is feasible, 1 when none is, 2 for bad input.
     """
+    from partsel.io.csvout import write_frame
+    from partsel.solver.export import CAUTION, THD_LABEL, ranking_dict, ranking_frame
+
     with bad_input_exits(json_out=json_out):
         if json_out and csv_out:
             raise InputError("choose one of --json and --csv", pointer="/json")
@@ -278,6 +276,12 @@ def explain(
 
     Exit code 0 when the part is feasible, 1 when it is rejected, 2 for bad input.
     """
+    import numpy as np
+
+    from partsel.solver.export import CAUTION, THD_LABEL, options_dict, part_dict
+    from partsel.solver.pareto import dominators
+    from partsel.solver.relax import part_relaxation
+
     with bad_input_exits(json_out=json_out):
         r = _solve(ctx, design, basis)
     try:
@@ -313,6 +317,11 @@ def explain(
 
 
 def _explain_text(r: Ranking, i: int, dom: np.ndarray, own_hints: list[Any]) -> None:
+    from partsel.report import fix_lines
+    from partsel.solver import checks as C
+    from partsel.solver.export import fix_dict, part_checks
+    from partsel.solver.messages import failing_messages
+
     con = _console()
     t, req, p = r.table, r.requirements, r.prediction
     con.print(

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import sys
 from pathlib import Path
-from typing import Annotated
+from typing import TYPE_CHECKING, Annotated
 
 import typer
 
@@ -28,15 +28,14 @@ from partsel.cli.common import (
     session,
 )
 from partsel.errors import InputError
+from partsel.io.bom import ROLES
 from partsel.io.paths import output_file
-from partsel.physics.circuit import Design
-from partsel.solver.bom import ROLES, BomReport
-from partsel.solver.substitute import (
-    CAUTION,
-    Comparison,
-    Vetting,
-    fmt,
-)
+
+if TYPE_CHECKING:
+    from partsel.physics.circuit import Design
+    from partsel.solver.bom import BomReport
+    from partsel.solver.substitute import Comparison, Vetting
+
 
 DesignOpt = Annotated[
     Path | None,
@@ -57,6 +56,8 @@ def _design(path: Path | None) -> Design | None:
 
 def vetting_text(v: Vetting, *, details: bool = False) -> str:
     """The vetting for people."""
+    from partsel.solver.substitute import fmt
+
     inc = v.incumbent
     pk = ", ".join(f"{c}:{p}" for c, p in inc.packages)
     head = (
@@ -137,6 +138,8 @@ def vet(
     json_out: JsonFlag = False,
 ) -> None:
     """Vet substitutes for an incumbent part: form, fit, function and behaviour in a design."""
+    from partsel.solver.substitute import CAUTION
+
     with bad_input_exits(json_out=json_out):
         d = _design(design)
         if top < 0:
@@ -260,6 +263,7 @@ def _count_lines(path: Path) -> int:
 
 
 def _column_map(items: list[str] | None) -> dict[str, str]:
+
     out: dict[str, str] = {}
     for item in items or []:
         role, sep, name = item.partition("=")

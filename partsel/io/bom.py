@@ -29,11 +29,12 @@ import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field, fields
 from pathlib import Path
-from typing import Any, Literal
-
-import pandas as pd
+from typing import TYPE_CHECKING, Any, Literal
 
 from partsel.errors import InputError, json_pointer
+
+if TYPE_CHECKING:
+    import pandas as pd
 
 FindingSeverity = Literal["error", "warning", "info"]
 #: Dash characters ignored in header names and by the normalised match: hyphen-minus, the
@@ -265,6 +266,8 @@ def read_bom(
     """
     cols = columns if isinstance(columns, BomColumns) else BomColumns.from_mapping(columns)
     folder: Path | None = None
+    import pandas as pd  # only for a frame given as the BOM
+
     if isinstance(source, pd.DataFrame):
         label = name or "<frame>"
         header = tuple(str(c) for c in source.columns)
