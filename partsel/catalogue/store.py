@@ -19,7 +19,7 @@ import json
 import math
 import re
 import struct
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
@@ -301,12 +301,15 @@ def load_paths(
     *,
     dry_run: bool = False,
     user: str | None = None,
+    progress: Callable[[int], None] | None = None,
 ) -> LoadReport:
     """Validate catalogue files and folders, then store them (see :func:`load_documents`).
 
     Raises InputError listing every problem of every file; nothing is stored then.
+    ``progress(1)`` is called as each file has been read.
     """
-    return load_documents(engine, read_and_validate(paths), dry_run=dry_run, user=user)
+    docs = read_and_validate(paths, progress=progress)
+    return load_documents(engine, docs, dry_run=dry_run, user=user)
 
 
 # --- one part at a time, against a known version ----------------------------------------------
@@ -606,8 +609,15 @@ def _slug(name: str) -> str:
     return re.sub(r"[^a-z0-9]+", "-", name.casefold()).strip("-") or "maker"
 
 
-def export_catalogue(engine: Engine, directory: Path, fmt: ExportFormat = "yaml") -> list[Path]:
-    """Write one loadable catalogue file per maker into ``directory``; return the files."""
+def export_catalogue(
+    engine: Engine,
+    directory: Path,
+    fmt: ExportFormat = "yaml",
+    *,
+    progress: Callable[[int], None] | None = None,
+) -> list[Path]:
+    """Write one loadable catalogue file per maker into ``directory``; return the files
+    (``progress(1)`` as each is written)."""
     directory.mkdir(parents=True, exist_ok=True)
     written: list[Path] = []
     used: set[str] = set()
@@ -624,4 +634,6 @@ def export_catalogue(engine: Engine, directory: Path, fmt: ExportFormat = "yaml"
             text = yaml.safe_dump(doc, sort_keys=False, allow_unicode=True, width=100)
         path.write_text(text, encoding="utf-8")
         written.append(path)
+        if progress is not None:
+            progress(1)
     return written

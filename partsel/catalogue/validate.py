@@ -525,8 +525,12 @@ def validate_documents(items: Iterable[tuple[str, Any]]) -> list[CatalogueDocume
     return docs
 
 
-def read_and_validate(paths: Iterable[str | Path]) -> list[CatalogueDocument]:
-    """Read catalogue files and folders, validate them all; raise InputError with every problem."""
+def read_and_validate(
+    paths: Iterable[str | Path], *, progress: Callable[[int], None] | None = None
+) -> list[CatalogueDocument]:
+    """Read catalogue files and folders, validate them all; raise InputError with every problem.
+
+    ``progress(1)`` is called as each file has been read (a progress bar)."""
     files, problems = find_files(paths)
     items: list[tuple[str, Any]] = []
     for f in files:
@@ -534,6 +538,8 @@ def read_and_validate(paths: Iterable[str | Path]) -> list[CatalogueDocument]:
             items.append((str(f), read_document(f)))
         except InputError as exc:
             problems.extend(exc.problems)
+        if progress is not None:
+            progress(1)
     try:
         docs = validate_documents(items)
     except InputError as exc:

@@ -30,6 +30,7 @@ from partsel.cli.common import (
     message,
     out_console,
     problems_json,
+    progress,
     user,
     writable_engine,
 )
@@ -109,10 +110,13 @@ def load(
 ) -> None:
     """Validate catalogue files, then add or update their parts (all or nothing)."""
     from partsel.catalogue import load_paths
+    from partsel.catalogue.files import find_files
 
     eng = engine(ctx) if dry_run else writable_engine(ctx, "load")
     with bad_input_exits(json_out=json_out):
-        report = load_paths(eng, paths, dry_run=dry_run, user=user(ctx))
+        n_files = len(find_files(paths)[0])
+        with progress(n_files, "reading catalogue files", enabled=not json_out) as advance:
+            report = load_paths(eng, paths, dry_run=dry_run, user=user(ctx), progress=advance)
     _report(report, json_out)
 
 
@@ -481,8 +485,12 @@ def export(
 
     with bad_input_exits():
         output_folder(directory)
+    from partsel.catalogue import makers
+
+    eng = engine(ctx)
     try:
-        files = export_catalogue(engine(ctx), directory, fmt.value)
+        with progress(len(makers(eng)), "writing catalogue files") as advance:
+            files = export_catalogue(eng, directory, fmt.value, progress=advance)
     except OSError as exc:
         fail_bad_input(InputError(f"cannot write: {exc.strerror or exc}", file=str(directory)))
     message(f"wrote {len(files)} files to {directory}")
