@@ -35,6 +35,7 @@ from __future__ import annotations
 import math
 import re
 import zipfile
+from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -450,11 +451,16 @@ def read_sheet(path: Path, mapping: SheetMapping) -> pd.DataFrame:
         raise InputError(f"cannot read sheet: {excerpt(str(exc), 120)}", file=file) from None
 
 
-def sheet_documents(sheet: Path, mapping_file: Path) -> list[CatalogueDocument]:
+def sheet_documents(
+    sheet: Path,
+    mapping_file: Path,
+    *,
+    progress: Callable[[int, int], None] | None = None,
+) -> list[CatalogueDocument]:
     """Turn a sheet's rows into part records and validate them (InputError: every problem).
 
     Problems name the sheet, the row as ``row N`` (its row number in the sheet) and the field;
-    the mapped column is added to the message.
+    the mapped column is added to the message. ``progress(done, total)`` follows the rows.
     """
     mapping = read_mapping(mapping_file)
     df = read_sheet(sheet, mapping)
@@ -468,7 +474,10 @@ def sheet_documents(sheet: Path, mapping_file: Path) -> list[CatalogueDocument]:
     problems: list[Problem] = []
     records: list[dict[str, Any]] = []
     rows: list[int] = []
-    for i, cells in enumerate(df.to_dict("records")):
+    all_rows = df.to_dict("records")
+    for i, cells in enumerate(all_rows):
+        if progress is not None and i % 100 == 0:
+            progress(i, len(all_rows))
         if all(_is_blank(cells[cm.column]) for cm in mapping.columns):
             continue
         record: dict[str, Any] = {}

@@ -31,6 +31,7 @@ from partsel.cli.common import (
     out_console,
     problems_json,
     progress,
+    progress_to,
     user,
     writable_engine,
 )
@@ -537,7 +538,8 @@ def import_sheet(
 
     eng = engine(ctx) if dry_run else writable_engine(ctx, "import-sheet")
     with bad_input_exits(json_out=json_out):
-        docs = sheet_documents(sheet, mapping)
+        with progress_to("reading the sheet", enabled=not json_out) as update:
+            docs = sheet_documents(sheet, mapping, progress=update)
         report = load_documents(eng, docs, dry_run=dry_run, user=user(ctx), via="import-sheet")
     _report(report, json_out)
 

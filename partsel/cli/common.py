@@ -183,6 +183,22 @@ def progress(total: int, what: str, *, enabled: bool = True) -> Iterator[Callabl
         yield lambda n=1: bar.advance(task, n)
 
 
+@contextmanager
+def progress_to(what: str, *, enabled: bool = True) -> Iterator[Callable[[int, int], None]]:
+    """Like :func:`progress`, for work that learns its size as it goes: yields
+    ``update(done, total)``."""
+    con = err_console()
+    if not (enabled and con.is_terminal):
+        yield lambda done, total: None
+        return
+    from rich.progress import BarColumn, MofNCompleteColumn, Progress
+
+    with Progress(f"[bold]{what}", BarColumn(), MofNCompleteColumn(), console=con,
+                  transient=True) as bar:  # fmt: skip
+        task = bar.add_task(what, total=None)
+        yield lambda done, total: bar.update(task, completed=done, total=total)
+
+
 def data_table(*headers: str, title: str | None = None, keep: tuple[str, ...] = ()) -> Table:
     """A table for people whose headers are never cut: each column is at least as wide as the
     longest word of its header, and cells wrap (fold) instead of being cut; ``keep``: columns
