@@ -171,7 +171,7 @@ def compare_rows(r: Ranking, parts: list[int]) -> list[CompareRow]:
         texts = [fmt.quantity(v, C.CHECKS[j].unit) for v in vals]
         rows.append(_row(label, texts, vals, "min", g, _fails(r, parts, name)))
 
-    g = "Margins (ratio, ≥ 1 passes)"
+    g = "Margins (≥ ×1 passes)"
     for j, c in enumerate(C.CHECKS):
         if c.sense == "is":
             continue

@@ -333,7 +333,8 @@ class RankingView:
     def margin_words(self, i: int) -> str:
         """The key-margin cell of part ``i`` in words: which check, how much to spare or short,
         and what its ratio means (the check itself worded by
-        :func:`partsel.solver.messages.check_message`)."""
+        :func:`partsel.solver.messages.check_message`); "" for a rejected part whose binding
+        check has no margin (a yes/no check, or no data), which its verdict line words."""
         r = self.r
         feasible = bool(r.feasible[i])
         j = self.key_check(i)
@@ -343,10 +344,10 @@ class RankingView:
         c = C.CHECKS[j]
         label = fmt.check_label(c.name)
         m, q = float(r.checks.margin[i, j]), float(r.checks.ratio[i, j])
-        if int(r.checks.status[i, j]) == C.UNKNOWN:
-            return f"key margin, {which}: {check_message(r, i, c.name)}"
-        if c.sense == "is" or not math.isfinite(m):
-            return f"key margin, {which}: {check_message(r, i, c.name)} (a yes/no check)"
+        if int(r.checks.status[i, j]) == C.UNKNOWN or c.sense == "is" or not math.isfinite(m):
+            if not feasible:
+                return ""  # no margin: the verdict line has the check's words already
+            return f"key margin, {which}: {check_message(r, i, c.name)} (no margin to give)"
         amount = fmt.quantity(abs(m), P.difference_unit(c.display_unit))
         head = (
             f"key margin, {which}: {check_message(r, i, c.name)}; {amount} to spare"

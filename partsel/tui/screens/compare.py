@@ -119,8 +119,11 @@ class CompareScreen(Screen[None]):
     def fill(self) -> None:
         table = self.query_one("#compare-table", DataTable)
         table.clear(columns=True)
-        table.add_column("", key="label", width=26)
-        width = {2: 40, 3: 29}.get(len(self.part_numbers), 22)
+        label_w = min(30, max([25, *(len(row.label) for row in self.rows)]) + 1)
+        table.add_column("", key="label", width=label_w)
+        n = len(self.part_numbers)
+        room = (table.size.width or self.app.size.width - 4) - label_w - 2 * (n + 1) - 2
+        width = max(16, min(40, room // n))
         for pn in self.part_numbers:
             table.add_column(pn, key=pn, width=width)
         group = None

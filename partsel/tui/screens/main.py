@@ -232,12 +232,12 @@ class MainScreen(Screen[None]):
                 text.append(f" [{Path(d.source).name}]", style="dim")
         if self.form.modified:
             text.append("  ● unsaved changes", style="bold")
-        text.append(f"  ·  catalogue: {app.table.n} parts")
         if not self.form_ok:
             text.append(
                 f"  ·  {fmt.BAD} design has problems: ranking is for the last valid one",
                 style="bold red",
             )
+        text.append(f"  ·  catalogue: {app.table.n} parts")
         self.query_one("#topbar", Static).update(text)
 
     # ---- messages from the widgets -------------------------------------------------------------

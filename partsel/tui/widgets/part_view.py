@@ -62,7 +62,9 @@ def summary_text(r: Ranking, i: int) -> Text:
             others = [fmt.check_label(n) for n, _ in failing_messages(r, i)[1:]]
             out.append(f"; also fails {', '.join(others)}")
     out.append("\n")
-    out.append(RankingView(r).margin_words(i) + "\n", style="dim")
+    words = RankingView(r).margin_words(i)
+    if words:
+        out.append(words + "\n", style="dim")
     v = str(p.conduction[i])
     if v == "changes-mode":
         out.append(f"{fmt.WARN} hands over", style="yellow")
