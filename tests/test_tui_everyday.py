@@ -216,6 +216,26 @@ def test_open_dialog_focus_typed_path_and_unsaved_changes(tui_engine: Any, tmp_p
     drive(app, scenario)
 
 
+def test_open_dialog_down_picks_a_sample(tui_engine: Any, tmp_path: Path) -> None:
+    """From the path field, down moves to the sample designs; enter opens the one highlighted
+    (the first sample file by name)."""
+    app = make_app(tui_engine, tmp_path)
+    first = sorted(SAMPLE_DESIGNS.glob("*.toml"))[0]
+
+    async def scenario(pilot: Any) -> None:
+        await pilot.press("ctrl+o")
+        await settle(pilot)
+        await pilot.press("down")
+        await settle(pilot)
+        assert app.focused is app.screen.query_one("#dialog-options")
+        await pilot.press("enter")
+        await settle(pilot)
+        assert stack_types(app)[-1] == "MainScreen"
+        assert app.design.name == load_design(first).name
+
+    drive(app, scenario)
+
+
 def test_save_proposes_a_name_and_keeps_comments(tui_engine: Any, tmp_path: Path) -> None:
     """ctrl+s proposes the design's own file, or for a new design a name made from its name;
     saving an edited copy of the sample keeps its comments and writes the new value; after
@@ -289,7 +309,7 @@ def test_ranking_table_fits_its_pane(tui_engine: Any, tmp_path: Path, width: int
     """At 120 and 160 columns the table needs no sideways scrolling: the rank, part, verdict,
     key margin, stage and maker columns are on screen with their full headers, every shown
     cell is whole or visibly cut ('…'), and the status line names what is left out."""
-    from partsel.tui.rows import COLUMN_BY_KEY, ORDER
+    from partsel.tui.rows import COLUMN_BY_KEY, CORE, ORDER
 
     app = make_app(tui_engine, tmp_path)
 
@@ -328,6 +348,8 @@ def test_ranking_table_fits_its_pane(tui_engine: Any, tmp_path: Path, width: int
 
     seen: list[str] = []
     drive(app, scenario, size=(width, 40))
+    if width == 120:  # the README says: only the core columns at 120 (sample catalogue)
+        assert set(seen) == set(CORE)
     if width == 160:  # room for the fix resistor and the THD estimate as well
         assert {"fix", "thd"} <= set(seen)
 

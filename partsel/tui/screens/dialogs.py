@@ -11,6 +11,7 @@ from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical
+from textual.events import Key
 from textual.screen import ModalScreen
 from textual.widgets import Button, Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
@@ -113,10 +114,14 @@ class PathDialog(ModalScreen[str | None]):
         event.stop()
         self._error("")
 
-    def key_down(self) -> None:
-        """From the path field, ``down`` moves to the suggestions."""
+    def key_down(self, event: Key) -> None:
+        """From the path field, ``down`` moves to the suggestions (the first highlighted)."""
         if self.focused is self.query_one("#dialog-path", Input) and self.suggestions:
-            self.query_one(OptionList).focus()
+            event.stop()
+            event.prevent_default()
+            options = self.query_one(OptionList)
+            options.focus()
+            options.highlighted = 0
 
     @on(OptionList.OptionSelected, "#dialog-options")
     def _picked(self, event: OptionList.OptionSelected) -> None:
