@@ -227,9 +227,11 @@ class PartselApp(App[None]):
         try:
             path.write_text(svg, encoding="utf-8")
         except OSError as exc:
-            self.notify(str(exc), title="screenshot not written", severity="error", timeout=10)
+            self.notify(
+                str(exc), title="screenshot not written", severity="error", timeout=10, markup=False
+            )
             return None
-        self.notify(f"screenshot written to {path}")
+        self.notify(f"screenshot written to {path}", markup=False)
         return path
 
     def _resolve(self, path: Path) -> Path:

@@ -7,6 +7,7 @@ from collections.abc import Callable
 from pathlib import Path
 from typing import ClassVar
 
+from rich.text import Text
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
@@ -85,7 +86,7 @@ class PathDialog(ModalScreen[str | None]):
 
     def _error(self, message: str) -> None:
         err = self.query_one("#dialog-error", Static)
-        err.update(message)
+        err.update(Text(message))  # plain text: a file's "[section]" is not markup
         err.set_class(bool(message), "shown")
 
     def _accept(self, text: str) -> None:
@@ -155,7 +156,7 @@ class ConfirmDialog(ModalScreen[bool]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="dialog"):
-            yield Label(self.question, id="confirm-question", classes="dialog-title")
+            yield Label(Text(self.question), id="confirm-question", classes="dialog-title")
             with Horizontal(classes="dialog-buttons"):
                 yield Button(f"{self.yes} (y)", variant="warning", id="confirm-yes")
                 yield Button(f"{self.no} (n)", variant="primary", id="confirm-no")

@@ -398,7 +398,9 @@ class MainScreen(Screen[None]):
         try:
             design = read[1] if read is not None and read[0] == target else load_design(target)
         except InputError as exc:
-            self.notify(str(exc), title="design not opened", severity="error", timeout=10)
+            self.notify(
+                str(exc), title="design not opened", severity="error", timeout=10, markup=False
+            )
             return False
         self.replace_design(design, f"opened {target.name}")
         return True
@@ -439,7 +441,7 @@ class MainScreen(Screen[None]):
             if open_limits:
                 self.call_later(self.form.open_group, LIMITS_GROUP)
             self.update_topbar()
-            self.notify(done, timeout=2)
+            self.notify(done, timeout=2, markup=False)
 
         if not self.form.modified:
             go(True)
@@ -480,11 +482,13 @@ class MainScreen(Screen[None]):
         try:
             save_design(design, target, base=base)
         except (InputError, OSError) as exc:
-            self.notify(str(exc), title="design not saved", severity="error", timeout=10)
+            self.notify(
+                str(exc), title="design not saved", severity="error", timeout=10, markup=False
+            )
             return False
         self.form.mark_saved(str(target))
         self.update_topbar()
-        self.notify(f"saved {target.name}", timeout=2)
+        self.notify(f"saved {target.name}", timeout=2, markup=False)
         return True
 
     def action_export(self) -> None:
@@ -500,10 +504,10 @@ class MainScreen(Screen[None]):
         try:
             out = self.app.export_ranking(Path(path))
         except (InputError, OSError) as exc:
-            self.notify(str(exc), title="not exported", severity="error", timeout=10)
+            self.notify(str(exc), title="not exported", severity="error", timeout=10, markup=False)
             return None
         n = self.app.ranking.n if self.app.ranking is not None else 0
-        self.notify(f"exported {n} parts to {out.name}", timeout=3)
+        self.notify(f"exported {n} parts to {out.name}", timeout=3, markup=False)
         return out
 
     # ---- command palette ----------------------------------------------------------------------
