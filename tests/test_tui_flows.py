@@ -330,7 +330,8 @@ def test_write_catalogue_files_round_trip(tui_engine: Any, tmp_path: Path) -> No
 def test_sort_filter_basis_and_rejected(tui_engine: Any, tmp_path: Path) -> None:
     """Sorting by price orders the rows by the catalogue's price; the text filter keeps only the
     parts that match; ctrl+b switches to the typical basis (the solver's typical ranking);
-    ctrl+r shows the rejected parts with the solver's binding constraint."""
+    ctrl+r shows the rejected parts with the solver's count of failing checks and, in the key
+    margin, its binding constraint."""
     app = make_app(tui_engine, tmp_path)
 
     async def scenario(pilot: Any) -> None:
@@ -342,11 +343,13 @@ def test_sort_filter_basis_and_rejected(tui_engine: Any, tmp_path: Path) -> None
         assert len(table_parts(screen)) == r.n
         from partsel.solver import checks as C
 
-        for k, pn in enumerate(table_parts(screen)):
+        for pn in table_parts(screen):
             i = r.index(pn)
             if not r.feasible[i]:
-                cell = str(pane.table.get_row_at(k)[3])
-                assert cell.startswith("✗ " + check_label(C.CHECKS[int(r.binding[i])].name))
+                verdict = str(pane.table.get_cell(pn, "verdict"))
+                assert verdict == f"✗ fails {int(r.n_failing[i])}"
+                key = str(pane.table.get_cell(pn, "margin"))
+                assert key.startswith(check_label(C.CHECKS[int(r.binding[i])].name))
         pane.set_sort("price")
         await settle(pilot)
         prices = [sample_record(pn)["price"]["unit"] * math.ceil(2 / sample_record(pn)["channels"])

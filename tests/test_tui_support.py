@@ -42,12 +42,13 @@ def copy_sample_db(sample_db_file: Path, tmp_path: Path) -> Any:
 
 
 def make_app(engine: Any, tmp_path: Path, *, simulate: bool = False, **kw: Any) -> Any:
-    """The app on ``engine`` with the sample line driver, files going to ``tmp_path``."""
+    """The app on ``engine`` with the sample line driver (or ``design=``), files going to
+    ``tmp_path``."""
     from partsel.tui.app import PartselApp
 
+    kw.setdefault("design", LINE_DRIVER)
     return PartselApp(
         engine,
-        design=LINE_DRIVER,
         simulate=simulate,
         sample_dir=SAMPLE_DESIGNS,
         work_dir=tmp_path,
@@ -63,15 +64,42 @@ async def settle(pilot: Any, rounds: int = 3) -> None:
     await pilot.pause()
 
 
-def drive(app: Any, scenario: Callable[[Any], Awaitable[None]]) -> None:
-    """Run ``scenario(pilot)`` against ``app`` headless at :data:`SIZE`."""
+def drive(
+    app: Any, scenario: Callable[[Any], Awaitable[None]], size: tuple[int, int] = SIZE
+) -> None:
+    """Run ``scenario(pilot)`` against ``app`` headless at ``size`` (default :data:`SIZE`)."""
 
     async def main() -> None:
-        async with app.run_test(size=SIZE) as pilot:
+        async with app.run_test(size=size) as pilot:
             await settle(pilot)
             await scenario(pilot)
 
     asyncio.run(main())
+
+
+def screen_text(app: Any) -> str:
+    """The screen as the user sees it, as plain text (one line per terminal row): the
+    compositor's full update printed on a recording console, as Textual does for its
+    screenshots."""
+    import io
+
+    from rich.console import Console
+
+    width, height = app.size
+    console = Console(
+        width=width,
+        height=height,
+        file=io.StringIO(),
+        force_terminal=True,
+        color_system=None,
+        record=True,
+        legacy_windows=False,
+        safe_box=False,
+    )
+    console.print(
+        app.screen._compositor.render_update(full=True, screen_stack=app._background_screens)
+    )
+    return console.export_text()
 
 
 async def type_into(pilot: Any, widget_id: str, text: str) -> None:
@@ -116,3 +144,11 @@ def reference_prediction(app: Any, part_number: str) -> Any:
     pred = app.session.predict(app.design, [part_number], ranking=app.ranking)
     _PREDICTIONS.append((key, pred))
     return pred
+
+
+def widget_text(app: Any, widget: Any) -> str:
+    """The text a widget shows on screen, its rows joined by spaces (what fits in its region;
+    anything cut off is not there)."""
+    region = widget.region
+    rows = screen_text(app).splitlines()[region.y : region.bottom]
+    return " ".join(row[region.x : region.right].strip() for row in rows)

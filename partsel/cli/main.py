@@ -9,6 +9,7 @@ Each command module has a ``register(app)`` function that adds its commands; add
 from __future__ import annotations
 
 import sys
+from pathlib import Path
 from typing import Annotated
 
 import typer
@@ -75,6 +76,38 @@ def main(
             raise typer.Exit(ExitCode.OK)
         typer.echo(ctx.get_help())
         raise typer.Exit(ExitCode.OK)
+
+
+@app.command("ui")
+def ui(
+    ctx: typer.Context,
+    design: Annotated[
+        Path | None,
+        typer.Argument(
+            help="Design file to open (.toml, .yaml or .json). Default: the sample line driver."
+        ),
+    ] = None,
+) -> None:
+    """Open the terminal UI on the catalogue, with DESIGN in the form and ranked.
+
+    A design file that cannot be read: its problems, exit code 2 and no UI (so without a tty).
+    """
+    from partsel.cli.common import bad_input_exits, message, state
+
+    opened = None
+    if design is not None:
+        from partsel.design import load_design
+
+        with bad_input_exits():
+            opened = load_design(design)
+    if not (sys.stdin.isatty() and sys.stdout.isatty()):
+        message("error: partsel ui needs a terminal (use partsel rank DESIGN in scripts).")
+        raise typer.Exit(ExitCode.BAD_INPUT)
+    from partsel.tui import run_tui
+
+    st = state(ctx)
+    run_tui(st.engine(), opened, user=st.user)
+    raise typer.Exit(ExitCode.OK)
 
 
 for _module in COMMAND_MODULES:

@@ -17,19 +17,25 @@ from typing import TYPE_CHECKING
 if TYPE_CHECKING:
     from sqlalchemy.engine import Engine
 
+    from partsel.physics.circuit import Design
     from partsel.tui.app import PartselApp
 
 __all__ = ["make_app", "run_tui"]
 
 
-def make_app(engine: Engine, design: str | Path | None = None, **kwargs: object) -> PartselApp:
+def make_app(
+    engine: Engine, design: Design | str | Path | None = None, **kwargs: object
+) -> PartselApp:
     """The app on ``engine`` (the first design: ``design``, else the sample line driver)."""
     from partsel.tui.app import PartselApp
 
     return PartselApp(engine, design=design, **kwargs)  # type: ignore[arg-type]
 
 
-def run_tui(engine: Engine, design: str | Path | None = None, user: str | None = None) -> None:
-    """Run the terminal UI on ``engine`` until the user quits (``user``: the name recorded in
-    the catalogue history for edits made in the UI; default the OS user)."""
+def run_tui(
+    engine: Engine, design: Design | str | Path | None = None, user: str | None = None
+) -> None:
+    """Run the terminal UI on ``engine`` until the user quits, with ``design`` (a design or
+    its file; default the sample line driver) in the form (``user``: the name recorded in the
+    catalogue history for edits made in the UI; default the OS user)."""
     make_app(engine, design, user=user).run()

@@ -86,9 +86,21 @@ class PartselApp(App[None]):
             "Screenshot",
             id="screenshot",
             priority=True,
+            show=False,
             tooltip="Save the screen as an SVG file",
         ),
-        Binding("ctrl+q", "quit", "Quit", id="quit", priority=True, tooltip="Leave partsel"),
+        Binding(
+            "ctrl+q", "quit", "Quit", id="quit", priority=True, show=False, tooltip="Leave partsel"
+        ),
+        Binding(
+            "ctrl+p",
+            "command_palette",
+            "Actions",
+            id="actions",
+            priority=True,
+            show=False,
+            tooltip="Every action of this screen by name, with its key",
+        ),
     ]
 
     def __init__(
@@ -158,24 +170,18 @@ class PartselApp(App[None]):
         self.theme = PARTSEL_THEME.name
 
     def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
-        """Every action with a key on the current screen, plus the app's own."""
-        seen: set[str] = set()
-        for _key, active in screen.active_bindings.items():
-            b = active.binding
-            if not b.description or b.action in seen:
-                continue
-            seen.add(b.action)
-            node = active.node
+        """The actions list: partsel's own actions with a key on the current screen, plus the
+        screen's extra commands (none of the framework's generic entries)."""
+        from partsel.tui.palette import actions
 
-            def run(node: Any = node, action: str = b.action) -> None:
-                self.call_later(node.run_action, action)
+        return actions(self, screen)
 
-            key = b.key_display or self.get_key_display(b)
-            yield SystemCommand(f"{b.description} ({key})", b.tooltip or b.description, run)
-        extra = getattr(screen, "palette_commands", None)
-        if extra is not None:
-            yield from extra()
-        yield from super().get_system_commands(screen)
+    def action_command_palette(self) -> None:
+        """Open the actions list (once: a second ctrl+p does not stack another)."""
+        from partsel.tui.palette import ActionPalette
+
+        if self.use_command_palette and not ActionPalette.is_open(self):
+            self.push_screen(ActionPalette())
 
     def action_help(self) -> None:
         from partsel.tui.screens.help import HelpScreen
@@ -184,23 +190,49 @@ class PartselApp(App[None]):
             self.push_screen(HelpScreen())
 
     def action_screenshot_svg(self) -> None:
+        """Take the screenshot now (so that the file dialog is not on it), then ask where to
+        write it; while that dialog is open, F8 does nothing more."""
         from partsel.tui.screens.dialogs import PathDialog
+        from partsel.tui.screenshot import screen_svg
+
+        if any(getattr(s, "purpose", None) == "screenshot" for s in self.screen_stack):
+            self.notify("the screenshot is waiting for a file name", timeout=2)
+            return
+        svg = screen_svg(self, self.screenshot_title())
 
         def done(path: str | None) -> None:
             if path:
-                self.call_after_refresh(self.save_svg, Path(path))
+                self.write_screenshot(Path(path), svg)
 
         self.push_screen(
-            PathDialog("Save a screenshot (SVG)", str(self.work_dir / "partsel-screen.svg")),
+            PathDialog(
+                "Save the screenshot (SVG)",
+                str(self.work_dir / "partsel-screen.svg"),
+                purpose="screenshot",
+                base=self.work_dir,
+            ),
             done,
         )
 
-    def save_svg(self, path: Path) -> Path:
-        """Write the current screen as SVG to ``path``."""
+    def screenshot_title(self) -> str:
+        """Title bar of a screenshot: partsel, the design's name and today's date."""
+        from partsel.tui.screenshot import screenshot_title
+
+        return screenshot_title(self.design.name if self.design is not None else None)
+
+    def write_screenshot(self, path: Path, svg: str) -> Path | None:
+        """Write a screenshot taken earlier (``svg``) to ``path`` (None and a message on
+        failure)."""
         path = self._resolve(path)
-        written = Path(self.save_screenshot(filename=path.name, path=str(path.parent)))
-        self.notify(f"screenshot written to {written}")
-        return written
+        try:
+            path.write_text(svg, encoding="utf-8")
+        except OSError as exc:
+            self.notify(
+                str(exc), title="screenshot not written", severity="error", timeout=10, markup=False
+            )
+            return None
+        self.notify(f"screenshot written to {path}", markup=False)
+        return path
 
     def _resolve(self, path: Path) -> Path:
         return path if path.is_absolute() else self.work_dir / path

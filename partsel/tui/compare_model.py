@@ -2,7 +2,8 @@
 the worse value of each row marked (no textual here).
 
 Directions: a check margin is better when larger; glitch, THD, supply current and price when
-smaller; the catalogue rows take their direction from
+smaller; a value that fails its check in the design is marked ``fail``, never ``better`` (not
+even when every compared part fails it); the catalogue rows take their direction from
 :func:`partsel.solver.substitute.compare_parts` (which follows :data:`partsel.params.PARAMS`).
 """
 
@@ -21,7 +22,7 @@ from partsel.solver.substitute import Comparison
 from partsel.tui import fmt
 
 Better = Literal["max", "min"] | None
-Mark = Literal["better", "worse", "same", ""]
+Mark = Literal["better", "worse", "same", "fail", ""]
 
 
 @dataclass(frozen=True)
@@ -59,11 +60,31 @@ def mark_values(values: tuple[float, ...], better: Better) -> tuple[Mark, ...]:
     return tuple(out)
 
 
+def fail_marks(marks: tuple[Mark, ...], fails: list[bool]) -> tuple[Mark, ...]:
+    """``marks`` with every value that fails its check marked ``fail`` instead: a failing
+    value is never the better one, even when every part fails."""
+    return tuple("fail" if f else m for m, f in zip(marks, fails, strict=True))
+
+
 def _row(
-    label: str, texts: list[str], values: list[float], better: Better, group: str
+    label: str,
+    texts: list[str],
+    values: list[float],
+    better: Better,
+    group: str,
+    fails: list[bool] | None = None,
 ) -> CompareRow:
     vals = tuple(float(x) for x in values)
-    return CompareRow(label, tuple(texts), vals, better, group, mark_values(vals, better))
+    marks = mark_values(vals, better)
+    if fails is not None:
+        marks = fail_marks(marks, fails)
+    return CompareRow(label, tuple(texts), vals, better, group, marks)
+
+
+def _fails(r: Ranking, parts: list[int], name: str) -> list[bool]:
+    """Whether each part fails check ``name`` in the ranking's design."""
+    j = C.IDX[name]
+    return [int(r.checks.status[i, j]) == C.FAIL for i in parts]
 
 
 def compare_rows(r: Ranking, parts: list[int]) -> list[CompareRow]:
@@ -118,7 +139,16 @@ def compare_rows(r: Ranking, parts: list[int]) -> list[CompareRow]:
     thd = [float(p.thd_estimate[i]) for i in parts]
     rows.append(_row("THD estimate, as designed", [fmt.thd(x) for x in thd], thd, "min", g))
     thd_v = [float(ch.value[i, C.IDX["thd"]]) for i in parts]
-    rows.append(_row("THD estimate, verdict", [fmt.thd(x) for x in thd_v], thd_v, "min", g))
+    rows.append(
+        _row(
+            "THD estimate, verdict",
+            [fmt.thd(x) for x in thd_v],
+            thd_v,
+            "min",
+            g,
+            _fails(r, parts, "thd"),
+        )
+    )
     src = [float(p.min_source_a[i]) for i in parts]
     rows.append(_row("least source current", [fmt.quantity(x, "A") for x in src], src, "max", g))
     fix_text, fix_val = [], []
@@ -138,9 +168,10 @@ def compare_rows(r: Ranking, parts: list[int]) -> list[CompareRow]:
     for name, label in (("supply_current", "supply current"), ("price", "price")):
         j = C.IDX[name]
         vals = [float(ch.value[i, j]) for i in parts]
-        rows.append(_row(label, [fmt.quantity(v, C.CHECKS[j].unit) for v in vals], vals, "min", g))
+        texts = [fmt.quantity(v, C.CHECKS[j].unit) for v in vals]
+        rows.append(_row(label, texts, vals, "min", g, _fails(r, parts, name)))
 
-    g = "Margins (ratio, ≥ 1 passes)"
+    g = "Margins (≥ ×1 passes)"
     for j, c in enumerate(C.CHECKS):
         if c.sense == "is":
             continue
@@ -152,7 +183,8 @@ def compare_rows(r: Ranking, parts: list[int]) -> list[CompareRow]:
             f"{fmt.ratio(ch.ratio[i, j])}".strip()
             for i in parts
         ]
-        rows.append(_row(fmt.check_label(c.name), texts, vals, "max", g))
+        fails = [int(ch.status[i, j]) == C.FAIL for i in parts]
+        rows.append(_row(fmt.check_label(c.name), texts, vals, "max", g, fails))
 
     return rows
 
@@ -195,3 +227,8 @@ def catalogue_rows(comparison: Comparison) -> list[CompareRow]:
                 )
             )
     return out
+
+
+def row_changes(row: CompareRow) -> bool:
+    """True when the row's values change from one compared part to another."""
+    return len(set(row.texts)) > 1

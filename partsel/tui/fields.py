@@ -62,7 +62,7 @@ _LABELS: dict[tuple[str, str], str] = {
     ("supply", "positive"): "V+ rail",
     ("supply", "negative"): "V− rail",
     ("signal", "bias"): "bias",
-    ("signal", "amplitude"): "amplitude (pk, in)",
+    ("signal", "amplitude"): "amplitude (peak)",
     ("signal", "frequency"): "frequency",
     ("amplifier", "gain"): "gain",
     ("amplifier", "reference"): "gain reference",
@@ -85,7 +85,48 @@ _GROUPS: dict[str, str] = {
     "environment": "Environment",
 }
 
-_UNIT_SHOWN: dict[str, str] = {"ohm": "Ω", "degC": "°C", "1": "", "currency unit": ""}
+_UNIT_SHOWN: dict[str, str] = {
+    "ohm": "Ω",
+    "degC": "°C",
+    "1": "",
+    "currency unit": "",
+    "V/rtHz": "V/√Hz",
+}
+
+#: Labels of the limits (the design file's key in the tooltip): what is held, and which way.
+_LIMIT_LABELS: dict[str, str] = {
+    "min_swing_margin": "swing margin ≥",
+    "min_cm_margin": "input-CM margin ≥",
+    "min_slew_ratio": "slew ratio ≥",
+    "min_bandwidth_ratio": "bandwidth ratio ≥",
+    "max_cap_load_ratio": "cap-load ratio ≤",
+    "max_gain_error": "gain error ≤",
+    "max_thd": "THD estimate ≤",
+    "max_glitch": "glitch ≤",
+    "min_source_fraction": "source fraction ≥",
+    "min_fix_resistance": "fix resistor ≥",
+    "max_supply_current": "supply current ≤",
+    "max_price": "price ≤",
+    "max_offset": "offset ≤",
+    "max_noise": "noise density ≤",
+    "max_bias_current": "bias current ≤",
+    "lifecycle": "lifecycle in",
+    "packages": "package in",
+    "channels": "channels in",
+}
+#: Placeholder of a limit that has no default (nothing is checked while it is empty).
+NO_LIMIT = "no limit"
+
+
+def limit_label(key: str) -> str:
+    """The form label of limit ``key`` (its key in words when not listed)."""
+    return _LIMIT_LABELS.get(key, key.replace("_", " "))
+
+
+def _shown_text(text: str) -> str:
+    """A quantity for the form's hints, with the screen's unit symbols ("25 degC" -> "25 °C")."""
+    return text.replace(" degC", " °C")
+
 
 #: Limits shown as percentages in the form (ratios that engineers state in %): the design
 #: file's own rule (partsel.design.PERCENT_LIMITS).
@@ -104,7 +145,11 @@ def _build_fields() -> tuple[FieldSpec, ...]:
 
     def quantity(section: str, key: str) -> FieldSpec:
         q = QUANTITY_FIELDS[(section, key)]
-        hint = f"default {q.default}" if q.default is not None else f"e.g. {q.example}"
+        hint = (
+            f"default {_shown_text(q.default)}"
+            if q.default is not None
+            else f"e.g. {_shown_text(q.example)}"
+        )
         return FieldSpec(
             (section, key),
             _LABELS[(section, key)],
@@ -201,16 +246,16 @@ def _build_fields() -> tuple[FieldSpec, ...]:
     for d in req_mod.LIMITS:
         unit = "%" if d.key in PERCENT_LIMITS else _UNIT_SHOWN.get(d.unit, d.unit)
         if d.default is not None:
-            hint = f"default {_limit_text(d.key, d.default)}"
+            hint = f"default {_shown_text(_limit_text(d.key, d.default))}"
         else:
-            hint = "not required"
+            hint = NO_LIMIT
         out.append(
             FieldSpec(
                 ("requirements", "limits", d.key),
-                d.key.replace("_", " "),
+                limit_label(d.key),
                 unit,
                 "quantity",
-                d.description,
+                f"{d.description} (design file: requirements.limits.{d.key})",
                 limits,
                 placeholder=hint,
             )
@@ -220,10 +265,11 @@ def _build_fields() -> tuple[FieldSpec, ...]:
         out.append(
             FieldSpec(
                 ("requirements", "limits", c.key),
-                c.key,
+                limit_label(c.key),
                 "",
                 "list",
-                f"{c.description}; comma-separated ({allowed})",
+                f"{c.description}; comma-separated ({allowed}; design file: "
+                f"requirements.limits.{c.key})",
                 limits,
                 placeholder="any",
             )

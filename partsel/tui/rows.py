@@ -18,6 +18,7 @@ from rich.text import Text
 from partsel import present as P
 from partsel.solver import PartTable, Ranking
 from partsel.solver import checks as C
+from partsel.solver.messages import check_message
 from partsel.tui import fmt
 
 #: Largest number of rows put into the table (the rest stay in the ranking; filter to narrow).
@@ -35,13 +36,17 @@ class Column:
 
 
 COLUMNS: tuple[Column, ...] = (
-    Column("mark", fmt.MARK, "Marked for the compare view", numeric=False),
-    Column("rank", "#", "Rank among the feasible parts (rejected parts: nearest misses first)"),
+    Column(
+        "rank",
+        "#",
+        f"Rank among the feasible parts (–: rejected, nearest misses first); {fmt.MARK}: marked "
+        "for the compare view",
+    ),
     Column("part", "Part", "Part number", numeric=False),
     Column(
         "verdict",
         "Verdict",
-        "Feasible (✓), with the fix fitted, or the binding constraint of a rejected part (✗)",
+        "✓ feasible, ✓ with fix (the fix resistor fitted), or ✗ fails N: rejected, N checks fail",
         numeric=False,
     ),
     Column("score", "Score", "Weighted score of the objectives, 0..100"),
@@ -55,13 +60,82 @@ COLUMNS: tuple[Column, ...] = (
     Column("fix", "Fix R", "Fix resistor that keeps the stage in one mode (✓: verdict with it)"),
     Column("supply", "Supply I", "Supply current for the design's channels"),
     Column("price", "Price", "Price for the design's channels"),
-    Column("margin", "Key margin", "Tightest passing check (feasible) or the binding miss"),
+    Column(
+        "margin",
+        "Key margin",
+        "The tightest check a feasible part passes, or the check a rejected part is furthest "
+        "from passing: its ratio (×1 or more passes) and signed margin (+ to spare, - short)",
+    ),
     Column("stage", "Stage", "Output-stage topology", numeric=False),
     Column("maker", "Maker", "Maker", numeric=False),
 )
 COLUMN_BY_KEY: dict[str, Column] = {c.key: c for c in COLUMNS}
 #: Columns the table can be sorted by.
-SORTABLE: tuple[str, ...] = tuple(c.key for c in COLUMNS if c.key != "mark")
+SORTABLE: tuple[str, ...] = tuple(c.key for c in COLUMNS)
+
+#: Display order of the columns: what a changed load changes comes first, then the key
+#: margin, the stage and the maker.
+ORDER: tuple[str, ...] = (
+    "rank",
+    "part",
+    "verdict",
+    "fix",
+    "glitch",
+    "thd",
+    "handover",
+    "supply",
+    "price",
+    "score",
+    "margin",
+    "stage",
+    "maker",
+)
+#: Columns shown at every width (the narrow ones cut with "…" when they must be).
+CORE: tuple[str, ...] = ("rank", "part", "verdict", "margin", "stage", "maker")
+#: The other columns, most wanted first: each is shown when the width allows.
+OPTIONAL: tuple[str, ...] = ("fix", "thd", "glitch", "handover", "supply", "price", "score")
+#: Widest a column is made (longer cells end in "…").
+WIDEST: dict[str, int] = {"part": 16, "margin": 34, "maker": 22}
+#: Width the cut-able columns keep while room is sought for the optional ones.
+COMFORTABLE: dict[str, int] = {"part": 12, "margin": 26, "maker": 14}
+#: Narrowest the cut-able columns are made.
+NARROWEST: dict[str, int] = {"part": 8, "margin": 16, "maker": 8}
+#: Order in which the cut-able columns are narrowed when the core does not fit.
+NARROWED_FIRST: tuple[str, ...] = ("maker", "margin", "part")
+#: Cells between two columns (the table's padding, one cell on each side).
+GAP = 2
+
+
+def fit_columns(natural: dict[str, int], available: int, gap: int = GAP) -> dict[str, int]:
+    """Columns to show and their widths, in :data:`ORDER`, for ``available`` cells.
+
+    ``natural``: the width each column needs for its header and cells. The :data:`CORE`
+    columns are always shown: first at most :data:`COMFORTABLE` wide (and, when even that does
+    not fit, narrowed in :data:`NARROWED_FIRST` order down to :data:`NARROWEST`); then each of
+    :data:`OPTIONAL` in turn is added at its natural width if it still fits; what is left over
+    widens the cut-able columns back towards their natural width (at most :data:`WIDEST`).
+    """
+    full = {k: min(natural[k], WIDEST.get(k, natural[k])) for k in CORE}
+    widths = {k: min(full[k], COMFORTABLE.get(k, full[k])) for k in CORE}
+    total = sum(w + gap for w in widths.values())
+    for k in NARROWED_FIRST:
+        over = total - available
+        if over <= 0:
+            break
+        cut = min(over, max(0, widths[k] - NARROWEST[k]))
+        widths[k] -= cut
+        total -= cut
+    for k in OPTIONAL:
+        cost = natural[k] + gap
+        if total + cost <= available:
+            widths[k] = natural[k]
+            total += cost
+    for k in reversed(NARROWED_FIRST):
+        grow = min(available - total, full[k] - widths[k])
+        if grow > 0:
+            widths[k] += grow
+            total += grow
+    return {k: widths[k] for k in ORDER if k in widths}
 
 
 _HAYSTACKS: weakref.WeakKeyDictionary[PartTable, np.ndarray] = weakref.WeakKeyDictionary()
@@ -199,16 +273,15 @@ class RankingView:
 
     # ---- cells ------------------------------------------------------------------------------
     def verdict_cell(self, i: int) -> Text:
-        """Feasible / with fix / binding constraint, with symbol and colour."""
+        """✓ feasible, ✓ with fix, or ✗ fails N (N checks fail; the key margin names the one
+        furthest from passing), with symbol and colour."""
         r = self.r
         if r.feasible[i]:
             if r.fix.applied[i]:
                 return Text(f"{fmt.OK} with fix", style="bold green")
             return Text(f"{fmt.OK} feasible", style="green")
-        j = int(r.binding[i])
-        name = fmt.check_label(C.CHECKS[j].name) if j >= 0 else "rejected"
-        more = int(r.n_failing[i]) - 1
-        return Text(f"{fmt.BAD} {name}" + (f" +{more}" if more > 0 else ""), style="red")
+        n = int(r.n_failing[i])
+        return Text(f"{fmt.BAD} fails {n}" if n > 0 else f"{fmt.BAD} rejected", style="red")
 
     def handover_cell(self, i: int) -> Text:
         """The output level of the handover, or the stage's state."""
@@ -231,11 +304,18 @@ class RankingView:
         mark = f" {fmt.OK}" if fx.applied[i] else ""
         return Text(f"{fmt.quantity(fx.r_ohm[i], 'ohm')}→{fmt.rail_label(str(fx.rail[i]))}{mark}")
 
+    def key_check(self, i: int) -> int:
+        """Index of the key-margin check of part ``i``: the tightest check a feasible part
+        passes, the check a rejected part is furthest from passing (-1: none)."""
+        r = self.r
+        return int(r.tightest[i] if r.feasible[i] else r.binding[i])
+
     def margin_cell(self, i: int) -> Text:
-        """Tightest passing check of a feasible part, or the binding miss of a rejected one."""
+        """The key-margin check, its ratio (×1 or more passes) and its signed margin (+ to
+        spare, - short): "swing to V+ ×0.982 -27.5 mV"."""
         r = self.r
         feasible = bool(r.feasible[i])
-        j = int(r.tightest[i] if feasible else r.binding[i])
+        j = self.key_check(i)
         if j < 0:
             return Text("—")
         c = C.CHECKS[j]
@@ -245,27 +325,73 @@ class RankingView:
         if c.sense == "is" or not math.isfinite(m):
             what = str(r.fix.reason[i]) if c.name == "fix_resistor" else "not accepted"
             return Text(f"{fmt.check_label(c.name)}: {what or 'fails'}", style="red")
-        du = P.difference_unit(c.display_unit)
-        text = f"{fmt.check_label(c.name)} {fmt.quantity(m, du)} {fmt.ratio(q)}".rstrip()
+        amount = fmt.quantity(m, P.difference_unit(c.display_unit))
+        sign = "+" if m > 0 else ""
+        text = " ".join(t for t in (fmt.check_label(c.name), fmt.ratio(q), sign + amount) if t)
         return Text(text, style="" if feasible else "red")
 
-    def cells(self, i: int, marked: bool = False) -> tuple[Text | str, ...]:
-        """The cells of part ``i``'s row, in :data:`COLUMNS` order."""
+    def margin_words(self, i: int) -> str:
+        """The key-margin cell of part ``i`` in words: which check, how much to spare or short,
+        and what its ratio means (the check itself worded by
+        :func:`partsel.solver.messages.check_message`); "" for a rejected part whose binding
+        check has no margin (a yes/no check, or no data), which its verdict line words."""
+        r = self.r
+        feasible = bool(r.feasible[i])
+        j = self.key_check(i)
+        which = "the tightest check it passes" if feasible else "the check furthest from passing"
+        if j < 0:
+            return "key margin: none (no check with a margin applies)"
+        c = C.CHECKS[j]
+        label = fmt.check_label(c.name)
+        m, q = float(r.checks.margin[i, j]), float(r.checks.ratio[i, j])
+        if int(r.checks.status[i, j]) == C.UNKNOWN or c.sense == "is" or not math.isfinite(m):
+            if not feasible:
+                return ""  # no margin: the verdict line has the check's words already
+            return f"key margin, {which}: {check_message(r, i, c.name)} (no margin to give)"
+        amount = fmt.quantity(abs(m), P.difference_unit(c.display_unit))
+        head = (
+            f"key margin, {which}: {check_message(r, i, c.name)}; {amount} to spare"
+            if feasible
+            else f"key margin, {which}: {label}, short by {amount}"
+        )
+        return f"{head}{ratio_words(q, c.sense)}"
+
+    def cells(self, i: int, marked: bool = False) -> dict[str, Text]:
+        """The cells of part ``i``'s row, by column key."""
         r, p, ch = self.r, self.r.prediction, self.r.checks
         handover = bool(p.handover[i])
-        return (
-            Text(fmt.MARK, style="bold magenta") if marked else "",
-            str(int(r.rank[i])) if r.rank[i] > 0 else "–",
-            str(r.table.part_number[i]),
-            self.verdict_cell(i),
-            f"{r.score[i]:.1f}" if fmt.finite(r.score[i]) else "—",
-            self.handover_cell(i),
-            fmt.quantity(p.glitch_v[i], "V") if handover else "—",
-            fmt.thd(ch.value[i, C.IDX["thd"]]) if ch.value[i, C.IDX["thd"]] > 0 else "—",
-            self.fix_cell(i),
-            fmt.quantity(ch.value[i, C.IDX["supply_current"]], "A"),
-            fmt.quantity(ch.value[i, C.IDX["price"]], "currency unit"),
-            self.margin_cell(i),
-            fmt.TOPOLOGY_SHORT.get(str(r.table.topology[i]), str(r.table.topology[i])),
-            str(self.maker[i]),
-        )
+        rank = str(int(r.rank[i])) if r.rank[i] > 0 else "–"
+        thd_v = ch.value[i, C.IDX["thd"]]
+        return {
+            "rank": Text.assemble((fmt.MARK, "bold magenta") if marked else " ", rank),
+            "part": Text(str(r.table.part_number[i])),
+            "verdict": self.verdict_cell(i),
+            "score": Text(f"{r.score[i]:.1f}" if fmt.finite(r.score[i]) else "—"),
+            "handover": self.handover_cell(i),
+            "glitch": Text(fmt.quantity(p.glitch_v[i], "V") if handover else "—"),
+            "thd": Text(fmt.thd(thd_v) if thd_v > 0 else "—"),
+            "fix": self.fix_cell(i),
+            "supply": Text(fmt.quantity(ch.value[i, C.IDX["supply_current"]], "A")),
+            "price": Text(fmt.quantity(ch.value[i, C.IDX["price"]], "currency unit")),
+            "margin": self.margin_cell(i),
+            "stage": Text(
+                fmt.TOPOLOGY_SHORT.get(str(r.table.topology[i]), str(r.table.topology[i]))
+            ),
+            "maker": Text(str(self.maker[i])),
+        }
+
+
+def ratio_words(ratio: float, sense: str) -> str:
+    """What a margin ratio of a check with ``sense`` ("min" / "max") says, for people ("" when
+    the check has none): the part's figure over the limit for a minimum, the limit over the
+    part's figure for a maximum; ×1 or more passes; ×0 when the figure that is divided is zero
+    or negative (:mod:`partsel.solver.checks`)."""
+    if math.isnan(ratio):
+        return ""
+    if ratio == 0:
+        why = "the part's figure is zero or negative" if sense == "min" else "the limit is zero"
+        return f"; {fmt.ratio(ratio)}: {why}"
+    what = (
+        "the part's figure over the limit" if sense == "min" else "the limit over the part's figure"
+    )
+    return f"; {fmt.ratio(ratio)}: {what} (×1 or more passes)"

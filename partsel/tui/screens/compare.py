@@ -1,6 +1,7 @@
 """The compare view: two to four parts side by side in the current design, the better value of
-each row marked ▲ (green), the worse ▼ (red), equal values =; their simulated waveforms
-overlaid."""
+each row marked ▲ (green), the worse ▼ (red), equal values =, a value that fails its check ✗
+(red); ``c`` shows only the changed rows (those whose values change from part to part); their
+simulated waveforms overlaid."""
 
 from __future__ import annotations
 
@@ -17,7 +18,7 @@ from textual.widgets import DataTable, Footer, Static
 from partsel.api import CAUTION, Prediction
 from partsel.errors import InputError
 from partsel.tui import fmt, theme
-from partsel.tui.compare_model import CompareRow, catalogue_rows, compare_rows
+from partsel.tui.compare_model import CompareRow, catalogue_rows, compare_rows, row_changes
 from partsel.tui.widgets.plots import WavePlot
 
 if TYPE_CHECKING:
@@ -27,6 +28,7 @@ _MARK_STYLE = {
     "better": (fmt.BETTER, "green"),
     "worse": (fmt.WORSE, "red"),
     "same": (fmt.SAME, "dim"),
+    "fail": (fmt.BAD, "red"),
     "": ("", ""),
 }
 
@@ -43,10 +45,10 @@ class CompareScreen(Screen[None]):
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("escape", "app.pop_screen", "Back", tooltip="Back to the ranking"),
         Binding(
-            "d",
-            "toggle_differences",
-            "Differences only",
-            tooltip="Show only the rows where the parts differ",
+            "c",
+            "toggle_changed",
+            "Changed rows",
+            tooltip="Show only the rows whose values change from part to part (again: every row)",
         ),
     ]
 
@@ -56,7 +58,7 @@ class CompareScreen(Screen[None]):
         super().__init__()
         self.part_numbers = part_numbers
         self.rows: list[CompareRow] = []
-        self.differences_only = False
+        self.changed_only = False
 
     def compose(self) -> ComposeResult:
         with Vertical(id="compare") as box:
@@ -80,16 +82,7 @@ class CompareScreen(Screen[None]):
             head.update(Text(f"cannot compare: {exc}", style="red"))
             return
         self.rows = compare_rows(r, idx) + catalogue_rows(cat)
-        head.update(
-            Text.assemble(
-                (f"{r.design.name}", "bold"),
-                f" · {r.requirements.basis} basis · ",
-                (f"{fmt.BETTER} better", "green"),
-                " ",
-                (f"{fmt.WORSE} worse", "red"),
-                f" {fmt.SAME} equal (per row, among these parts)",
-            )
-        )
+        head.update(self.head_text())
         self.fill()
         plot = self.query_one(WavePlot)
         key = app.prediction_key(self.part_numbers)
@@ -102,16 +95,40 @@ class CompareScreen(Screen[None]):
         else:
             plot.show_message("simulation off")
 
+    def head_text(self) -> Text:
+        """The design, the basis, what the marks mean and which rows are shown."""
+        r = self.app.ranking
+        name = r.design.name if r is not None else ""
+        basis = r.requirements.basis if r is not None else ""
+        shown = (
+            "changed rows only (c: every row)"
+            if self.changed_only
+            else "every row (c: changed rows)"
+        )
+        return Text.assemble(
+            (name, "bold"),
+            f" · {basis} basis · ",
+            (f"{fmt.BETTER} better", "green"),
+            " ",
+            (f"{fmt.WORSE} worse", "red"),
+            f" {fmt.SAME} equal ",
+            (f"{fmt.BAD} fails its check", "red"),
+            f" (per row, among these parts) · {shown}",
+        )
+
     def fill(self) -> None:
         table = self.query_one("#compare-table", DataTable)
         table.clear(columns=True)
-        table.add_column("", key="label", width=26)
-        width = {2: 40, 3: 29}.get(len(self.part_numbers), 22)
+        label_w = min(30, max([25, *(len(row.label) for row in self.rows)]) + 1)
+        table.add_column("", key="label", width=label_w)
+        n = len(self.part_numbers)
+        room = (table.size.width or self.app.size.width - 4) - label_w - 2 * (n + 1) - 2
+        width = max(16, min(40, room // n))
         for pn in self.part_numbers:
             table.add_column(pn, key=pn, width=width)
         group = None
         for k, row in enumerate(self.rows):
-            if self.differences_only and len(set(row.texts)) <= 1:
+            if self.changed_only and not row_changes(row):
                 continue
             if row.group != group:
                 group = row.group
@@ -127,9 +144,10 @@ class CompareScreen(Screen[None]):
                 key=f"row-{k}",
             )
 
-    def action_toggle_differences(self) -> None:
-        self.differences_only = not self.differences_only
+    def action_toggle_changed(self) -> None:
+        self.changed_only = not self.changed_only
         self.fill()
+        self.query_one("#compare-head", Static).update(self.head_text())
 
     def show_simulation(self, part_numbers: tuple[str, ...], pred: Prediction) -> None:
         if part_numbers != self.part_numbers or pred.sim is None:

@@ -18,12 +18,13 @@ from textual.screen import Screen
 from textual.widgets import Footer, Input, Static
 
 from partsel.api import Prediction
-from partsel.design import load_design, save_design
+from partsel.design import design_from_mapping, design_to_mapping, load_design, save_design
 from partsel.errors import InputError
+from partsel.physics.circuit import Design
 from partsel.tui import fmt
 from partsel.tui.fields import FIELD_BY_PATH
 from partsel.tui.rows import COLUMN_BY_KEY, SORTABLE, RankingView
-from partsel.tui.widgets.design_form import DesignForm
+from partsel.tui.widgets.design_form import LIMITS_GROUP, DesignForm
 from partsel.tui.widgets.part_view import PartView
 from partsel.tui.widgets.ranking_pane import RankingPane
 
@@ -39,14 +40,22 @@ def file_stem(name: str) -> str:
 
 
 BASIS_FIELD = FIELD_BY_PATH[("requirements", "basis")].id
+NAME_FIELD = FIELD_BY_PATH[("name",)].id
 #: Field focused by F2 when no field was focused before.
 FIRST_FIELD = FIELD_BY_PATH[("load", "resistance")].id
 
 
 #: Footer groups: related keys shown together under one label.
 NAV = Binding.Group("Design/Ranking")
-FILES = Binding.Group("Open/Save")
+FILES = Binding.Group("New/Open/Save")
 VIEW = Binding.Group("Basis/Rejected")
+
+#: Pane titles: each names the key that goes to it.
+DESIGN_TITLE = "Design · F2"
+RANKING_TITLE = "Ranked parts · F3"
+PART_TITLE = "Part · F4 full view"
+#: Name of a design started with "new design".
+NEW_DESIGN_NAME = "new design"
 
 
 class MainScreen(Screen[None]):
@@ -104,6 +113,16 @@ class MainScreen(Screen[None]):
             tooltip="Browse, search and edit the catalogue",
         ),
         Binding(
+            "ctrl+n",
+            "new_design",
+            "New",
+            id="new-design",
+            priority=True,
+            group=FILES,
+            tooltip="Start a new design: this circuit, blank requirements (every limit at its "
+            "default)",
+        ),
+        Binding(
             "ctrl+o",
             "open_design",
             "Open",
@@ -127,6 +146,7 @@ class MainScreen(Screen[None]):
             "Export",
             id="export",
             priority=True,
+            show=False,
             tooltip="Export the ranking to CSV or JSON",
         ),
         Binding(
@@ -135,6 +155,7 @@ class MainScreen(Screen[None]):
             "Basis",
             id="toggle-basis",
             priority=True,
+            show=False,
             group=VIEW,
             tooltip="Toggle worst-case / typical basis",
         ),
@@ -144,6 +165,7 @@ class MainScreen(Screen[None]):
             "Rejected",
             id="toggle-rejected",
             priority=True,
+            show=False,
             group=VIEW,
             tooltip="Show or hide the rejected parts (with their binding constraint)",
         ),
@@ -153,6 +175,7 @@ class MainScreen(Screen[None]):
             "Filter",
             id="filter",
             priority=True,
+            show=False,
             tooltip="Filter the ranking by text",
         ),
     ]
@@ -163,19 +186,20 @@ class MainScreen(Screen[None]):
         super().__init__()
         self.last_field = FIRST_FIELD
         self.form_ok = True
+        self._read: tuple[Path, Design] | None = None
 
     def compose(self) -> ComposeResult:
         yield Static("", id="topbar")
         with Horizontal(id="main"):
             with Vertical(id="design-pane") as pane:
-                pane.border_title = "1 · Design"
+                pane.border_title = DESIGN_TITLE
                 yield DesignForm(id="design-form")
             with Vertical(id="right"):
                 ranking = RankingPane(id="ranking-pane")
-                ranking.border_title = "2 · Ranked parts"
+                ranking.border_title = RANKING_TITLE
                 yield ranking
                 part = PartView(id="part-pane")
-                part.border_title = "3 · Part"
+                part.border_title = PART_TITLE
                 yield part
         yield Footer(compact=True)
 
@@ -206,12 +230,14 @@ class MainScreen(Screen[None]):
             text.append(f"  design: {d.name}")
             if d.source:
                 text.append(f" [{Path(d.source).name}]", style="dim")
-        text.append(f"  ·  catalogue: {app.table.n} parts")
+        if self.form.modified:
+            text.append("  ● unsaved changes", style="bold")
         if not self.form_ok:
             text.append(
                 f"  ·  {fmt.BAD} design has problems: ranking is for the last valid one",
                 style="bold red",
             )
+        text.append(f"  ·  catalogue: {app.table.n} parts")
         self.query_one("#topbar", Static).update(text)
 
     # ---- messages from the widgets -------------------------------------------------------------
@@ -341,22 +367,96 @@ class MainScreen(Screen[None]):
 
         samples = [(f"sample: {p.name}", str(p)) for p in self.app.samples]
         self.app.push_screen(
-            PathDialog("Open a design file", "", suggestions=samples, must_exist=True),
+            PathDialog(
+                "Open a design file",
+                "",
+                suggestions=samples,
+                must_exist=True,
+                base=self.app.work_dir,
+                check=self._readable_design,
+                purpose="open",
+            ),
             self.open_design,
         )
 
+    def _readable_design(self, path: Path) -> str | None:
+        """The design reader's message when ``path`` is not a good design file, else None
+        (the design read is kept for :meth:`open_design`)."""
+        try:
+            self._read = (path, load_design(path))
+        except InputError as exc:
+            return str(exc)
+        return None
+
     def open_design(self, path: str | None) -> bool:
-        """Load the design file at ``path`` into the form (False and a message if it is bad)."""
+        """Open the design file at ``path`` (asking first when the form has unsaved changes).
+        False and a message when the file is not a good design."""
         if not path:
             return False
+        target = self.app._resolve(Path(path))
+        read, self._read = self._read, None
         try:
-            design = load_design(self.app._resolve(Path(path)))
+            design = read[1] if read is not None and read[0] == target else load_design(target)
         except InputError as exc:
-            self.notify(str(exc), title="design not opened", severity="error", timeout=10)
+            self.notify(
+                str(exc), title="design not opened", severity="error", timeout=10, markup=False
+            )
             return False
-        self.form.load_design(design)
-        self.notify(f"opened {Path(path).name}", timeout=2)
+        self.replace_design(design, f"opened {target.name}")
         return True
+
+    def new_design(self) -> Design | None:
+        """A new design: the circuit of the last valid design, its own name, no file, and blank
+        requirements (the solver's defaults)."""
+        base = self.app.design
+        if base is None:
+            return None
+        data = design_to_mapping(base)
+        for key in ("requirements", "name", "description"):
+            data.pop(key, None)
+        data["name"] = NEW_DESIGN_NAME
+        return design_from_mapping(data)
+
+    def action_new_design(self) -> None:
+        design = self.new_design()
+        if design is None:
+            self.notify("no valid design yet to take the circuit from", severity="warning")
+            return
+        base = self.app.design.name if self.app.design is not None else ""
+        note = (
+            f"New design: the circuit of '{base}', blank requirements: every limit at its "
+            "default (see Limits)."
+        )
+        self.replace_design(design, "new design", note=note, open_limits=True)
+
+    def replace_design(
+        self, design: Design, done: str, *, note: str = "", open_limits: bool = False
+    ) -> None:
+        """Put ``design`` in the form; when the form has unsaved changes, ask first."""
+
+        def go(yes: bool | None) -> None:
+            if not yes:
+                return
+            self.form.load_design(design, note=note)
+            if open_limits:
+                self.call_later(self.form.open_group, LIMITS_GROUP)
+            self.update_topbar()
+            self.notify(done, timeout=2, markup=False)
+
+        if not self.form.modified:
+            go(True)
+            return
+        from partsel.tui.screens.dialogs import ConfirmDialog
+
+        current = self.form.values().get(NAME_FIELD, "").strip() or "this design"
+        self.app.push_screen(
+            ConfirmDialog(
+                f"'{current}' has unsaved changes. Replace it with '{design.name}'?",
+                "Replace",
+                "Keep editing",
+            ),
+            go,
+        )
 
     def action_save_design(self) -> None:
         from partsel.tui.screens.dialogs import PathDialog
@@ -382,11 +482,13 @@ class MainScreen(Screen[None]):
         try:
             save_design(design, target, base=base)
         except (InputError, OSError) as exc:
-            self.notify(str(exc), title="design not saved", severity="error", timeout=10)
+            self.notify(
+                str(exc), title="design not saved", severity="error", timeout=10, markup=False
+            )
             return False
-        self.form.source = str(target)
-        self.form.validate()
-        self.notify(f"saved {target.name}", timeout=2)
+        self.form.mark_saved(str(target))
+        self.update_topbar()
+        self.notify(f"saved {target.name}", timeout=2, markup=False)
         return True
 
     def action_export(self) -> None:
@@ -402,10 +504,10 @@ class MainScreen(Screen[None]):
         try:
             out = self.app.export_ranking(Path(path))
         except (InputError, OSError) as exc:
-            self.notify(str(exc), title="not exported", severity="error", timeout=10)
+            self.notify(str(exc), title="not exported", severity="error", timeout=10, markup=False)
             return None
         n = self.app.ranking.n if self.app.ranking is not None else 0
-        self.notify(f"exported {n} parts to {out.name}", timeout=3)
+        self.notify(f"exported {n} parts to {out.name}", timeout=3, markup=False)
         return out
 
     # ---- command palette ----------------------------------------------------------------------
@@ -422,11 +524,12 @@ class MainScreen(Screen[None]):
             "Reverse the sort order (S)",
             lambda: pane.set_sort(pane.sort, not pane.descending),
         )
-        yield SystemCommand(
-            "Mark highlighted part for compare (space)",
-            "Mark or unmark the highlighted part",
-            self.action_toggle_mark,
-        )
+        if self.focused is not pane.table:  # there, space is listed with the table's keys
+            yield SystemCommand(
+                "Mark highlighted part for compare (space in the ranking)",
+                "Mark or unmark the highlighted part",
+                self.action_toggle_mark,
+            )
         for p in self.app.samples:
             yield SystemCommand(
                 f"Open sample design {p.name}", str(p.name), partial(self.open_design, str(p))

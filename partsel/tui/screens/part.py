@@ -17,19 +17,34 @@ if TYPE_CHECKING:
     from partsel.tui.app import PartselApp
 
 
+#: Footer groups of the part view's keys.
+STEP = Binding.Group("Next/Previous")
+TABS = Binding.Group("Waveform/Fix/Spectrum/Margins/Stage", compact=True)
+
+
 class PartScreen(Screen[None]):
     """One part in the current design."""
 
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("escape", "app.pop_screen", "Back", tooltip="Back to the ranking"),
-        Binding("n", "step(1)", "Next part", tooltip="The next part of the ranking"),
-        Binding("p", "step(-1)", "Previous part", tooltip="The previous part of the ranking"),
+        Binding("n", "step(1)", "Next part", tooltip="The next part of the ranking", group=STEP),
+        Binding(
+            "p", "step(-1)", "Previous part", tooltip="The previous part of the ranking", group=STEP
+        ),
         Binding("space", "mark", "Mark", tooltip="Mark or unmark the part for the compare view"),
-        Binding("w", "tab('wave')", "Waveform", tooltip="Ideal and predicted output"),
-        Binding("x", "tab('fix')", "With fix", tooltip="The output with the fix resistor"),
-        Binding("h", "tab('spectrum')", "Spectrum", tooltip="Harmonic spectrum"),
-        Binding("g", "tab('margins')", "Margins", tooltip="Every check as a bar"),
-        Binding("o", "tab('stage')", "Stage data", tooltip="The catalogue's output-stage data"),
+        Binding("w", "tab('wave')", "Waveform", tooltip="Ideal and predicted output", group=TABS),
+        Binding(
+            "x", "tab('fix')", "With fix", tooltip="The output with the fix resistor", group=TABS
+        ),
+        Binding("h", "tab('spectrum')", "Spectrum", tooltip="Harmonic spectrum", group=TABS),
+        Binding("g", "tab('margins')", "Margins", tooltip="Every check as a bar", group=TABS),
+        Binding(
+            "o",
+            "tab('stage')",
+            "Stage data",
+            tooltip="The catalogue's output-stage data",
+            group=TABS,
+        ),
     ]
 
     app: PartselApp  # type: ignore[assignment]

@@ -53,6 +53,26 @@ def first_reason(c: Candidate) -> str:
     return "all parameters equal or better" if not c.reasons else c.reasons[0].message
 
 
+def candidate_text(c: Candidate) -> str:
+    """Lower-case words the candidate filter searches: part number, maker, verdict, reasons."""
+    p = c.part
+    words = [c.part_number, p.maker, p.topology, VERDICT_LOOK.get(c.verdict, ("", c.verdict))[1]]
+    words += [r.message for r in c.reasons]
+    return " ".join(str(w) for w in words).lower()
+
+
+#: Columns of the candidates table before the main reason: key, label, width.
+FIXED_COLUMNS: tuple[tuple[str, str, int], ...] = (
+    ("n", "#", 3),
+    ("part", "Candidate", 10),
+    ("verdict", "Verdict", 19),
+    ("counts", "▲ = ▼", 9),
+    ("price", "Price", 6),
+)
+#: Narrowest the main reason is made (the table scrolls sideways below that).
+MIN_REASON_WIDTH = 30
+
+
 def reasons_text(v: Vetting, c: Candidate) -> Text:
     """Every reason of candidate ``c``, most severe first."""
     out = Text()
@@ -97,6 +117,13 @@ class ReplacementScreen(Screen[None]):
             tooltip="Type another incumbent part number",
         ),
         Binding(
+            "ctrl+f",
+            "focus_filter",
+            "Filter",
+            priority=True,
+            tooltip="Filter the candidates by words (kept for another incumbent)",
+        ),
+        Binding(
             "f5",
             "compare",
             "Compare",
@@ -112,30 +139,27 @@ class ReplacementScreen(Screen[None]):
         self.incumbent = incumbent or ""
         self.include_unsuitable = False
         self.vetting: Vetting | None = None
+        self._filled_width = 0
 
     def compose(self) -> ComposeResult:
         with Vertical(id="replace") as box:
             box.border_title = "Replace a part"
             with Horizontal(classes="rank-bar"):
-                yield Label("incumbent ", classes="field-label")
+                yield Label("incumbent ", classes="bar-label")
                 yield Input(
                     value=self.incumbent,
                     placeholder="part number to replace",
                     id="incumbent",
                     compact=True,
                 )
+                yield Label("  filter ", classes="bar-label")
+                yield Input(
+                    placeholder="words in part, maker, verdict, reasons…",
+                    id="candidate-filter",
+                    compact=True,
+                )
             yield Static("", id="replace-status")
-            table = DataTable(id="candidates", cursor_type="row", zebra_stripes=True)
-            for key, label, width in (
-                ("n", "#", 3),
-                ("part", "Candidate", 10),
-                ("verdict", "Verdict", 19),
-                ("counts", "▲ = ▼", 9),
-                ("price", "Price", 6),
-                ("why", "Main reason", 70),
-            ):
-                table.add_column(label, key=key, width=width)
-            yield table
+            yield DataTable(id="candidates", cursor_type="row", zebra_stripes=True)
             with VerticalScroll(id="replace-detail"):
                 yield Static("", id="reasons")
             yield Static(Text(CAUTION, style="italic"), classes="caution")
@@ -181,6 +205,24 @@ class ReplacementScreen(Screen[None]):
 
     def _vetted(self, v: Vetting) -> None:
         self.vetting = v
+        self.fill()
+
+    @property
+    def filter_text(self) -> str:
+        return self.query_one("#candidate-filter", Input).value
+
+    def shown_candidates(self) -> list[tuple[int, Candidate]]:
+        """(rank in the vetting, candidate) of the candidates that match the filter words."""
+        if self.vetting is None:
+            return []
+        words = self.filter_text.lower().split()
+        out = []
+        for k, c in enumerate(self.vetting.candidates, 1):
+            if all(w in candidate_text(c) for w in words):
+                out.append((k, c))
+        return out
+
+    def _status(self, v: Vetting, shown: int) -> Text:
         inc = v.incumbent
         status = Text()
         status.append(f"{inc.part_number}", style="bold")
@@ -188,27 +230,76 @@ class ReplacementScreen(Screen[None]):
         status.append(f"{len(v.candidates)} candidates of {v.considered} considered · ")
         status.append(f"in {v.design_name} · " if v.design_name else "no design · ")
         status.append(f"{v.basis} basis")
+        if self.filter_text.strip():
+            status.append(f" · filter: {shown} match")
         if not self.include_unsuitable:
             status.append(" · unsuitable hidden (ctrl+u)", style="dim")
-        self.query_one("#replace-status", Static).update(status)
+        return status
+
+    def reason_width(self) -> int:
+        """Cells left for the main reason: the table's width less the other columns."""
         table = self.query_one("#candidates", DataTable)
-        table.clear()
-        for k, c in enumerate(v.candidates, 1):
+        width = table.size.width or self.app.size.width - 4
+        fixed = sum(w for _key, _label, w in FIXED_COLUMNS)
+        gaps = 2 * (len(FIXED_COLUMNS) + 1)
+        scrollbar = int(table.styles.scrollbar_size_vertical or 0)
+        return max(MIN_REASON_WIDTH, width - fixed - gaps - scrollbar)
+
+    def fill(self) -> None:
+        """The candidates that match the filter, the reason column as wide as the table allows."""
+        v = self.vetting
+        table = self.query_one("#candidates", DataTable)
+        self._filled_width = table.size.width
+        table.clear(columns=True)
+        why = self.reason_width()
+        for key, label, width in FIXED_COLUMNS:
+            table.add_column(label, key=key, width=width)
+        table.add_column("Main reason", key="why", width=why)
+        if v is None:
+            return
+        shown = self.shown_candidates()
+        self.query_one("#replace-status", Static).update(self._status(v, len(shown)))
+        for k, c in shown:
             n = c.counts()
             price = c.part.price
+            reason = Text(first_reason(c))
+            reason.truncate(why, overflow="ellipsis")
             table.add_row(
                 str(k),
                 c.part_number,
                 verdict_cell(c.verdict),
                 f"{n['better']} {n['equal']} {n['worse']}",
                 f"{price:.2f}" if fmt.finite(price) else "—",
-                first_reason(c),
+                reason,
                 key=c.part_number,
             )
-        if v.candidates:
-            self.show_reasons(v.candidates[0])
+        if shown:
+            self.show_reasons(shown[0][1])
+        elif v.candidates:
+            self.query_one("#reasons", Static).update("no candidate matches the filter")
         else:
             self.query_one("#reasons", Static).update("no candidate with this footprint")
+
+    def on_resize(self) -> None:
+        self.call_after_refresh(self._refit)
+
+    def _refit(self) -> None:
+        table = self.query_one("#candidates", DataTable)
+        if self.vetting is not None and table.size.width != self._filled_width:
+            self.fill()
+
+    @on(Input.Changed, "#candidate-filter")
+    def _filter_changed(self, event: Input.Changed) -> None:
+        event.stop()
+        self.fill()
+
+    @on(Input.Submitted, "#candidate-filter")
+    def _filter_done(self, event: Input.Submitted) -> None:
+        event.stop()
+        self.query_one("#candidates", DataTable).focus()
+
+    def action_focus_filter(self) -> None:
+        self.query_one("#candidate-filter", Input).focus()
 
     def show_reasons(self, c: Candidate) -> None:
         if self.vetting is not None:
@@ -240,6 +331,7 @@ class ReplacementScreen(Screen[None]):
         self.run_vetting()
 
     def action_focus_incumbent(self) -> None:
+        """Type another incumbent; the candidate filter and the unsuitable toggle stay."""
         self.query_one("#incumbent", Input).focus()
 
     def action_compare(self) -> None:

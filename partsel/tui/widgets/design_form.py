@@ -32,6 +32,34 @@ from partsel.tui.fields import (
 #: Form groups shown folded at first (opened when one of their fields has a problem); their
 #: fields are mounted when the group is first opened, which keeps the screen quick to start.
 FOLDED_GROUPS = ("Limits", "Objectives (weights)")
+LIMITS_GROUP = "Limits"
+#: Before a label: the problem mark of a bad field, or as many spaces.
+BAD_MARK = f"{fmt.BAD} "
+GOOD_MARK = " " * len(BAD_MARK)
+#: Width of the label column: the mark, the longest label and one cell of space after it (a
+#: label never runs into its field).
+LABEL_WIDTH = len(BAD_MARK) + max(len(f.label) for f in FIELDS) + 1
+#: Width of the unit column: the longest unit and one cell of space before it.
+UNIT_WIDTH = max(len(f.unit) for f in FIELDS) + 1
+#: What the Limits group says about empty limits.
+LIMITS_NOTE = (
+    "An empty limit uses the default written in it; 'no limit': not checked. "
+    "The tooltip names the design file's key."
+)
+
+
+def limits_title(values: Mapping[str, str]) -> str:
+    """The Limits group's title: how many limits are set and how many are at their default."""
+    set_n = default_n = 0
+    for spec in FIELDS:
+        if spec.group != LIMITS_GROUP:
+            continue
+        if (values.get(spec.id) or "").strip():
+            set_n += 1
+        elif spec.placeholder.startswith("default"):
+            default_n += 1
+    head = f"{set_n} set" if set_n else "none set"
+    return f"{LIMITS_GROUP} · {head} · {default_n} at their default"
 
 
 def _group_id(group: str) -> str:
@@ -62,6 +90,10 @@ class DesignForm(VerticalScroll):
         #: Text of the fields of folded groups not mounted yet (mounted on first opening).
         self._stash: dict[str, str] = {}
         self._mounted_groups: set[str] = set()
+        #: The text of every field as last loaded or saved (unsaved changes: any difference).
+        self.saved: dict[str, str] = {}
+        #: A note shown under the status line until another design is loaded.
+        self.note = ""
 
     # ---- layout -----------------------------------------------------------------------------
     @staticmethod
@@ -81,20 +113,25 @@ class DesignForm(VerticalScroll):
                 placeholder=spec.placeholder, id=spec.id, classes="field-input", compact=True
             )
         widget.tooltip = spec.help
-        row = Horizontal(
-            Label(spec.label, classes="field-label", id=f"{spec.id}-label"),
-            widget,
-            Label(spec.unit, classes="field-unit"),
-            classes="field-row",
-            id=f"{spec.id}-row",
-        )
+        label = Label(GOOD_MARK + spec.label, classes="field-label", id=f"{spec.id}-label")
+        label.styles.width = LABEL_WIDTH
+        unit = Label(spec.unit, classes="field-unit", id=f"{spec.id}-unit")
+        unit.styles.width = UNIT_WIDTH
+        row = Horizontal(label, widget, unit, classes="field-row", id=f"{spec.id}-row")
         return [row, Static("", classes="field-error", id=f"{spec.id}-error")]
 
     def compose(self) -> ComposeResult:
         yield Static("", id="form-status", classes="form-status")
         for group, specs in groupby(FIELDS, key=lambda f: f.group):
             items = list(specs)
-            if group in FOLDED_GROUPS:
+            if group == LIMITS_GROUP:
+                yield Collapsible(
+                    Static(LIMITS_NOTE, classes="group-note", id="limits-note"),
+                    title=group,
+                    collapsed=True,
+                    id=_group_id(group),
+                )
+            elif group in FOLDED_GROUPS:
                 yield Collapsible(title=group, collapsed=True, id=_group_id(group))
             else:
                 yield Static(group, classes="form-group")
@@ -157,9 +194,24 @@ class DesignForm(VerticalScroll):
                     self._stash[spec.id] = text
         self.validate()
 
-    def load_design(self, design: Design) -> None:
-        """Fill the form from ``design``."""
-        self.set_values(values_from_design(design), design.source)
+    def load_design(self, design: Design, note: str = "") -> None:
+        """Fill the form from ``design`` (``note``: shown under the status line)."""
+        self.note = note
+        values = values_from_design(design)
+        self.saved = dict(values)
+        self.set_values(values, design.source)
+
+    @property
+    def modified(self) -> bool:
+        """True when a field differs from the design as last loaded or saved."""
+        return self.values() != self.saved
+
+    def mark_saved(self, source: str) -> None:
+        """The form's design was written to ``source``: no unsaved changes from here."""
+        self.source = source
+        self.saved = self.values()
+        self.note = ""
+        self.validate()
 
     def set_field(self, field_id: str, text: str) -> None:
         """Set one field as if typed (validated at once)."""
@@ -196,7 +248,7 @@ class DesignForm(VerticalScroll):
                 continue
             self.query_one(f"#{spec.id}-row").set_class(bool(msgs), "bad")
             label = self.query_one(f"#{spec.id}-label", Label)
-            label.update(f"{fmt.BAD} {spec.label}" if msgs else spec.label)
+            label.update((BAD_MARK if msgs else GOOD_MARK) + spec.label)
             err = self.query_one(f"#{spec.id}-error", Static)
             err.update("\n".join(msgs))
             err.set_class(bool(msgs), "shown")
@@ -205,12 +257,17 @@ class DesignForm(VerticalScroll):
 
     def validate(self) -> Design | None:
         """Read the form, mark bad fields, post Valid or Invalid; return the design or None."""
-        result = validate_values(self.values(), self.source)
+        values = self.values()
+        result = validate_values(values, self.source)
         before, self.problems = self.problems, result.problems
         self._mark(before, result.problems)
+        self.query_one(f"#{_group_id(LIMITS_GROUP)}", Collapsible).title = limits_title(values)
         status = self.query_one("#form-status", Static)
         if result.design is not None:
-            status.update(Text(f"{fmt.OK} design valid", style="green"))
+            text = Text(f"{fmt.OK} design valid", style="green")
+            if self.note:
+                text.append(f"\n{self.note}", style="")
+            status.update(text)
             status.remove_class("bad")
             self.post_message(self.Valid(result.design))
         else:
@@ -223,6 +280,8 @@ class DesignForm(VerticalScroll):
             )
             for msg in general:
                 text.append(f"\n{msg}", style="red")
+            if self.note:
+                text.append(f"\n{self.note}", style="")
             status.update(text)
             status.add_class("bad")
             self.post_message(self.Invalid(result.problems))

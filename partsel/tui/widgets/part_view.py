@@ -24,6 +24,7 @@ from partsel.solver import checks as C
 from partsel.solver.export import part_checks
 from partsel.solver.messages import check_message, failing_messages
 from partsel.tui import fmt, theme
+from partsel.tui.rows import RankingView
 from partsel.tui.widgets.margins import MarginBars
 from partsel.tui.widgets.plots import SpectrumPlot, WavePlot
 
@@ -37,7 +38,7 @@ RECORD_SECTIONS = ("output", "dynamics", "supply", "input", "packages", "tempera
 
 
 def summary_text(r: Ranking, i: int) -> Text:
-    """Verdict, crossover, fix and cost of part ``i`` in four lines."""
+    """Verdict, crossover, fix and cost of part ``i``, and its key margin in words."""
     t, p, fx, ch = r.table, r.prediction, r.fix, r.checks
     out = Text()
     out.append(str(t.part_number[i]), style="bold")
@@ -51,14 +52,19 @@ def summary_text(r: Ranking, i: int) -> Text:
             out.append(" (with the fix fitted)")
     else:
         j = int(r.binding[i])
+        n = int(r.n_failing[i])
         out.append(f"{fmt.BAD} rejected", style="bold red")
-        name = C.CHECKS[j].name
-        out.append(f": {fmt.check_label(name)}: {check_message(r, i, name)}")
-        more = int(r.n_failing[i]) - 1
-        if more > 0:
+        out.append(f", fails {n} check{'s' if n != 1 else ''}")
+        if j >= 0:
+            name = C.CHECKS[j].name
+            out.append(f": {fmt.check_label(name)}: {check_message(r, i, name)}")
+        if n > 1:
             others = [fmt.check_label(n) for n, _ in failing_messages(r, i)[1:]]
             out.append(f"; also fails {', '.join(others)}")
     out.append("\n")
+    words = RankingView(r).margin_words(i)
+    if words:
+        out.append(words + "\n", style="dim")
     v = str(p.conduction[i])
     if v == "changes-mode":
         out.append(f"{fmt.WARN} hands over", style="yellow")

@@ -4,6 +4,10 @@ The app sets the ranking (:meth:`RankingPane.show`); the pane sorts, filters and
 table from the ranking's arrays (at most :data:`partsel.tui.rows.MAX_ROWS` rows), keeping the
 highlighted part highlighted. It posts :class:`RankingPane.PartHighlighted` when the highlight
 moves to another part.
+
+The columns fit the pane's width (:func:`partsel.tui.rows.fit_columns`): the rank, part,
+verdict, key margin, stage and maker always, the others as the width allows; the status line
+names the columns left out (every figure is also in the part pane).
 """
 
 from __future__ import annotations
@@ -18,44 +22,7 @@ from textual.containers import Horizontal, Vertical
 from textual.message import Message
 from textual.widgets import DataTable, Input, Static
 
-from partsel.tui.rows import COLUMN_BY_KEY, COLUMNS, MAX_ROWS, SORTABLE, RankingView
-
-#: Column widths (cells), by column key.
-WIDTHS: dict[str, int] = {
-    "mark": 1,
-    "rank": 3,
-    "part": 9,
-    "verdict": 16,
-    "fix": 12,
-    "glitch": 8,
-    "thd": 7,
-    "handover": 11,
-    "supply": 8,
-    "price": 6,
-    "score": 5,
-    "margin": 28,
-    "stage": 4,
-    "maker": 22,
-}
-#: Display order of the columns: what a changed load changes comes first.
-ORDER: tuple[str, ...] = (
-    "mark",
-    "rank",
-    "part",
-    "verdict",
-    "fix",
-    "glitch",
-    "thd",
-    "handover",
-    "supply",
-    "price",
-    "score",
-    "margin",
-    "stage",
-    "maker",
-)
-_POS = {c.key: k for k, c in enumerate(COLUMNS)}
-
+from partsel.tui.rows import COLUMN_BY_KEY, MAX_ROWS, ORDER, SORTABLE, RankingView, fit_columns
 
 SORT = Binding.Group("Sort/Reverse", compact=True)
 
@@ -65,9 +32,15 @@ class RankingTable(DataTable):
 
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("space", "mark", "Mark", tooltip="Mark or unmark the part for the compare view"),
-        Binding("s", "sort_next", "Sort", tooltip="Sort by the next column", group=SORT),
-        Binding("S", "sort_reverse", "Reverse", tooltip="Reverse the sort order", group=SORT),
-        Binding("slash", "filter", "Filter", show=False),
+        Binding(
+            "s", "sort_next", "Sort", tooltip="Sort by the next column", group=SORT, show=False
+        ),
+        Binding(
+            "S", "sort_reverse", "Reverse", tooltip="Reverse the sort order", group=SORT, show=False
+        ),
+        Binding(
+            "slash", "filter", "Filter", show=False, tooltip="Filter the ranking by text (ctrl+f)"
+        ),
     ]
 
     async def action_mark(self) -> None:
@@ -105,6 +78,9 @@ class RankingPane(Vertical):
         self.shown: list[int] = []
         self.n_matching = 0
         self._current: str | None = None
+        #: Columns shown and their widths (see fit_columns).
+        self.widths: dict[str, int] = {}
+        self._fitted_for = 0
 
     def compose(self) -> ComposeResult:
         with Horizontal(classes="rank-bar"):
@@ -114,11 +90,7 @@ class RankingPane(Vertical):
                 compact=True,
             )
         yield Static("", id="rank-status", classes="rank-status")
-        table = RankingTable(id="ranking", cursor_type="row", zebra_stripes=True)
-        for key in ORDER:
-            c = COLUMN_BY_KEY[key]
-            table.add_column(c.label, key=key, width=WIDTHS[key])
-        yield table
+        yield RankingTable(id="ranking", cursor_type="row", zebra_stripes=True)
 
     @property
     def table(self) -> RankingTable:
@@ -167,7 +139,8 @@ class RankingPane(Vertical):
         r = view.r
         text = Text()
         text.append(f"{r.n_feasible} of {r.n} feasible", style="bold")
-        text.append(f" · {r.requirements.basis} · conduction {r.requirements.conduction}")
+        text.append(f" · {r.requirements.basis} (ctrl+b)")
+        text.append(f" · conduction {r.requirements.conduction}")
         shown = len(self.shown)
         what = "parts" if self.show_rejected else "feasible parts"
         if self.filter_text.strip():
@@ -180,38 +153,74 @@ class RankingPane(Vertical):
         if not self.show_rejected:
             n_rej = r.n - r.n_feasible
             text.append(f" · {n_rej} rejected hidden (ctrl+r)", style="dim")
+        hidden = self.hidden_columns
+        if len(hidden) > 3:
+            text.append(f" · {len(hidden)} columns left out at this width", style="dim")
+        elif hidden:
+            names = ", ".join(COLUMN_BY_KEY[k].label for k in hidden)
+            text.append(f" · left out at this width: {names}", style="dim")
         return text
 
-    def refill(self) -> None:
-        """Rebuild the rows from the ranking (at most MAX_ROWS)."""
+    @property
+    def hidden_columns(self) -> list[str]:
+        """Keys of the columns left out at the pane's width."""
+        return [k for k in ORDER if self.widths and k not in self.widths]
+
+    def available_width(self) -> int:
+        """Cells the table's columns may take (the vertical scrollbar kept free)."""
+        table = self.table
+        width = table.size.width
+        if width <= 0:  # not laid out yet: the screen less the design pane
+            width = max(40, self.app.size.width - 50)
+        return width - int(table.styles.scrollbar_size_vertical or 0)
+
+    def refill(self, announce: bool = True) -> None:
+        """Rebuild the rows from the ranking (at most MAX_ROWS), with the columns that fit;
+        ``announce``: post :class:`PartHighlighted` (also when the part did not change)."""
         table = self.table
         view = self.view
         keep = self._current
+        rows: list[tuple[str, dict[str, Text]]] = []
+        if view is None:
+            self.shown = []
+            self.n_matching = 0
+        else:
+            found = view.rows(
+                sort=self.sort,
+                descending=self.descending,
+                text=self.filter_text,
+                show_rejected=self.show_rejected,
+            )
+            self.n_matching = int(found.size)
+            self.shown = [int(i) for i in found[:MAX_ROWS]]
+            marked = set(self.marked)
+            pn = view.r.table.part_number
+            rows = [(str(pn[i]), view.cells(i, marked=str(pn[i]) in marked)) for i in self.shown]
+        labels = {}
+        for key in ORDER:
+            label = COLUMN_BY_KEY[key].label
+            if key == self.sort:
+                label += " ↓" if self.descending else " ↑"
+            labels[key] = label
+        natural = {k: len(labels[k]) for k in ORDER}
+        for _, cells in rows:
+            for k in ORDER:
+                natural[k] = max(natural[k], cells[k].cell_len)
+        self._fitted_for = self.available_width()
+        self.widths = fit_columns(natural, self._fitted_for)
         with self.prevent(DataTable.RowHighlighted):
-            table.clear()
-            if view is None:
-                self.shown = []
-                self.n_matching = 0
-            else:
-                rows = view.rows(
-                    sort=self.sort,
-                    descending=self.descending,
-                    text=self.filter_text,
-                    show_rejected=self.show_rejected,
-                )
-                self.n_matching = int(rows.size)
-                self.shown = [int(i) for i in rows[:MAX_ROWS]]
-                marked = set(self.marked)
-                pn = view.r.table.part_number
-                order = [_POS[k] for k in ORDER]
-                for i in self.shown:
-                    cells = view.cells(i, marked=str(pn[i]) in marked)
-                    table.add_row(*(cells[k] for k in order), key=str(pn[i]))
-            for key in ORDER:
-                label = COLUMN_BY_KEY[key].label
-                if key == self.sort:
-                    label += " ↓" if self.descending else " ↑"
-                table.columns[key].label = Text(label)  # type: ignore[index]
+            table.clear(columns=True)
+            for key, width in self.widths.items():
+                table.add_column(Text(labels[key]), key=key, width=width)
+            for part_number, cells in rows:
+                out = []
+                for key, width in self.widths.items():
+                    cell = cells[key]
+                    if cell.cell_len > width:
+                        cell = cell.copy()
+                        cell.truncate(width, overflow="ellipsis")
+                    out.append(cell)
+                table.add_row(*out, key=part_number)
         self.query_one("#rank-status", Static).update(self._status())
         row = 0
         if keep is not None and view is not None and keep in table.rows:
@@ -220,8 +229,18 @@ class RankingPane(Vertical):
             with self.prevent(DataTable.RowHighlighted):
                 table.move_cursor(row=row, animate=False)
         new = str(view.r.table.part_number[self.shown[row]]) if view and self.shown else None
+        changed = new != self._current
         self._current = new
-        self.post_message(self.PartHighlighted(new))
+        if announce or changed:
+            self.post_message(self.PartHighlighted(new))
+
+    def on_resize(self) -> None:
+        """A new width: fit the columns again once the table has its new size."""
+        self.call_after_refresh(self._refit)
+
+    def _refit(self) -> None:
+        if self.view is not None and self.available_width() != self._fitted_for:
+            self.refill(announce=False)
 
     @on(Input.Changed, "#rank-filter")
     def _filter_changed(self, event: Input.Changed) -> None:
