@@ -384,7 +384,9 @@ class PartselApp(App[None]):
         path = self._resolve(path)
         suffix = path.suffix.lower()
         if suffix == ".csv":
-            ranking_frame(self.ranking).to_csv(path, index=False)
+            from partsel.io.csvout import write_frame  # the one CSV writer (inert cells)
+
+            write_frame(ranking_frame(self.ranking), path)
         elif suffix == ".json":
             text = json.dumps(
                 ranking_dict(self.ranking), indent=2, ensure_ascii=False, allow_nan=False
