@@ -25,7 +25,9 @@ safety is involved.
 
 from __future__ import annotations
 
+import dataclasses
 import json
+import threading
 from collections import OrderedDict
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -281,6 +283,7 @@ class Session:
         else:
             self._url = catalogue
         self._cache: OrderedDict[tuple[Any, ...], tuple[Design, Ranking]] = OrderedDict()
+        self._lock = threading.RLock()
 
     # ---- catalogue ---------------------------------------------------------------------------
     @property
@@ -303,9 +306,10 @@ class Session:
     @property
     def table(self) -> PartTable:
         """The part table every evaluation uses (built once per catalogue read)."""
-        if self._table is None:
-            self._table = PartTable(self.frame)
-        return self._table
+        with self._lock:
+            if self._table is None:
+                self._table = PartTable(self.frame)
+            return self._table
 
     def reload(self) -> None:
         """Read the catalogue again (after a change) and forget cached evaluations."""
@@ -479,7 +483,21 @@ class Session:
     # ---- internals ---------------------------------------------------------------------------
     @staticmethod
     def _key(design: Design, req: Requirements, rows: tuple[int, ...] | None) -> tuple[Any, ...]:
-        return (id(design), json.dumps(req.to_mapping(), sort_keys=True, default=str), rows)
+        """The cache key: what the evaluation depends on (the design's content, not the object:
+        the UI's form rebuilds an equal design), the requirements and the parts."""
+        content = repr(
+            (
+                design.name,
+                design.supply,
+                design.signal,
+                design.closed_loop,
+                design.load,
+                design.t_ambient_min_c,
+                design.t_ambient_max_c,
+                design.channels_used,
+            )
+        )
+        return (content, json.dumps(req.to_mapping(), sort_keys=True, default=str), rows)
 
     def _evaluated(
         self,
@@ -489,15 +507,17 @@ class Session:
         table: PartTable,
         hints: bool,
     ) -> Ranking:
-        hit = self._cache.get(key)
-        if hit is not None and hit[0] is design:
-            self._cache.move_to_end(key)
-            return hit[1]
-        r = solver_rank(table, design, req, hints=hints)
-        self._cache[key] = (design, r)  # the design is kept, so its id is not reused
-        while len(self._cache) > EVALUATION_CACHE:
-            self._cache.popitem(last=False)
-        return r
+        with self._lock:  # one evaluation at a time: a second caller takes the first's result
+            hit = self._cache.get(key)
+            if hit is not None and hit[1].table is table:
+                self._cache.move_to_end(key)
+                r = hit[1]
+                return r if r.design is design else dataclasses.replace(r, design=design)
+            r = solver_rank(table, design, req, hints=hints)
+            self._cache[key] = (design, r)
+            while len(self._cache) > EVALUATION_CACHE:
+                self._cache.popitem(last=False)
+            return r
 
 
 # ---- one-call helpers for scripts (each opens a session) -----------------------------------------

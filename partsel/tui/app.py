@@ -13,6 +13,7 @@ per design and part.
 from __future__ import annotations
 
 import json
+import threading
 import time
 from collections import OrderedDict
 from collections.abc import Iterable
@@ -128,6 +129,7 @@ class PartselApp(App[None]):
         self.work_dir = work_dir or Path.cwd()
         self.user = user
         self.initial_design = self._first_design(design)
+        threading.Thread(target=self._prefetch, name="partsel-prefetch", daemon=True).start()
         self.design: Design | None = None
         self.design_gen = 0
         self.ranking: Ranking | None = None
@@ -247,10 +249,18 @@ class PartselApp(App[None]):
     def request_rank(self) -> None:
         """Rank the current design on the current catalogue in a worker."""
         if self.design is not None:
-            self._rank(self.design, self.table, self.design_gen, time.perf_counter())
+            self._rank(self.design, self.design_gen, time.perf_counter())
+
+    def _prefetch(self) -> None:
+        """Read the catalogue and rank the first design while the screens are being built (the
+        session keeps the result; the first ranking request then finds it ready)."""
+        try:
+            self.session.rank(self.initial_design)
+        except Exception:  # the request made from the screen reports any failure itself
+            return
 
     @work(thread=True, exclusive=True, group="rank", exit_on_error=False)
-    def _rank(self, design: Design, table: PartTable, gen: int, t0: float) -> None:
+    def _rank(self, design: Design, gen: int, t0: float) -> None:
         worker = get_current_worker()
         try:
             r = self.session.rank(design)

@@ -32,6 +32,11 @@ if TYPE_CHECKING:
     from partsel.tui.app import PartselApp
 
 
+#: Seconds after the screen's mount at which the design form is mounted even when no ranking
+#: has arrived (it is mounted as soon as the first ranking is drawn).
+FORM_AFTER_S = 1.0
+
+
 def file_stem(name: str) -> str:
     """A file name proposed for a design called ``name``: its words in lower case joined by
     dashes ("5 V line driver, AC-coupled" -> "5-v-line-driver-ac-coupled")."""
@@ -186,6 +191,8 @@ class MainScreen(Screen[None]):
         super().__init__()
         self.last_field = FIRST_FIELD
         self.form_ok = True
+        self.form_started = False
+        self.form_mounted = False
         self._read: tuple[Path, Design] | None = None
 
     def compose(self) -> ComposeResult:
@@ -193,7 +200,7 @@ class MainScreen(Screen[None]):
         with Horizontal(id="main"):
             with Vertical(id="design-pane") as pane:
                 pane.border_title = DESIGN_TITLE
-                yield DesignForm(id="design-form")
+                yield Static("reading the design…", id="form-wait", classes="form-status")
             with Vertical(id="right"):
                 ranking = RankingPane(id="ranking-pane")
                 ranking.border_title = RANKING_TITLE
@@ -205,8 +212,24 @@ class MainScreen(Screen[None]):
 
     def on_mount(self) -> None:
         self.query_one(PartView).show_empty("ranking…")
-        self.form.load_design(self.app.initial_design)
+        # The ranking first (prefetched by the app), the form's many fields right after the
+        # first table is drawn: the user sees the ranked parts sooner.
+        self.app.set_design(self.app.initial_design)
         self.query_one(RankingPane).table.focus()
+        self.set_timer(FORM_AFTER_S, self._mount_form)
+
+    async def _mount_form(self) -> None:
+        """Mount the design form (once) and fill it from the first design."""
+        if self.form_started:
+            return
+        self.form_started = True
+        wait = self.query_one("#form-wait", Static)
+        form = DesignForm(id="design-form")
+        await self.query_one("#design-pane").mount(form, before=wait)
+        await wait.remove()
+        form.load_design(self.app.initial_design)
+        self.form_mounted = True
+        self.update_topbar()
 
     @property
     def form(self) -> DesignForm:
@@ -230,7 +253,7 @@ class MainScreen(Screen[None]):
             text.append(f"  design: {d.name}")
             if d.source:
                 text.append(f" [{Path(d.source).name}]", style="dim")
-        if self.form.modified:
+        if self.form_mounted and self.form.modified:
             text.append("  ● unsaved changes", style="bold")
         if not self.form_ok:
             text.append(
@@ -265,6 +288,8 @@ class MainScreen(Screen[None]):
         """A new ranking from the app."""
         self.ranking_pane.show(view)
         self.update_topbar()
+        if not self.form_mounted:
+            self.call_after_refresh(self._mount_form)
 
     def show_part(self, part_number: str | None) -> None:
         """Show ``part_number`` of the current ranking in the part pane."""
