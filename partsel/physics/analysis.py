@@ -43,6 +43,7 @@ from partsel.physics.spectrum import DEFAULT_HARMONICS
 from partsel.physics.stage import (
     CLASS_A,
     CLASS_B,
+    GAMMA_CM_SHARE,
     Basis,
     StageParams,
     input_law,
@@ -59,10 +60,10 @@ MARGIN = 0.5
 VERDICTS = ("one-mode", "marginal", "changes-mode", "biased")
 #: Factor of the distortion bound of biased and one-mode stages over the sum of the modelled
 #: mechanisms (every harmonic taken at the sum of the magnitudes of its contributions, then
-#: doubled): room for mechanisms of the same order the macro-model leaves out (unequal device
-#: betas, Early effect and the gain stage's own nonlinearity). partsel's choice; the tests hold
-#: the bound against transistor-level circuits and keep it within 20 dB of them.
-BOUND_FACTOR = 2.0
+#: tripled): room for mechanisms up to twice the modelled ones that the macro-model leaves out
+#: (unequal device betas, Early effect, the gain stage's own nonlinearity). partsel's choice;
+#: the tests hold the bound against transistor-level circuits and keep it within 20 dB.
+BOUND_FACTOR = 3.0
 #: Steps per period of the device-law simulation that gives a marginal stage its THD.
 MARGINAL_STEPS = 512
 
@@ -449,8 +450,13 @@ def one_mode_thd(
     r_to_neg_ohm: np.ndarray | None = None,
     r_to_pos_ohm: np.ndarray | None = None,
     n_harmonics: int = DEFAULT_HARMONICS,
+    input_stage: bool = True,
 ) -> np.ndarray:
     """THD_F estimate (harmonics 2..H, ratio) of a class-A / class-B stage kept in one mode.
+
+    The output stage's drop (below) and, with ``input_stage``, the input stage's slew-induced
+    distortion (:func:`partsel.physics.distortion.input_stage_harmonics`), added in power (the
+    phase between the two is not modelled).
 
     The conducting device follows its DC law (see :mod:`partsel.physics.stage`): the source
     device ``x = V_S ln(d / I)`` for the demand ``d = D0 + B sin(theta)`` of
@@ -493,7 +499,37 @@ def one_mode_thd(
             rn2 = rn2 * r2
         thd_sel = 2.0 * scale * w * np.sqrt(acc) / amp
     out[sel] = np.where(np.isfinite(m), thd_sel, np.nan)
+    if input_stage:
+        out = np.sqrt(out**2 + _input_stage_thd(stage, design, n_harmonics) ** 2)
     return out
+
+
+def _input_stage_series(stage: StageParams, design: Design, n_harmonics: int) -> np.ndarray:
+    """Harmonics (V) of the input stage's slew-induced distortion at the output, (P, H - 1):
+    the drive follows the output's slope; the common mode moves at the input's (a
+    non-inverting stage's input is the output over the gain; an inverting stage's is still),
+    so the tail sees ``gamma_d + gamma_cm / G`` or ``gamma_d`` of the output's slope."""
+    sr0, gamma, a_in, _b0 = input_law(
+        stage.gbw_hz, stage.slew_rise_v_per_s, stage.slew_fall_v_per_s
+    )
+    cm = (
+        1.0 / design.closed_loop.gain
+        if design.closed_loop.configuration == "non-inverting"
+        else 0.0
+    )
+    g_eff = gamma * ((1.0 - GAMMA_CM_SHARE) + GAMMA_CM_SHARE * cm)
+    rate = design.out_amplitude_v * design.omega
+    return input_stage_harmonics(a_in, g_eff, sr0, rate, design.noise_gain, n_harmonics)
+
+
+def _input_stage_thd(stage: StageParams, design: Design, n_harmonics: int) -> np.ndarray:
+    """THD_F (ratio) of the input stage's slew-induced distortion alone (inf: slew-limited)."""
+    amp = design.out_amplitude_v
+    if amp <= 0 or stage.n == 0:
+        return np.zeros(stage.n)
+    es = _input_stage_series(stage, design, n_harmonics)
+    with np.errstate(invalid="ignore"):
+        return np.where(np.isfinite(es).all(axis=1), np.sqrt(np.sum(es * es, axis=1)) / amp, np.inf)
 
 
 def thd_bound(
@@ -555,9 +591,7 @@ def thd_bound(
         scale = np.where(src_mode, st.device_scale_v[fol], st.sink_scale_v[fol])
         xs[fol] = device_law_harmonics(scale, mean, b[keep][fol], n_harmonics)
     xs = np.nan_to_num(xs) * loop_residue(w, k[keep], n_harmonics)
-    sr0, gamma, a_in, _b0 = input_law(st.gbw_hz, st.slew_rise_v_per_s, st.slew_fall_v_per_s)
-    rate = amp * w
-    es = input_stage_harmonics(a_in, gamma, sr0, rate, design.noise_gain, n_harmonics)
+    es = _input_stage_series(st, design, n_harmonics)
     slewed = ~np.isfinite(es).all(axis=1)
     tot = xs + np.nan_to_num(es)
     bound = BOUND_FACTOR * np.sqrt(np.sum(tot * tot, axis=1)) / amp

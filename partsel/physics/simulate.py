@@ -38,6 +38,7 @@ from partsel.physics.stage import (
     CLASS_B,
     DARLINGTON_BETA,
     DARLINGTON_C_E,
+    GAMMA_CM_SHARE,
     V_T,
     StageParams,
     input_law,
@@ -147,7 +148,8 @@ def part_matrix(
         np.nan_to_num(stage.slew_fall_v_per_s, nan=np.inf),
     )
     m[:, _st.P_SR0] = sr0
-    m[:, _st.P_GAMMA] = gamma
+    m[:, _st.P_GAMMA] = (1.0 - GAMMA_CM_SHARE) * gamma
+    m[:, _st.P_GAMMA_CM] = GAMMA_CM_SHARE * gamma
     m[:, _st.P_A] = a
     m[:, _st.P_B0] = b0
     pd_const, pd_slope = pulldown_law(np.where(pulldown, i_stage, 0.0), vpos, vneg)
@@ -262,6 +264,7 @@ def simulate(
     # Input drive at the end of every step of a period (the drive is periodic and steps align).
     t_all = (np.arange(n) + 1) * dt
     c_in = np.ascontiguousarray(design.v_plus(t_all) - design.v_minus_drive(t_all), dtype=float)
+    cm_rate = np.ascontiguousarray(design.v_plus_slope(t_all), dtype=float)
     v_start = float(design.v_ideal(np.array([0.0]))[0])
     rec_n = n * n_record
     out = np.empty((p, 6, rec_n))
@@ -269,7 +272,7 @@ def simulate(
     pos_h, pos_i, neg_h, neg_i = _curves(stage)
     runner = _st.run_parallel if p >= PARALLEL_PARTS else _st.run
     runner(
-        prm, pos_h, pos_i, neg_h, neg_i, c_in, v_start, V_T, design.beta, dt, vpos, vneg,
+        prm, pos_h, pos_i, neg_h, neg_i, c_in, cm_rate, v_start, V_T, design.beta, dt, vpos, vneg,
         float(ld.c_load_f), ac, r_l, c_c, float(ld.reference_v), int(n_warmup),
         int(max_warmup), float(settle_v), int(n_record), float(tol_v), int(max_iterations),
         out, flags,

@@ -203,10 +203,11 @@ def spice_deck(
     wt = 2.0 * math.pi * gbw
     sr0 = float(m[_st.P_SR0])
     gam = float(m[_st.P_GAMMA])
+    gam_cm = float(m[_st.P_GAMMA_CM])
     a_in = float(m[_st.P_A])
     b0_in = float(m[_st.P_B0])
-    sr_r = sr0 / (1.0 + gam)
-    sr_f = sr0 / (1.0 - gam)
+    sr_r = sr0 / (1.0 + gam + gam_cm)  # the follower's slew rates (largest drive rates)
+    sr_f = sr0 / (1.0 - gam - gam_cm)
     beta = design.beta
     drive_lo = float(m[_st.P_DRIVE_LO])
     drive_hi = float(m[_st.P_DRIVE_HI])
@@ -284,7 +285,7 @@ def spice_deck(
         "p_vneg": vneg,
     }
     if math.isfinite(sr0):
-        params.update({"p_sr0": sr0, "p_gam": gam, "p_a": a_in, "p_b0": b0_in})
+        params.update({"p_sr0": sr0, "p_gam": gam, "p_gcm": gam_cm, "p_a": a_in, "p_b0": b0_in})
     for key, val in params.items():
         add(f".param {key}={_num(val)}")
     if math.isfinite(lim_src):
@@ -305,9 +306,16 @@ def spice_deck(
     if math.isfinite(sr0):
         add("* ---- input stage: state z (node nz), a z + b0 t/(1 + gam t) = e, t = tanh(z) ----")
         add(".func frac(z) {tanh(z)/(1 + p_gam*tanh(z))}")
-        add("Bz 0 nz I = err(v(out)) - (p_a*v(nz) + p_b0*frac(v(nz)))")
+        if design.closed_loop.configuration == "non-inverting":
+            w_s = _num(2.0 * math.pi * f_hz)
+            cm = f"{_num(sig.amplitude_v)}*{w_s}*cos({w_s}*time)"
+        else:
+            cm = "0"
+        add("* tail current (slew rate) less the common-mode input's share of its slope")
+        add(f".func srcm() {{max(p_sr0 - p_gcm*{cm}, {_num(0.05 * sr0)})}}")
+        add("Bz 0 nz I = err(v(out)) - (p_a*v(nz) + p_b0*srcm()/p_sr0*frac(v(nz)))")
         add("Rz nz 0 1e15")
-        rate = "p_sr0*frac(v(nz))"
+        rate = "srcm()*frac(v(nz))"
     else:
         rate = "p_wt*err(v(out))"
     add("*")

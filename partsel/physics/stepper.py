@@ -8,11 +8,12 @@ residual evaluation for all parts at once.
 Unknowns per step (backward Euler; SI units):
 
 * ``z``: state of the input stage. Its output current is ``tanh(z)`` of its tail current
-  (which the drive's own slope modulates), and the error voltage it needs for that is
-  ``e(z) = a z + b_0 tanh(z) / (1 + gamma tanh(z))`` (the degenerated differential pair of
-  :mod:`partsel.physics.stage`). The output voltage then follows from the feedback
-  network, ``v_out = (c_in - e(z)) / beta``, and the drive (integrator) node from the rate,
-  ``v_drive = v_drive_old + dt * SR_0 tanh(z) / (1 + gamma tanh(z))``.
+  (which the drive's own slope and the common-mode input's slope modulate), and the error
+  voltage it needs for that is ``e(z) = a z + b tanh(z) / (1 + gamma_d tanh(z))`` (the
+  degenerated differential pair of :mod:`partsel.physics.stage`). The output voltage then
+  follows from the feedback network, ``v_out = (c_in - e(z)) / beta``, and the drive
+  (integrator) node from the rate,
+  ``v_drive = v_drive_old + dt * SR_cm tanh(z) / (1 + gamma_d tanh(z))``.
 * ``y``: the Darlington source device's base node, relative to the output (class A / B only):
   ``C_e dy/dt = i_1 - i_2 / beta_D`` with ``i_1`` the driver's and ``i_2`` the output device's
   current (see :mod:`partsel.physics.stage`).
@@ -70,6 +71,7 @@ FAST = {"contract", "reassoc", "arcp", "afn", "nsz"}
     P_WT,
     P_SR0,
     P_GAMMA,
+    P_GAMMA_CM,
     P_A,
     P_B0,
     P_PD_CONST,
@@ -84,7 +86,7 @@ FAST = {"contract", "reassoc", "arcp", "afn", "nsz"}
     P_X0,
     P_Y0,
     N_PARAMS,
-) = range(28)
+) = range(29)
 
 #: Topology codes of the stepper: biased pair (class AB / CMOS), Darlington source with
 #: pull-down and sink device (class B), Darlington source with pull-down only (class A).
@@ -123,6 +125,7 @@ def _step(
     prm: np.ndarray,
     inv_vt: float,
     c_in: float,
+    cm_rate: float,
     inv_beta: float,
     dt: float,
     vd_old: float,
@@ -160,8 +163,16 @@ def _step(
     sr0 = prm[P_SR0]
     gam = prm[P_GAMMA]
     a = prm[P_A]
-    b0 = prm[P_B0]
     linear = math.isinf(sr0)
+    # the common-mode input's slope takes its share of the tail current
+    if linear:
+        sr_cm = sr0
+        b0 = 0.0
+    else:
+        sr_cm = sr0 - prm[P_GAMMA_CM] * cm_rate
+        if sr_cm < 0.05 * sr0:
+            sr_cm = 0.05 * sr0
+        b0 = prm[P_B0] * sr_cm / sr0
     darl = topo != T_BIASED
     far_p = math.isinf(kp)
     far_n = math.isinf(kn)
@@ -180,8 +191,9 @@ def _step(
     i_1 = 0.0
     for it in range(max_it):
         # input stage: fraction t = tanh(z) of the tail current, which the drive's own slope
-        # modulates: rate = SR_0 t / (1 + gamma t), error e = a z + b_0 t / (1 + gamma t);
-        # an infinite slew rate means a linear stage (rate = omega_t e)
+        # and the common-mode slope modulate: rate = SR_cm t / (1 + gamma_d t), error
+        # e = a z + b t / (1 + gamma_d t); an infinite slew rate means a linear stage
+        # (rate = omega_t e)
         if linear:
             e = z
             de = 1.0
@@ -193,8 +205,8 @@ def _step(
             q = (1.0 - th * th) * den * den
             e = a * z + b0 * th * den
             de = a + b0 * q
-            rate = sr0 * th * den
-            drate = sr0 * q
+            rate = sr_cm * th * den
+            drate = sr_cm * q
         vo = (c_in - e) * inv_beta
         dvo = -de * inv_beta
         vd = vd_old + dt * rate
@@ -352,6 +364,7 @@ def _run_part(
     neg_h: np.ndarray,
     neg_i: np.ndarray,
     c_in: np.ndarray,
+    cm_rate: np.ndarray,
     v_start: float,
     inv_vt: float,
     inv_beta: float,
@@ -423,15 +436,15 @@ def _run_part(
             z_guess = 3.0 * (z - z_old) + z_old2
             y_guess = 3.0 * (y - y_old) + y_old2
             zn, yn, vo, vdn, i_src, i_snk, i_pd, _i1, ok = _step(
-                row, inv_vt, c_in[k], inv_beta, dt, vd, y, z_guess, y_guess, g_tot, i_const,
-                kp, sp, kn, sn, vneg, tol_v, max_it,
+                row, inv_vt, c_in[k], cm_rate[k], inv_beta, dt, vd, y, z_guess, y_guess,
+                g_tot, i_const, kp, sp, kn, sn, vneg, tol_v, max_it,
             )  # fmt: skip
             iters += ok
             if ok == 0:
                 # retry from the last converged state (no extrapolation)
                 zn, yn, vo, vdn, i_src, i_snk, i_pd, _i1, ok = _step(
-                    row, inv_vt, c_in[k], inv_beta, dt, vd, y, z, y, g_tot, i_const,
-                    kp, sp, kn, sn, vneg, tol_v, 4 * max_it,
+                    row, inv_vt, c_in[k], cm_rate[k], inv_beta, dt, vd, y, z, y, g_tot,
+                    i_const, kp, sp, kn, sn, vneg, tol_v, 4 * max_it,
                 )  # fmt: skip
                 if ok == 0:
                     bad += 1
@@ -500,6 +513,7 @@ def run(
     neg_h: np.ndarray,
     neg_i: np.ndarray,
     c_in: np.ndarray,
+    cm_rate: np.ndarray,
     v_start: float,
     vt: float,
     beta: float,
@@ -525,13 +539,14 @@ def run(
     ``out`` has shape (P, 6, n_record * N): output, drive, output current, source, sink and
     pull-down current. ``flags[p]`` receives (unconverged steps, warm-up periods run, Newton
     iterations of the steps that converged at the first attempt).
-    ``c_in`` holds ``v_plus - v_md`` at the end of every step of one period (length N).
+    ``c_in`` holds ``v_plus - v_md`` and ``cm_rate`` the common-mode input's slope (V/s) at the
+    end of every step of one period (length N).
     """
     inv_vt = 1.0 / vt
     inv_beta = 1.0 / beta
     for p in range(prm.shape[0]):
         _run_part(
-            p, prm, pos_h, pos_i, neg_h, neg_i, c_in, v_start, inv_vt, inv_beta, dt, vpos,
+            p, prm, pos_h, pos_i, neg_h, neg_i, c_in, cm_rate, v_start, inv_vt, inv_beta, dt, vpos,
             vneg, c_l, ac, r_l, c_c, v_ref_l, n_warmup, max_warmup, settle_v, n_record, tol_v,
             max_it, out, flags,
         )  # fmt: skip
@@ -545,6 +560,7 @@ def run_parallel(
     neg_h: np.ndarray,
     neg_i: np.ndarray,
     c_in: np.ndarray,
+    cm_rate: np.ndarray,
     v_start: float,
     vt: float,
     beta: float,
@@ -570,13 +586,14 @@ def run_parallel(
     ``out`` has shape (P, 6, n_record * N): output, drive, output current, source, sink and
     pull-down current. ``flags[p]`` receives (unconverged steps, warm-up periods run, Newton
     iterations of the steps that converged at the first attempt).
-    ``c_in`` holds ``v_plus - v_md`` at the end of every step of one period (length N).
+    ``c_in`` holds ``v_plus - v_md`` and ``cm_rate`` the common-mode input's slope (V/s) at the
+    end of every step of one period (length N).
     """
     inv_vt = 1.0 / vt
     inv_beta = 1.0 / beta
     for p in numba.prange(prm.shape[0]):
         _run_part(
-            p, prm, pos_h, pos_i, neg_h, neg_i, c_in, v_start, inv_vt, inv_beta, dt, vpos,
+            p, prm, pos_h, pos_i, neg_h, neg_i, c_in, cm_rate, v_start, inv_vt, inv_beta, dt, vpos,
             vneg, c_l, ac, r_l, c_c, v_ref_l, n_warmup, max_warmup, settle_v, n_record, tol_v,
             max_it, out, flags,
         )  # fmt: skip
@@ -601,7 +618,8 @@ def warm_up() -> float:
     out = np.zeros((1, 6, 8))
     flags = np.zeros((1, 3), dtype=np.int64)
     run(
-        prm, curve, curve * 1e-3, curve, curve * 1e-3, np.zeros(8), 0.0, 0.026, 1.0, 1e-6,
+        prm, curve, curve * 1e-3, curve, curve * 1e-3, np.zeros(8), np.zeros(8), 0.0, 0.026,
+        1.0, 1e-6,
         5.0, 0.0, 0.0, False, 1.0, 1.0, 0.0, 1, 1, 1.0, 1, 1e-9, 20, out, flags,
     )  # fmt: skip
     return time.perf_counter() - t0
