@@ -46,6 +46,7 @@ from partsel.physics.stage import (
     GAMMA_CM_SHARE,
     Basis,
     StageParams,
+    drive_slew,
     input_law,
     pulldown_law,
 )
@@ -790,8 +791,19 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     active = handover | crossover_biased
     out_at = np.where(active, v0 + a * np.sin(theta_fall - phi), np.nan)
     phase = np.where(active, np.mod(theta_fall - phi, 2 * np.pi), np.nan)
-    sr_f = stage.slew_fall_v_per_s
-    sr_r = stage.slew_rise_v_per_s
+    # the drive slews through a crossing at the input stage's full rate, its tail current less
+    # the common mode's share of its slope (the input's slope; 0 for an inverting stage)
+    cm_gain = (
+        1.0 / design.closed_loop.gain
+        if design.closed_loop.configuration == "non-inverting"
+        else 0.0
+    )
+    sr_f = drive_slew(
+        stage.gbw_hz, stage.slew_rise_v_per_s, stage.slew_fall_v_per_s, -cm_gain * s_fall, False
+    )
+    sr_r = drive_slew(
+        stage.gbw_hz, stage.slew_rise_v_per_s, stage.slew_fall_v_per_s, cm_gain * s_rise, True
+    )
     # The crossing is modelled against a linearly moving ideal output, which holds for a small
     # part of a period only. A crossing that would last a quarter period or more (a part far
     # too slow for the signal; the slew and bandwidth checks reject it) is taken as lasting a
@@ -923,7 +935,7 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
 
     # --- dynamics ---------------------------------------------------------------------------
     slew_req = amp * w
-    sr = np.minimum(sr_r, sr_f)
+    sr = np.minimum(stage.slew_rise_v_per_s, stage.slew_fall_v_per_s)  # datasheet values
     with np.errstate(divide="ignore", invalid="ignore"):
         slew_ratio = np.where(slew_req > 0, sr / slew_req, np.inf)
         fpbw = np.where(amp > 0, sr / (2.0 * np.pi * amp), np.inf)

@@ -56,10 +56,11 @@ Device laws (partsel's own macro-model; SI units; design notes sections 2 and 4)
   ``SR_0 = 2 SR_r SR_f / (SR_r + SR_f)`` and ``gamma = (SR_f - SR_r) / (SR_f + SR_r)``. How
   ``gamma`` splits between the two cannot be read from such a test; partsel gives each half
   (:data:`GAMMA_CM_SHARE`). In partsel's transistor-level test circuit (the coupling there is
-  the gain stage's load into the bias line and the input pair's tail node) a crossing, where
-  the drive slews while the common mode hardly moves, shows about two thirds of the
-  follower's asymmetry (measured in tests/test_transistor_level_opamp.py), so the even split
-  is not fitted to it. ``V_lin = SR_0 / omega_t``.
+  the gain stage's load into the bias line and the input pair's tail node) a crossing at
+  20 kHz, where the drive slews while the common mode hardly moves, shows between a half and
+  two thirds of the follower's asymmetry (0.53 to 0.64, measured in
+  tests/test_transistor_level_opamp.py); the even split is not fitted to it.
+  ``V_lin = SR_0 / omega_t``.
 """
 
 from __future__ import annotations
@@ -136,6 +137,25 @@ def input_law(
     a = np.where(fin, np.minimum(2.0 * V_T, v_lin), 0.0)
     b0 = np.where(fin, v_lin - a, 0.0)
     return sr0, gamma, np.nan_to_num(a), np.nan_to_num(b0)
+
+
+def drive_slew(
+    gbw_hz: np.ndarray,
+    slew_rise_v_per_s: np.ndarray,
+    slew_fall_v_per_s: np.ndarray,
+    cm_slope_v_per_s: np.ndarray | float,
+    rising: bool,
+) -> np.ndarray:
+    """The rate the drive node slews at, fully switched, while the common-mode input moves at
+    ``cm_slope`` (V/s, signed): ``SR_0 - gamma_d r - gamma_cm c = |r|`` solved for the drive
+    rate ``r`` (see the module docstring); the datasheet's own rates where ``c = r``."""
+    sr0, gamma, _a, _b = input_law(gbw_hz, slew_rise_v_per_s, slew_fall_v_per_s)
+    g_d = (1.0 - GAMMA_CM_SHARE) * gamma
+    g_c = GAMMA_CM_SHARE * gamma
+    c = np.asarray(cm_slope_v_per_s, dtype=float)
+    with np.errstate(invalid="ignore"):
+        rate = (sr0 - g_c * c) / ((1.0 + g_d) if rising else (1.0 - g_d))
+    return np.where(np.isfinite(sr0), np.maximum(rate, 0.05 * sr0), np.inf)
 
 
 def _resolve(
