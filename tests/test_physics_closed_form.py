@@ -424,7 +424,10 @@ def test_worst_case_never_more_optimistic_than_typical(
     """For every check the worst-case basis uses the pessimistic side (design notes section
     7), so its glitch is >= and its margins are <= the typical ones (absolute slack 1e-12).
     Headroom curves come with or without a guaranteed maximum and the source limit as typical
-    only, as datasheets often give them; a missing side falls back to typ."""
+    only, as datasheets often give them; a missing side falls back to typ. The glitch of a
+    marginal stage comes from the device law in time, which is not monotonic in every
+    parameter (a slower slew rate also shrinks the recovery's overshoot), so the glitch is
+    compared where neither basis is marginal."""
     keys = ["gbw", "dead_band", "stage_current", "slew_rise", "slew_fall"]
     vals: dict[str, float] = {}
     for k, key in enumerate(keys):
@@ -441,8 +444,9 @@ def test_worst_case_never_more_optimistic_than_typical(
     ty = predict_closed_form(ty_stage, d)
     wc = predict_closed_form(wc_stage, d)
     eps = 1e-12
+    formula = "marginal" not in (ty.conduction[0], wc.conduction[0])
     checks = {
-        "glitch_v": wc.glitch_v[0] >= ty.glitch_v[0] - eps,
+        "glitch_v": wc.glitch_v[0] >= ty.glitch_v[0] - eps or not formula,
         "handover": wc.handover[0] >= ty.handover[0],
         "min_source_a": wc.min_source_a[0] <= ty.min_source_a[0] + eps,
         "swing_pos_margin_v": wc.swing_pos_margin_v[0] <= ty.swing_pos_margin_v[0] + eps,
@@ -505,7 +509,8 @@ def test_closed_form_glitch_grows_with_frequency_and_shrinks_with_gbw(
 
 def test_one_mode_thd_against_fft_of_the_device_law() -> None:
     """Class B kept in source mode: the follower's drop V_S ln(i_src) over the ideal period
-    (i_src the load current plus the pull-down's, with its Early effect),
+    (i_src the load current plus the pull-down's, with its Early effect; the output stage's
+    term alone, input_stage=False),
     sampled (4096 points) and transformed with numpy's FFT, each harmonic n passed through the
     loop's error transfer j n w / (j n w + omega_t beta) (single-pole loop, analytic), gives
     the same THD_F (harmonics 2..40) as the closed form's analytic Fourier series of the
@@ -518,10 +523,12 @@ def test_one_mode_thd_against_fft_of_the_device_law() -> None:
     gbw = np.array([1e6, 1e6, 0.3e6])
     stage = make_stage(CLASS_B, 3, stage_current=i_pd, gbw=gbw)
     d = line_design(r_load_ohm=10e3)  # sinks up to 100 uA: stays in source mode
-    est = one_mode_thd(stage, d)
+    est = one_mode_thd(stage, d, input_stage=False)
     cf = predict_closed_form(stage, d)
     assert list(cf.conduction) == ["one-mode"] * 3
-    np.testing.assert_array_equal(cf.thd_estimate, est)
+    # the ranking's estimate adds the input stage's slew-induced term in power (tiny at 1 kHz)
+    np.testing.assert_array_equal(cf.thd_estimate, one_mode_thd(stage, d))
+    np.testing.assert_allclose(cf.thd_estimate, est, rtol=1e-3)
     n = 4096
     t = np.arange(n) / (n * d.signal.frequency_hz)
     i_out = ideal_current(d, t)
