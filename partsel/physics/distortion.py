@@ -69,11 +69,12 @@ def translinear_harmonics(
     mean_a: np.ndarray,
     swing_a: np.ndarray,
     n_harmonics: int,
-    n_grid: int = 128,
+    n_grid: int = 64,
 ) -> np.ndarray:
     """Harmonic amplitudes (V) of the stage drop of a biased pair, ``x = V_X asinh(i / 2 I_q)``,
     for an output current ``i = I0 + B cos`` (numerical Fourier transform over ``n_grid``
-    points per period; the drop is smooth, so its harmonics are exact to rounding)."""
+    points per period: harmonics up to ``n_grid / 2 - 1``; what lies above folds into them, so
+    their power sum keeps the drop's distortion power)."""
     th = 2.0 * np.pi * np.arange(n_grid) / n_grid
     with np.errstate(divide="ignore", invalid="ignore"):
         u = (mean_a[:, None] + swing_a[:, None] * np.cos(th)[None, :]) / (2.0 * i_q[:, None])
