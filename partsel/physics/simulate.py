@@ -29,7 +29,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from partsel.physics import stepper as _st
+from partsel.physics import stepper_layout as _st
 from partsel.physics.circuit import Design
 from partsel.physics.loading import ideal_current, resistive_branches
 from partsel.physics.spectrum import DEFAULT_HARMONICS, harmonic_amplitudes, thd
@@ -270,7 +270,9 @@ def simulate(
     out = np.empty((p, 6, rec_n))
     flags = np.zeros((p, 3), dtype=np.int64)
     pos_h, pos_i, neg_h, neg_i = _curves(stage)
-    runner = _st.run_parallel if p >= PARALLEL_PARTS else _st.run
+    from partsel.physics import stepper  # numba: loaded when a simulation runs, not before
+
+    runner = stepper.run_parallel if p >= PARALLEL_PARTS else stepper.run
     runner(
         prm, pos_h, pos_i, neg_h, neg_i, c_in, cm_rate, v_start, V_T, design.beta, dt, vpos, vneg,
         float(ld.c_load_f), ac, r_l, c_c, float(ld.reference_v), int(n_warmup),

@@ -43,7 +43,7 @@ from collections.abc import Sequence
 
 import numpy as np
 
-from partsel.physics import stepper as _st
+from partsel.physics import stepper_layout as _st
 from partsel.physics.circuit import Design
 from partsel.physics.simulate import coupling_start, default_steps, part_matrix
 from partsel.physics.stage import DARLINGTON_C_E, TOPOLOGIES, V_T, StageParams

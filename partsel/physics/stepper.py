@@ -55,45 +55,43 @@ EXP_CAP = 60.0
 #: functions, but NaN and infinity keep their meaning (limits may be infinite).
 FAST = {"contract", "reassoc", "arcp", "afn", "nsz"}
 
-# Column order of the per-part parameter matrix (see simulate._part_matrix).
-(
-    P_TOPO,
-    P_I_STAGE,
-    P_I_SRC0,
-    P_I_SNK0,
-    P_LIM_SRC,
-    P_LIM_SNK,
-    P_DB,
-    P_VS_SRC,  # stored as 1 / V_S
-    P_VS_SNK,  # stored as 1 / V_K
-    P_K_E,
-    P_INV_BETA_D,
-    P_WT,
-    P_SR0,
-    P_GAMMA,
-    P_GAMMA_CM,
+from partsel.physics.stepper_layout import (
+    N_PARAMS,
     P_A,
     P_B0,
+    P_DB,
+    P_DRIVE_HI,
+    P_DRIVE_LO,
+    P_G_S,
+    P_GAMMA,
+    P_GAMMA_CM,
+    P_H_FAR_NEG,
+    P_H_FAR_POS,
+    P_I_S,
+    P_I_SNK0,
+    P_I_SRC0,
+    P_I_STAGE,
+    P_INV_BETA_D,
+    P_K_E,
+    P_LIM_SNK,
+    P_LIM_SRC,
     P_PD_CONST,
     P_PD_SLOPE,
-    P_G_S,
-    P_I_S,
-    P_DRIVE_LO,
-    P_DRIVE_HI,
+    P_SR0,
+    P_TOPO,
     P_V_CAP0,
-    P_H_FAR_POS,
-    P_H_FAR_NEG,
+    P_VS_SNK,
+    P_VS_SRC,
+    P_WT,
     P_X0,
     P_Y0,
-    N_PARAMS,
-) = range(29)
-
-#: Topology codes of the stepper: biased pair (class AB / CMOS), Darlington source with
-#: pull-down and sink device (class B), Darlington source with pull-down only (class A).
-T_BIASED, T_CLASS_B, T_CLASS_A = 0, 1, 2
+    T_BIASED,
+    T_CLASS_A,
+    T_CLASS_B,
+)
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _pwl(x: float, xp: np.ndarray, fp: np.ndarray) -> tuple[float, float]:
     """Value and slope of the piecewise-linear curve through (xp, fp) (NaN-padded) at ``x``,
     linear extrapolation at both ends (the same segment choice as stage.pwl_with_slope)."""
@@ -355,7 +353,7 @@ def _step(
     return z, y, vo, vd, i_src, i_snk, i_pd, i_1, ok * (it + 1)
 
 
-@numba.njit(cache=True, fastmath=FAST)
+@numba.njit(cache=True, fastmath=FAST, inline="always")
 def _run_part(
     p: int,
     prm: np.ndarray,
