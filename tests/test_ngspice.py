@@ -29,14 +29,14 @@ its DC and fundamental (``SimResult.residual_peak_v``), THD_F from
 Tolerances, from the integration methods (``dt = T/n``, ``K = omega_t * beta`` the closed-loop
 rate, 3.1e6 /s here, so ``K dt`` is about 3 at simulate()'s default n = 1024):
 
-* ngspice's own error: its waveform moves by 91 uV in case (a) when its largest step goes from
+* ngspice's own error: its waveform moves by 0.10 mV in case (a) when its largest step goes from
   dt to dt/8 (measured), so what remains is simulate()'s.
 * smooth cases (b, c, d, e; no handover): backward Euler's integrator is ``(1/s)(1 + s dt/2 +
   ..)``, so for a sine tracked by the loop it changes the closed-loop error ``1 - H`` only by
   about ``omega**2 dt / (2 K)``: ``|dv| ~ A omega**2 dt / (2 K)``. Tolerance: 5 times that plus
   5 uV (36, 15, 79, 42 and 169 uV). Measured: (b) 5.9 uV, (c) 2.5 uV, (d) 13.8 uV and 4.7 uV,
   (e) 33 uV. THD_F, glitch amplitude and minimum source current: 1 % relative (measured at
-  most 0.46 %, the residual of (c)).
+  most 0.33 %, the residual of (c)).
 * handover case (a): the glitch ends with a step of about its amplitude ``g`` that settles at
   the rate K, faster than one step; backward Euler leaves ``1/(1 + K dt)`` of it after a step
   where the exact solution leaves ``exp(-K dt)``, so ``max |dv| <~ g (1/(1 + K dt) -

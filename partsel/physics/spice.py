@@ -276,6 +276,7 @@ def spice_deck(
         "p_invvt": 1.0 / V_T,
         "p_ibd": float(m[_st.P_INV_BETA_D]),  # 1 / Darlington beta
         "p_ce": DARLINGTON_C_E,  # Darlington base-node capacitance, F
+        "p_limdev": min(lim_src, 1.0),  # current limit of each Darlington transistor, A
         "p_db": db,  # dead band, V
         "p_isrc0": i_src0,
         "p_isnk0": i_snk0,
@@ -330,8 +331,9 @@ def spice_deck(
     add(f".func availneg(vo) {{max({pwl_expression('(vo - p_vneg)', neg_h, neg_i)}, 0)}}")
     if darlington:
         add("* Darlington: base node y (node ny) with C_e dy/dt = i1 - i2 / beta_D")
-        add(".func i2(y) {p_isrc0*exp(min(y*p_invvt, 60))}")
-        add(".func i1(x, y) {p_isrc0*p_ibd*exp(min((x - y)*p_invvt, 60))}")
+        add("* each transistor's current capped at the source limit (1 A where none)")
+        add(".func i2(y) {min(p_isrc0*exp(min(y*p_invvt, 60)), p_limdev)}")
+        add(".func i1(x, y) {min(p_isrc0*p_ibd*exp(min((x - y)*p_invvt, 60)), p_limdev)}")
         add(f"Cy ny 0 {{p_ce}} IC={_num(float(m[_st.P_Y0]))}")
         add("By 0 ny I = i1(v(drive) - v(out), v(ny)) - p_ibd*i2(v(ny))")
         src = "(i2(y) + i1(x, y))"
@@ -396,7 +398,7 @@ def spice_deck(
         add(f"Rfb out lfb {_num(rfb)}")
     add("*")
     add("* ---- analysis ----")
-    add(".options reltol=1e-6 abstol=1e-12 vntol=1e-9 chgtol=1e-16 itl4=100")
+    add(".options reltol=1e-6 abstol=1e-12 vntol=1e-7 chgtol=1e-16 itl4=100")
     ic = f".ic v(out)={_num(v0)} v(drive)={_num(v0 + float(m[_st.P_X0]))}"
     if darlington:
         ic += f" v(ny)={_num(float(m[_st.P_Y0]))}"

@@ -22,6 +22,7 @@ Device laws (partsel's own macro-model; SI units; design notes sections 2 and 4)
   long exactly when the current is small: the marginal cases). The catalogue gives neither
   ``beta_D`` nor ``C_e``: partsel takes :data:`DARLINGTON_BETA` and :data:`DARLINGTON_C_E`,
   generic values of a small-geometry bipolar process (an assumption; see their docstrings).
+  Each of the two transistors carries at most the source limit (1 A where none is given).
 * class B **sink device**: a PNP emitter follower, one junction:
   ``i_snk = I_stage exp((-x - dV) / V_T)``: it carries the stage current once the drive is a
   dead band ``dV`` below the point where the source device carries it.

@@ -177,6 +177,10 @@ def _step(
     # the base node's step is bracketed: it cannot fall faster than its own discharge at the
     # start of the step, nor rise beyond the DC point of the drive (see the module docstring)
     vt = 1.0 / inv_vt if darl else 0.0
+    # the Darlington's transistors carry at most the source limit (1 A where none is given)
+    lim_dev = lim_src if lim_src < 1.0 else 1.0
+    e2_max = lim_dev / i_src0 if i_src0 > 0.0 else math.inf
+    e1_max = e2_max / inv_bd
     y_floor = y_old - c_e * _cexp(y_old * inv_vt) - vt if darl else 0.0
     z = z0
     y = y0
@@ -253,16 +257,25 @@ def _step(
             if i_pd > av_n:
                 i_pd = av_n
                 di_pd = dav_n
+            # each transistor's current (normalised) capped at the device's current limit
             e2 = _cexp(y * inv_vt)
+            de2 = e2 * inv_vt
+            if e2 > e2_max:
+                e2 = e2_max
+                de2 = 0.0
             e1 = _cexp((x - y) * inv_vt)
+            de1 = e1 * inv_vt
+            if e1 > e1_max:
+                e1 = e1_max
+                de1 = 0.0
             i_2 = i_src0 * e2
             i_1 = i_src0 * inv_bd * e1
             raw = i_2 + i_1
-            draw_z = i_1 * inv_vt * dx
-            draw_y = (i_2 - i_1) * inv_vt
+            draw_z = i_src0 * inv_bd * de1 * dx
+            draw_y = i_src0 * (de2 - inv_bd * de1)
             f2 = y - y_old - c_e * (e1 - e2)
-            f2z = -c_e * e1 * inv_vt * dx
-            f2y = 1.0 + c_e * (e1 + e2) * inv_vt
+            f2z = -c_e * de1 * dx
+            f2y = 1.0 + c_e * (de1 + de2)
             es = 0.0
         else:
             i_pd = 0.0
