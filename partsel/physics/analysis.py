@@ -65,6 +65,13 @@ VERDICTS = ("one-mode", "marginal", "changes-mode", "biased")
 #: (unequal device betas, Early effect, the gain stage's own nonlinearity). partsel's choice;
 #: the tests hold the bound against transistor-level circuits and keep it within 20 dB.
 BOUND_FACTOR = 3.0
+#: Least rise/fall asymmetry ``(SR_f - SR_r) / (SR_f + SR_r)`` the bound assumes: a 5 : 3 ratio
+#: of the two slew rates, common in classic single-supply bipolar parts (common practice).
+GAMMA_BOUND = 0.25
+#: Largest THD figure of a bound (and of a slew-limited stage, which has none): 100 %, i.e.
+#: "very large" (the figure is then labelled by ClosedForm.limited_by); capping keeps a stage
+#: just short of its slew limit from ranking worse than one beyond it.
+BOUND_CAP = 1.0
 #: Steps per period of the device-law simulation that gives a marginal stage its THD, after
 #: one warm-up period (at most two): within 0.5 dB of 2048 steps and a settled start in 95 %
 #: of marginal synthetic parts (tests/bench/bench_physics.py parts), 3 dB at worst.
@@ -511,18 +518,26 @@ def one_mode_thd(
         thd_sel = 2.0 * scale * w * np.sqrt(acc) / amp
     out[sel] = np.where(np.isfinite(m), thd_sel, np.nan)
     if input_stage:
-        out = np.sqrt(out**2 + _input_stage_thd(stage, design, n_harmonics) ** 2)
+        with np.errstate(over="ignore"):
+            out = np.sqrt(out**2 + _input_stage_thd(stage, design, n_harmonics) ** 2)
+        out = np.where(np.isinf(out), BOUND_CAP, out)
     return out
 
 
-def _input_stage_series(stage: StageParams, design: Design, n_harmonics: int) -> np.ndarray:
+def _input_stage_series(
+    stage: StageParams, design: Design, n_harmonics: int, bound: bool = False
+) -> np.ndarray:
     """Harmonics (V) of the input stage's slew-induced distortion at the output, (P, H - 1):
     the drive follows the output's slope; the common mode moves at the input's (a
     non-inverting stage's input is the output over the gain; an inverting stage's is still),
-    so the tail sees ``gamma_d + gamma_cm / G`` or ``gamma_d`` of the output's slope."""
+    so the tail sees ``gamma_d + gamma_cm / G`` or ``gamma_d`` of the output's slope. For a
+    ``bound`` the rise/fall asymmetry is taken at least :data:`GAMMA_BOUND` (a datasheet's two
+    rates are each uncertain; equal minima do not make a part symmetric)."""
     sr0, gamma, a_in, _b0 = input_law(
         stage.gbw_hz, stage.slew_rise_v_per_s, stage.slew_fall_v_per_s
     )
+    if bound:
+        gamma = np.maximum(np.abs(gamma), GAMMA_BOUND)
     cm = (
         1.0 / design.closed_loop.gain
         if design.closed_loop.configuration == "non-inverting"
@@ -568,7 +583,9 @@ def thd_bound(
         (:func:`partsel.physics.distortion.input_stage_harmonics`; it does not depend on the
         load and dominates at high frequency into light loads).
 
-    ``inf`` where the output needs more than the slower slew rate (then (b) has no bound).
+    Where the output needs more than the slower slew rate (b) has no bound: the figure is then
+    :data:`BOUND_CAP` (100 %), as is any bound above it, and ``ClosedForm.limited_by`` says
+    "slew".
     """
     n = stage.n
     amp = design.out_amplitude_v
@@ -602,11 +619,12 @@ def thd_bound(
         scale = np.where(src_mode, st.device_scale_v[fol], st.sink_scale_v[fol])
         xs[fol] = device_law_harmonics(scale, mean, b[keep][fol], n_harmonics)
     xs = np.nan_to_num(xs) * loop_residue(w, k[keep], n_harmonics)
-    es = _input_stage_series(st, design, n_harmonics)
+    es = _input_stage_series(st, design, n_harmonics, bound=True)
     slewed = ~np.isfinite(es).all(axis=1)
-    tot = xs + np.nan_to_num(es)
-    bound = BOUND_FACTOR * np.sqrt(np.sum(tot * tot, axis=1)) / amp
-    out[keep] = np.where(slewed, np.inf, bound)
+    tot = xs + np.nan_to_num(es, posinf=0.0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        bound = BOUND_FACTOR * np.sqrt(np.sum(tot * tot, axis=1)) / amp
+    out[keep] = np.where(slewed, BOUND_CAP, np.minimum(bound, BOUND_CAP))
     return out
 
 
@@ -935,7 +953,8 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
         with np.errstate(divide="ignore", invalid="ignore"):
             thd_clip[clipping] = np.sqrt(np.sum(an * an, axis=1)) / np.abs(a1)
         # the clipped part's THD adds to the crossover's (different instants: in power)
-        thd_est = np.where(clipping, np.sqrt(thd_est**2 + thd_clip**2), thd_est)
+        with np.errstate(over="ignore"):
+            thd_est = np.where(clipping, np.sqrt(thd_est**2 + thd_clip**2), thd_est)
         bound = np.where(clipping & np.isfinite(bound), bound + thd_clip, bound)
 
     # --- input common mode -------------------------------------------------------------------

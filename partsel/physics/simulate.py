@@ -227,7 +227,7 @@ def simulate(
     r_to_pos_ohm: float | np.ndarray | None = None,
     n_harmonics: int = DEFAULT_HARMONICS,
     iterations: int = 4,
-    max_iterations: int = 60,
+    max_iterations: int = 200,
     tol_v: float = 1e-7,
 ) -> SimResult:
     """Simulate all parts of ``stage`` in ``design`` and analyse the last periods.
