@@ -184,6 +184,23 @@ class Prediction:
         """The fix of the predicted parts."""
         return self.ranking.fix.take(self.rows)
 
+    def handover_marks(self, k: int, *, fixed: bool = False) -> list[tuple[float, float, str]]:
+        """Where part ``k``'s simulation (``fixed``: the one with the fix fitted) changes
+        conduction mode: (time from the record's start in ms, output level V, ``"handover"`` or
+        ``"hand-back"``), one per edge the record shows. None for a biased stage (class AB /
+        CMOS keeps both devices on), nor where there is no such simulation. The one rule of
+        every figure (the terminal UI and ``predict --plot``)."""
+        sim = self.sim_fixed if fixed else self.sim
+        if sim is None or str(self.closed.conduction[k]) == "biased" or not sim.handover[k]:
+            return []
+        out = []
+        for col, label in ((0, "handover"), (1, "hand-back")):
+            t = float(sim.handover_edges_s[k, col])
+            if np.isfinite(t):
+                level = float(sim.handover_edge_levels_v[k, col])
+                out.append(((t - float(sim.t_s[0])) * 1e3, level, label))
+        return out
+
     def part(self, k: int) -> dict[str, Any]:
         """Predicted part ``k`` as the documented JSON (``data-schema/prediction.schema.json``)."""
         return prediction_dict(

@@ -83,9 +83,11 @@ def percent(ratio: Any, digits: int = 2) -> str:
     return f"{100.0 * float(ratio):.{digits}g} %"
 
 
-def thd(ratio: Any) -> str:
-    """A THD (a ratio, IEC THD_F) for people: always a percentage."""
-    return percent(ratio, 2)
+def thd(ratio: Any, *, bound: bool = False) -> str:
+    """A THD (a ratio, IEC THD_F) for people: always a percentage; an upper bound (biased
+    stages, a stage kept in one mode by a resistor) reads "below 0.2 %"."""
+    text = percent(ratio, 2)
+    return f"below {text}" if bound and finite(ratio) else text
 
 
 def quantity(value: Any, unit: str, digits: int = 3, *, symbols: bool = False) -> str:
@@ -238,15 +240,15 @@ VERDICT_TEXT: dict[str, str] = {
 #: The conduction verdict of the output stage, for people.
 CONDUCTION_TEXT: dict[str, str] = {
     "changes-mode": "changes conduction mode",
-    "marginal": "marginal: stays in source mode with little current",
-    "biased-crossover": "biased stage: the output current changes sign, both devices biased",
+    "marginal": "marginal: barely in one mode (THD from the device law)",
+    "biased": "biased stage: both output devices stay on (a bound is quoted, not a figure)",
     "one-mode": "stays in one conduction mode",
 }
 #: The same, short (table cells).
 CONDUCTION_SHORT: dict[str, str] = {
     "changes-mode": "hands over",
     "marginal": "marginal",
-    "biased-crossover": "biased (AB)",
+    "biased": "biased (AB)",
     "one-mode": "one mode",
 }
 

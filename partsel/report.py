@@ -20,6 +20,14 @@ _VERDICT = {
 }
 
 
+#: What a limited output's figures describe, by ``limited_by``.
+LIMIT_NOTE: dict[str, str] = {
+    "clipping": "the output clips: THD from clipping",
+    "slew": "slew-limited: the figures describe the slew limit, not the crossover",
+    "bandwidth": "bandwidth-limited: the figures describe the loop's limit, not the crossover",
+}
+
+
 def _q(value: float | None, unit: str) -> str:
     return P.quantity(value, unit)
 
@@ -53,6 +61,8 @@ def prediction_text(d: dict[str, Any]) -> str:
         f" stage current {_q(c['stage_current_a'], 'A')} ({c['stage_current_side']}),"
         f" least source-device current {_q(c['min_source_current_a'], 'A')}"
     )
+    limited = c.get("limited_by")
+    limit_note = f" ({LIMIT_NOTE[limited]})" if limited else ""
     if c["handover"]:
         phase = c["handover_phase_deg"]
         lines.append(
@@ -64,38 +74,53 @@ def prediction_text(d: dict[str, Any]) -> str:
             lines.append(
                 f"  Clipping    the output cannot sink more than the bias current: it flattens "
                 f"{_q(c['glitch_v'], 'V')} above the ideal trough, THD ≈ "
-                f"{P.thd(c['thd_estimate'])} (estimate)"
+                f"{P.thd(c['thd_estimate'])} (estimate){limit_note}"
             )
         else:
             lines.append(
                 f"  Glitch      dead-band crossing {_q(c['handover_time_s'], 's')} at slope "
                 f"{P.si(c['slope_v_per_s'], 'V/s')}: glitch ≈ {_q(c['glitch_v'], 'V')} "
-                f"(closed form), THD ≈ {P.thd(c['thd_estimate'])} (estimate)"
+                f"(closed form), THD ≈ {P.thd(c['thd_estimate'])} (estimate){limit_note}"
             )
-    elif d["topology"] in ("class-a", "class-b-pulldown") and (c["thd_estimate"] or 0) > 0:
+    elif c["conduction"] == "marginal":
+        lines.append(
+            f"  Distortion  at the boundary: THD ≈ {P.thd(c['thd_estimate'])} (estimate from "
+            f"the device law, simulated over one period){limit_note}"
+        )
+    elif c["conduction"] == "one-mode" and (c["thd_estimate"] or 0) > 0:
         lines.append(
             f"  Distortion  one conduction mode: THD ≈ {P.thd(c['thd_estimate'])} (estimate "
-            "from the follower's device law and the loop gain"
-            + ("; low for a marginal stage" if c["conduction"] == "marginal" else "")
-            + ")"
+            "from the follower's device law, the input stage and the loop gain"
+            + (f"; below {P.percent(c['thd_bound'])} bounded" if c.get("thd_bound") else "")
+            + f"){limit_note}"
         )
-    if c["biased_crossover"]:
+    elif c["conduction"] == "biased":
         lines.append(
-            f"  Residual    biased stage: crossover THD_F at most about "
-            f"{P.thd(c['thd_estimate'])} (a bound from the loop gain, not a prediction)"
+            f"  Distortion  biased stage: THD {P.thd(c['thd_estimate'], bound=True)} (an upper "
+            "bound: the output pair's gm variation and the input stage's slew-induced "
+            f"distortion, reduced by the loop; not a prediction){limit_note}"
+        )
+    depth = c.get("clip_depth_v") or 0.0
+    if depth > 0 and d["topology"] != "class-a":
+        lines.append(
+            f"  Clipping    the output clips by {_q(depth, 'V')}: the THD figure includes the "
+            "clipping"
         )
     if sim:
+        if c["conduction"] == "biased":
+            shown = "not quoted for a biased stage (see the bound above)"
+        else:
+            shown = P.percent(sim["thd_f"], 3)
         lines.append(
-            f"  Simulation  THD_F {P.percent(sim['thd_f'], 3)}, peak residual "
-            f"{_q(sim['residual_peak_v'], 'V')}, "
+            f"  Simulation  THD_F {shown}, peak residual {_q(sim['residual_peak_v'], 'V')}, "
             + (
-                "output current changes sign"
-                if c["biased_crossover"]
+                "both devices biased"
+                if c["conduction"] == "biased"
                 else f"handover {'yes' if sim['handover'] else 'no'}"
             )
             + (
                 f" at {_q(sim['handover_level_v'], 'V')}"
-                if sim["handover"] and not c["biased_crossover"]
+                if sim["handover"] and c["conduction"] != "biased"
                 else ""
             )
             + f" ({sim['steps_per_period']} steps/period)"
@@ -152,11 +177,10 @@ def fix_lines(fx: dict[str, Any], simf: dict[str, Any] | None = None) -> list[st
     ]
     thd = fx.get("thd_estimate_with_fix")
     if thd is not None and math.isfinite(thd):
-        out.append(f"              with the fix: THD ≈ {P.thd(thd)} (estimate)")
+        out.append(f"              with the fix: THD {P.thd(thd, bound=True)} (an upper bound)")
     if simf:
         out.append(
-            f"              with the fix, simulated: THD_F {P.percent(simf['thd_f'], 3)}, "
-            f"handover {'yes' if simf['handover'] else 'no'}"
+            f"              with the fix, simulated: handover {'yes' if simf['handover'] else 'no'}"
         )
     if fx["applied"]:
         out.append("              the verdict is for the part with this resistor fitted")

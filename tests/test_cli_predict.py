@@ -139,5 +139,5 @@ def test_readme_python_prediction_example_runs(tmp_path):
     # the obsolete BRQ-622 hands over and is rejected (the design accepts active parts only);
     # its fix is still sized and stated with its rule; the class-AB BRQ-722 needs none
     assert "BRQ-622 rejected changes-mode" in r.stdout and "fix " in r.stdout
-    assert "BRQ-722 rejected biased-crossover None" in r.stdout
+    assert "BRQ-722 rejected biased None" in r.stdout
     assert "feasible on the worst-case basis" in r.stdout

@@ -134,23 +134,37 @@ def test_output_current_of_dc_coupled_load_with_feedback_network() -> None:
     assert cf1.i_out_max_a[0] == pytest.approx((v0 + a - v_ref) / r_l + a / r_fb, rel=1e-9)
 
 
-def test_handover_decided_by_min_current_below_minus_stage_current() -> None:
-    """Class B hands over exactly when min i_out < -I_pd (design notes section 3): loads that
-    need 0.8 and 1.2 times the pull-down current. Class AB never hands over but its output
-    current changes sign. Minimum source current = min i_out + I_pd; below half of I_pd the
-    stage is marginal (partsel's threshold)."""
+def test_conduction_verdict_from_the_source_demand_and_the_margin_band() -> None:
+    """Class B (design notes section 3): the source device must carry the load current plus
+    the pull-down current, whose Early effect makes it I (1 + (v - V-)/V_A) / (1 + (V_mid -
+    V-)/V_A) (a transistor current source normalised at mid-supply). Loads that need 0.3, 0.8,
+    1.2 and 1.7 times I_pd at the trough (v = 1.5 V) leave the least demand at +0.7, +0.2,
+    -0.2 and -0.7 I_pd (nearly): outside the margin band of +-0.5 I_pd it is one mode or a
+    handover, inside it marginal from either side (partsel's band, the fix's margin). Class AB
+    is "biased" whatever its output current does. Tolerance 1e-9 relative (algebra)."""
+    from partsel.physics.analysis import MARGIN
+    from partsel.physics.stage import V_EARLY_PULLDOWN
+
     i_pd, a = 50e-6, 1.0
-    r_l = np.array([a / (0.8 * i_pd), a / (1.2 * i_pd)])
-    for k, r in enumerate(r_l):
-        d = line_design(out_amplitude_v=a, r_load_ohm=float(r), c_couple_f=1e-3)
+    v_a = V_EARLY_PULLDOWN
+    pd_trough = i_pd * (1 + 1.5 / v_a) / (1 + 2.5 / v_a)  # at v = 1.5 V, V- = 0, V_mid = 2.5
+    want = ["one-mode", "marginal", "marginal", "changes-mode"]
+    for need, verdict in zip((0.3, 0.8, 1.2, 1.7), want, strict=True):
+        r = a / (need * i_pd)
+        d = line_design(out_amplitude_v=a, r_load_ohm=r, c_couple_f=1e-3)
         stage = make_stage([CLASS_B, "class-ab"], stage_current=i_pd)
         cf = predict_closed_form(stage, d)
-        i_min = -a / r  # coupling corner far below 1 kHz
-        assert cf.i_out_min_a[0] == pytest.approx(i_min, rel=1e-6)
-        assert bool(cf.handover[0]) == bool(i_min < -i_pd)
-        assert cf.min_source_a[0] == pytest.approx(i_min + i_pd, rel=1e-5)
-        assert bool(cf.marginal[0]) is (k == 0)  # 0.2 I_pd left
-        assert not cf.handover[1]
+        i_min = float(np.real(-a / complex(r, -1 / (d.omega * 1e-3))))  # through 1 mF
+        assert cf.i_out_min_a[0] == pytest.approx(-a / abs(complex(r, -1 / (d.omega * 1e-3))))
+        assert cf.min_source_a[0] == pytest.approx(cf.source_demand_min_a[0], rel=1e-12)
+        # the demand's minimum lies at the trough (load and pull-down slopes add in phase)
+        assert cf.source_demand_min_a[0] == pytest.approx(cf.i_out_min_a[0] + pd_trough, rel=2e-3)
+        assert cf.conduction[0] == verdict
+        assert bool(cf.handover[0]) is (verdict == "changes-mode")
+        assert bool(cf.marginal[0]) is (verdict == "marginal")
+        assert abs(cf.source_demand_min_a[0]) < MARGIN * i_pd or verdict != "marginal"
+        assert i_min < 0
+        assert cf.conduction[1] == "biased" and not cf.handover[1]
         assert cf.crossover_biased[1]
 
 
@@ -175,7 +189,8 @@ def test_class_a_hands_over_when_load_needs_more_than_its_sink_bias() -> None:
 def test_flat_level_is_pulldown_current_times_load_below_bias() -> None:
     """AC-coupled R_L: during the handover the load holds the output where it draws -I_pd,
     V_bias - I_pd R_L (common practice). With R_pd to V- as well, where
-    (v - V_bias)/R_L + (v - V-)/R_pd = -I_pd (Kirchhoff). Tolerance 1 mV (0.2 % of I_pd R_L)."""
+    (v - V_bias)/R_L + (v - V-)/R_pd = -I_pd (Kirchhoff). Tolerance 1 mV (0.2 % of I_pd R_L).
+    The level is given for marginal stages too (80 uA here: the load needs 100 uA at most)."""
     i_pd = np.array([30e-6, 50e-6, 80e-6])
     stage = make_stage(CLASS_B, 3, stage_current=i_pd)
     cf = predict_closed_form(stage, line_design())
@@ -218,43 +233,50 @@ def test_handover_time_reduces_to_design_notes_formula() -> None:
     glitch s tau0 (design notes section 4). The ideal's own steepening c over the crossing
     enters at first order in e = c tau0 / s (from s tau^2 / 2 + c tau^3 / 6 = dV / k, analytic):
     tau = tau0 (1 - e / 6), glitch = s tau0 (1 + e / 3); e is 0.05 to 0.09 here, so the
-    second order is below 0.2 %. Quadrupling GBW halves tau0 and the glitch (analytic)."""
+    second order is below 0.2 %. Checked on the crossing itself (analysis._crossing, with the
+    distance dV it is given); in predict_closed_form quadrupling GBW about halves the glitch
+    (analytic; within 6 %: the distance the exponential laws leave grows a little with GBW)."""
+    from partsel.physics.analysis import _crossing
+
     a, f, g, r_l, i_pd = 1.0, 1e3, 2.0, 10e3, 50e-6
     gbw = np.array([1e6, 4e6, 1e6])
     db = np.array([1.3, 1.3, 5.2])
+    s, c = _rising_edge(a, f, i_pd, r_l)
+    k = 2 * math.pi * gbw / g
+    tau, glitch, capped = _crossing(db, s, c, 0.0, k, np.full(3, 20e6), 0.25 / f)
+    assert not capped.any()
+    tau0 = np.sqrt(2 * db * g / (2 * math.pi * gbw * s))
+    e = c * tau0 / s
+    np.testing.assert_allclose(tau, tau0 * (1 - e / 6), rtol=2e-3)
+    np.testing.assert_allclose(glitch, s * tau0 * (1 + e / 3), rtol=2e-3)
     stage = make_stage(CLASS_B, 3, gbw=gbw, dead_band=db, slew_rise=20e6, slew_fall=20e6)
     d = _dc_mid_design(out_amplitude_v=a, frequency_hz=f, gain=g, r_load_ohm=r_l)
     cf = predict_closed_form(stage, d)
-    s, c = _rising_edge(a, f, i_pd, r_l)
-    tau0 = np.sqrt(2 * db * g / (2 * math.pi * gbw * s))
-    e = c * tau0 / s
     np.testing.assert_allclose(cf.slope_v_per_s, s, rtol=1e-9)
-    np.testing.assert_allclose(cf.handover_time_s, tau0 * (1 - e / 6), rtol=2e-3)
-    np.testing.assert_allclose(cf.glitch_v, s * tau0 * (1 + e / 3), rtol=2e-3)
-    assert cf.glitch_v[1] / cf.glitch_v[0] == pytest.approx(0.5, rel=0.03)
+    assert cf.glitch_v[1] / cf.glitch_v[0] == pytest.approx(0.5, rel=0.06)
 
 
 def test_handover_time_against_numerical_integration() -> None:
     """The drive moves at min(omega_t beta D(t), SR) (design notes section 4) against the
     deviation D(t) = s t + c t^2 / 2 of a stuck output from a steepening ideal; tau solves
     int_0^tau min(k D, SR) dt = dV, found here with scipy quad + brentq, and the glitch is
-    D(tau). With and without the slew limit reached. Tolerance 1e-6."""
+    D(tau). With and without the slew limit reached (analysis._crossing). Tolerance 1e-6."""
+    from partsel.physics.analysis import _crossing
+
     a, f, g, r_l, i_pd, db = 1.0, 1e3, 2.0, 10e3, 50e-6, 1.3
     sr = np.array([20e6, 0.05e6, 0.02e6])
-    stage = make_stage(CLASS_B, 3, slew_rise=sr, slew_fall=sr, dead_band=db)
-    d = _dc_mid_design(out_amplitude_v=a, frequency_hz=f, gain=g, r_load_ohm=r_l)
-    cf = predict_closed_form(stage, d)
     s, c = _rising_edge(a, f, i_pd, r_l)
     k_rate = 2 * math.pi * 1e6 / g
 
     def dev(t: float) -> float:
         return s * t + 0.5 * c * t * t
 
+    tau_cf, glitch_cf, _ = _crossing(np.full(3, db), s, c, 0.0, np.full(3, k_rate), sr, 0.25 / f)
     for j, slew in enumerate(sr):
         tau = _crossing_by_quadrature(dev, k_rate, float(slew), db)
-        assert cf.handover_time_s[j] == pytest.approx(tau, rel=1e-6)
-        assert cf.glitch_v[j] == pytest.approx(dev(tau), rel=1e-6)
-    assert k_rate * dev(cf.handover_time_s[2]) > sr[2]  # the slew limit was reached
+        assert tau_cf[j] == pytest.approx(tau, rel=1e-6)
+        assert glitch_cf[j] == pytest.approx(dev(tau), rel=1e-6)
+    assert k_rate * dev(tau_cf[2]) > sr[2]  # the slew limit was reached
 
 
 def test_capacitive_load_crossing_against_ode_integration() -> None:
@@ -402,7 +424,10 @@ def test_worst_case_never_more_optimistic_than_typical(
     """For every check the worst-case basis uses the pessimistic side (design notes section
     7), so its glitch is >= and its margins are <= the typical ones (absolute slack 1e-12).
     Headroom curves come with or without a guaranteed maximum and the source limit as typical
-    only, as datasheets often give them; a missing side falls back to typ."""
+    only, as datasheets often give them; a missing side falls back to typ. The glitch of a
+    marginal stage comes from the device law in time, which is not monotonic in every
+    parameter (a slower slew rate also shrinks the recovery's overshoot), so the glitch is
+    compared where neither basis is marginal."""
     keys = ["gbw", "dead_band", "stage_current", "slew_rise", "slew_fall"]
     vals: dict[str, float] = {}
     for k, key in enumerate(keys):
@@ -419,8 +444,9 @@ def test_worst_case_never_more_optimistic_than_typical(
     ty = predict_closed_form(ty_stage, d)
     wc = predict_closed_form(wc_stage, d)
     eps = 1e-12
+    formula = "marginal" not in (ty.conduction[0], wc.conduction[0])
     checks = {
-        "glitch_v": wc.glitch_v[0] >= ty.glitch_v[0] - eps,
+        "glitch_v": wc.glitch_v[0] >= ty.glitch_v[0] - eps or not formula,
         "handover": wc.handover[0] >= ty.handover[0],
         "min_source_a": wc.min_source_a[0] <= ty.min_source_a[0] + eps,
         "swing_pos_margin_v": wc.swing_pos_margin_v[0] <= ty.swing_pos_margin_v[0] + eps,
@@ -474,7 +500,7 @@ def test_closed_form_glitch_grows_with_frequency_and_shrinks_with_gbw(
     elif cf1.handover[0]:
         assert cf2.glitch_v[0] == pytest.approx(cap)
         assert cf1.glitch_v[1] <= cf1.glitch_v[0]
-    else:
+    elif not cf1.marginal[0]:
         assert cf1.glitch_v[0] == 0.0
 
 
@@ -482,30 +508,37 @@ def test_closed_form_glitch_grows_with_frequency_and_shrinks_with_gbw(
 
 
 def test_one_mode_thd_against_fft_of_the_device_law() -> None:
-    """Class B kept in source mode: the follower's drop V_S ln(i_src) over the ideal period,
+    """Class B kept in source mode: the follower's drop V_S ln(i_src) over the ideal period
+    (i_src the load current plus the pull-down's, with its Early effect; the output stage's
+    term alone, input_stage=False),
     sampled (4096 points) and transformed with numpy's FFT, each harmonic n passed through the
     loop's error transfer j n w / (j n w + omega_t beta) (single-pole loop, analytic), gives
     the same THD_F (harmonics 2..40) as the closed form's analytic Fourier series of the
     logarithm (rtol 1e-6). Lower pull-down current or less GBW: more distortion."""
     from partsel.physics.analysis import one_mode_thd
     from partsel.physics.loading import ideal_current
-    from partsel.physics.stage import M_FOLLOWER, V_T
+    from partsel.physics.stage import M_FOLLOWER, V_EARLY_PULLDOWN, V_T
 
-    i_pd = np.array([400e-6, 160e-6, 160e-6])
+    i_pd = np.array([400e-6, 250e-6, 250e-6])
     gbw = np.array([1e6, 1e6, 0.3e6])
     stage = make_stage(CLASS_B, 3, stage_current=i_pd, gbw=gbw)
     d = line_design(r_load_ohm=10e3)  # sinks up to 100 uA: stays in source mode
-    est = one_mode_thd(stage, d)
+    est = one_mode_thd(stage, d, input_stage=False)
     cf = predict_closed_form(stage, d)
-    assert not cf.handover.any()
-    np.testing.assert_array_equal(cf.thd_estimate, est)
+    assert list(cf.conduction) == ["one-mode"] * 3
+    # the ranking's estimate adds the input stage's slew-induced term in power (tiny at 1 kHz)
+    np.testing.assert_array_equal(cf.thd_estimate, one_mode_thd(stage, d))
+    np.testing.assert_allclose(cf.thd_estimate, est, rtol=1e-3)
     n = 4096
     t = np.arange(n) / (n * d.signal.frequency_hz)
     i_out = ideal_current(d, t)
     w = d.omega
     orders = np.arange(2, 41)
+    v_out = d.v_ideal(t)
     for j in range(3):
-        x = M_FOLLOWER * V_T * np.log(i_pd[j] + i_out)
+        # pull-down with its Early effect, normalised at mid-supply (stage module docstring)
+        pd = i_pd[j] * (1 + v_out / V_EARLY_PULLDOWN) / (1 + 2.5 / V_EARLY_PULLDOWN)
+        x = M_FOLLOWER * V_T * np.log(pd + i_out)
         harm = np.abs(np.fft.rfft(x))[orders] * 2 / n
         k = 2 * math.pi * gbw[j] / d.noise_gain
         e = harm * orders * w / np.sqrt((orders * w) ** 2 + k**2)

@@ -94,11 +94,12 @@ def test_recommended_fix_removes_handover(stage: Any, design: Any) -> None:
 @SIM
 @given(stage=parts(["class-a", CLASS_B], 8), design=designs())
 def test_handover_detection_agrees_away_from_borderline(stage: Any, design: Any) -> None:
-    """Closed form (min i_out < -I_stage) and simulation agree on the handover wherever the
-    criterion is clear: |min i_out + I_stage| > 20 % of I_stage (design notes section 3)."""
+    """Closed form and simulation agree on the handover wherever the verdict is clear: the
+    least source demand outside the margin band (one mode, or changes mode; design notes
+    section 3); inside it the verdict is "marginal" and the device law decides."""
     cf = predict_closed_form(stage, design)
     sim = simulate(stage, design, steps_per_period=STEPS, n_warmup=1)
-    clear = np.abs(cf.i_out_min_a + stage.stage_current_a) > 0.2 * stage.stage_current_a
+    clear = cf.conduction != "marginal"
     np.testing.assert_array_equal(sim.handover[clear], cf.handover[clear])
 
 

@@ -258,13 +258,24 @@ def test_each_part_fails_exactly_one_check(
         assert result.checks.ratio[i, j] == pytest.approx(ratio, rel=1e-5)
 
 
+def _early(v_out: float) -> float:
+    """The pull-down current at ``v_out`` over its stage current: the Early effect of a
+    transistor current source, normalised at mid-supply (partsel.physics.stage, 5 V supply)."""
+    from partsel.physics.stage import V_EARLY_PULLDOWN
+
+    return (1 + v_out / V_EARLY_PULLDOWN) / (1 + 2.5 / V_EARLY_PULLDOWN)
+
+
 def test_class_b_part_fails_the_conduction_check(result: Ranking) -> None:
-    """Smallest source current i_min + I_pd = -100 uA + 50 uA against 0.5 x 50 uA."""
+    """Smallest source current i_min + I_pd = -100 uA + 50 uA against 0.5 x 50 uA, the
+    pull-down's current taken at the 1.5 V trough (its Early effect)."""
     i = result.index("CLASS-B")
     assert failing(result, "CLASS-B") == ["conduction"]
     j = C.IDX["conduction"]
-    assert result.checks.value[i, j] == pytest.approx(-50e-6, rel=1e-9)
-    assert result.checks.margin[i, j] == pytest.approx(-75e-6, rel=1e-9)
+    assert result.checks.value[i, j] == pytest.approx(-100e-6 + 50e-6 * _early(1.5), rel=1e-9)
+    assert result.checks.margin[i, j] == pytest.approx(
+        -100e-6 + 50e-6 * _early(1.5) - 25e-6, rel=1e-9
+    )
     assert result.checks.ratio[i, j] == 0.0
     assert result.prediction.handover[i]
     # the flat level: where the load draws the pull-down current, 2.5 V - 50 uA * 10 kohm
@@ -310,13 +321,14 @@ def test_fix_resistor_by_hand(table: PartTable, design: Design) -> None:
 def test_worst_case_takes_the_pessimistic_side_per_check(table: PartTable, design: Design) -> None:
     """CORNERS: stage current 20 / 50 / 500 uA. The swing to V+ must carry the load plus the
     largest pull-down (0.2 V + 20 ohm x 600 uA of headroom), the conduction check the smallest
-    (-100 uA + 20 uA of source current against 0.5 x 20 uA)."""
+    (-100 uA + 20 uA of source current, at the 1.5 V trough with its Early effect, against
+    0.5 x 20 uA)."""
     req = Requirements.from_mapping(design.requirements).replace(basis="worst-case")
     r = rank(table, design, req)
     i = r.index("CORNERS")
     js, jc = C.IDX["swing_high"], C.IDX["conduction"]
     assert r.checks.margin[i, js] == pytest.approx(1.5 - (0.2 + 20 * 600e-6) - 0.1, rel=1e-9)
-    assert r.checks.margin[i, jc] == pytest.approx(-80e-6 - 10e-6, rel=1e-9)
+    assert r.checks.margin[i, jc] == pytest.approx(-100e-6 + 20e-6 * _early(1.5) - 10e-6, rel=1e-9)
     typ = rank(table, design, req.replace(basis="typical"))
     k = typ.index("CORNERS")
     assert typ.checks.margin[k, js] == pytest.approx(1.5 - (0.2 + 20 * 150e-6) - 0.1, rel=1e-9)

@@ -58,9 +58,15 @@ def make_app(engine: Any, tmp_path: Path, *, simulate: bool = False, **kw: Any) 
 
 async def settle(pilot: Any, rounds: int = 3) -> None:
     """Wait until no worker runs and the screen has caught up with the messages."""
+    from textual.worker import WorkerCancelled
+
     for _ in range(rounds):
         await pilot.pause()
-        await pilot.app.workers.wait_for_complete()
+        try:
+            await pilot.app.workers.wait_for_complete()
+        except WorkerCancelled:  # an exclusive worker replaced by a newer one: wait again
+            await pilot.pause()
+            await pilot.app.workers.wait_for_complete()
     await pilot.pause()
 
 

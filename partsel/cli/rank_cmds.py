@@ -67,7 +67,7 @@ def _crossover(r: Ranking, i: int) -> str:
     if v == "changes-mode":
         lvl = r.prediction.handover_out_v[i]
         return f"at {lvl:.3g} V" if math.isfinite(lvl) else "yes"
-    return {"marginal": "marginal", "biased-crossover": "none (biased)", "one-mode": "none"}[v]
+    return {"marginal": "marginal", "biased": "none (biased)", "one-mode": "none"}[v]
 
 
 def _fix(r: Ranking, i: int) -> str:

@@ -25,6 +25,13 @@ from dataclasses import dataclass
 import numpy as np
 
 from partsel.physics.circuit import Design
+from partsel.physics.distortion import (
+    clipped_sine_harmonics,
+    device_law_harmonics,
+    input_stage_harmonics,
+    loop_residue,
+    translinear_harmonics,
+)
 from partsel.physics.loading import (
     admittance,
     dc_current,
@@ -32,12 +39,43 @@ from partsel.physics.loading import (
     resistive_branches,
     thevenin_level,
 )
-from partsel.physics.simulate import MARGINAL_FRACTION
 from partsel.physics.spectrum import DEFAULT_HARMONICS
-from partsel.physics.stage import CLASS_A, Basis, StageParams
+from partsel.physics.stage import (
+    CLASS_A,
+    CLASS_B,
+    GAMMA_CM_SHARE,
+    Basis,
+    StageParams,
+    drive_slew,
+    input_law,
+    pulldown_law,
+)
 
 #: Samples per period used for the swing / dissipation checks over the ideal waveform.
 GRID = 256
+#: Margin band of the conduction verdict, as a fraction of the stage current: a class-A/B stage
+#: whose least source-device demand lies within +- MARGIN * I_stage of zero is "marginal"
+#: (partsel's choice, the same margin the fix is sized for; design notes sections 4 and 5).
+MARGIN = 0.5
+#: Conduction verdicts (one per part), see :func:`conduction_verdict`.
+VERDICTS = ("one-mode", "marginal", "changes-mode", "biased")
+#: Factor of the distortion bound of biased and one-mode stages over the sum of the modelled
+#: mechanisms (every harmonic taken at the sum of the magnitudes of its contributions, then
+#: tripled): room for mechanisms up to twice the modelled ones that the macro-model leaves out
+#: (unequal device betas, Early effect, the gain stage's own nonlinearity). partsel's choice;
+#: the tests hold the bound against transistor-level circuits and keep it within 20 dB.
+BOUND_FACTOR = 3.0
+#: Least rise/fall asymmetry ``(SR_f - SR_r) / (SR_f + SR_r)`` the bound assumes: a 5 : 3 ratio
+#: of the two slew rates, common in classic single-supply bipolar parts (common practice).
+GAMMA_BOUND = 0.25
+#: Largest THD figure of a bound (and of a slew-limited stage, which has none): 100 %, i.e.
+#: "very large" (the figure is then labelled by ClosedForm.limited_by); capping keeps a stage
+#: just short of its slew limit from ranking worse than one beyond it.
+BOUND_CAP = 1.0
+#: Steps per period of the device-law simulation that gives a marginal stage its THD, after
+#: one warm-up period (at most two): within 0.5 dB of 2048 steps and a settled start in 95 %
+#: of marginal synthetic parts (tests/bench/bench_physics.py parts), 3 dB at worst.
+MARGINAL_STEPS = 512
 
 
 @dataclass(frozen=True)
@@ -49,18 +87,25 @@ class ClosedForm:
     i_out_min_a: np.ndarray
     i_out_max_a: np.ndarray
     min_source_a: np.ndarray  #: smallest source-device current over the period
-    handover: np.ndarray  #: the stage changes conduction mode (class A/B: source cuts off)
-    marginal: np.ndarray  #: stays in source mode, but with less than half its stage current
+    handover: np.ndarray  #: verdict "changes-mode" (class A/B)
+    marginal: np.ndarray
+    """verdict "marginal": the least source-device demand lies within the margin band around
+    zero (either side); its THD comes from the device law (a short simulation), not from the
+    dead-zone formula."""
     crossover_biased: np.ndarray  #: class AB / CMOS: output current changes sign
-    flat_level_v: np.ndarray  #: level the load holds the output at during the handover
+    flat_level_v: np.ndarray
+    """Level the load holds the output at during a handover (changes-mode and marginal class-A/B
+    stages), V."""
     handover_out_v: np.ndarray  #: ideal output level at the handover instant (falling edge)
     handover_phase_rad: np.ndarray  #: phase of the falling-edge handover (0 = rising zero)
     slope_v_per_s: np.ndarray  #: |output slope| at the steeper of the two handovers
     handover_time_s: np.ndarray  #: time to cross the dead band (tau)
     glitch_v: np.ndarray  #: output glitch, deviation from the ideal waveform
     thd_estimate: np.ndarray
-    """THD_F estimate, ratio: class B from the glitch shape, class A from the clipped sine,
-    class AB / CMOS an upper bound of the crossover residual (see the code comments)."""
+    """THD_F estimate used for ranking, ratio: changes-mode class B from the glitch shape,
+    class A from the clipped sine, marginal from the device law (simulation), one-mode from the
+    device law's Fourier series, biased stages the upper bound ``thd_bound``; a clipping output
+    adds the clipped sine's THD."""
     # swing / input / dynamics
     swing_pos_margin_v: np.ndarray
     swing_neg_margin_v: np.ndarray
@@ -84,6 +129,36 @@ class ClosedForm:
     dissipation_w: np.ndarray  #: whole package
     t_junction_c: np.ndarray  #: at the highest ambient
     t_junction_margin_c: np.ndarray
+    # verdicts, bounds and labels (issue 11)
+    conduction: np.ndarray
+    """Conduction verdict per part (object array of str, one of :data:`VERDICTS`): "one-mode",
+    "marginal", "changes-mode" (class A/B) or "biased" (class AB / CMOS); see
+    :func:`conduction_verdict`."""
+    dead_band_eff_v: np.ndarray
+    """Drive distance the crossing of the reported edge covers with the exponential device
+    laws (the dead band shortened or lengthened by the devices' soft turn-off and turn-on at
+    this load, see _effective_dead_band), V; NaN where no class-B handover."""
+    source_demand_min_a: np.ndarray
+    """Least current the source device must carry (class A/B: load plus pull-down current with
+    its Early effect; negative: the sink device or the load alone must take the rest), A."""
+    source_demand_max_a: np.ndarray  #: largest such current, A
+    thd_bound: np.ndarray
+    """Upper bound of THD_F (ratio) for biased stages and class-A/B stages in one mode: the
+    loop-reduced device-law drop (the gm variation of the output devices over the cycle) plus
+    the input stage's slew-induced distortion, times BOUND_FACTOR. NaN for changes-mode and
+    marginal stages (their THD is an estimate, not a bound)."""
+    clip_depth_v: np.ndarray
+    """How far the ideal output goes beyond the swing limits at the current flowing, V (0: it
+    stays inside; the larger of the two rails)."""
+    clip_top_v: np.ndarray  #: depth beyond the positive swing limit, V
+    clip_bottom_v: np.ndarray  #: depth beyond the negative swing limit, V
+    thd_clipping: np.ndarray  #: THD_F of the ideal sine clipped at those limits (ratio)
+    limited_by: np.ndarray
+    """What limits the output, per part (object array of str): "" (nothing: the glitch and THD
+    figures describe the stage), "clipping" (the output hits a swing limit), "slew" (the signal
+    needs more than the slower slew rate) or "bandwidth" (the signal is at or above the
+    closed-loop bandwidth, or the dead-band crossing lasts a quarter period): then the glitch
+    and THD figures describe a limited output, not a crossover."""
 
 
 def _psi(u: np.ndarray) -> np.ndarray:
@@ -309,6 +384,83 @@ def _glitch_thd(
     return np.sqrt(power) / amp
 
 
+def source_demand(
+    stage: StageParams,
+    design: Design,
+    *,
+    r_to_neg_ohm: np.ndarray | None = None,
+    r_to_pos_ohm: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Mean ``D0`` and amplitude ``B`` (A, shape (P,)) of the current the source device must
+    carry over the ideal period, ``d(t) = D0 + B sin(omega t + psi)``: the output current plus,
+    for class A / B, the pull-down current with its Early effect (``i_pd = c + g v_out``, see
+    :func:`partsel.physics.stage.pulldown_law`). Per-part resistors to either rail (NaN: none)
+    are added to the design's load, as a fix would be. Biased stages: the output current."""
+    n = stage.n
+    a = design.signal_gain * design.signal.amplitude_v
+    w = design.omega
+    v0 = design.out_bias_v
+    sup = design.supply
+    rn = np.full(n, np.nan) if r_to_neg_ohm is None else np.asarray(r_to_neg_ohm, dtype=float)
+    rp = np.full(n, np.nan) if r_to_pos_ohm is None else np.asarray(r_to_pos_ohm, dtype=float)
+    i_pd = np.where(stage.has_pulldown, np.nan_to_num(stage.stage_current_a), 0.0)
+    pd_c, pd_s = pulldown_law(i_pd, sup.v_pos_v, sup.v_neg_v)
+    d0 = np.empty(n)
+    b = np.empty(n)
+    if r_to_neg_ohm is None and r_to_pos_ohm is None:
+        groups = [(np.ones(n, dtype=bool), None, None)]
+    else:
+        keys = np.stack([np.nan_to_num(rn, nan=-1.0), np.nan_to_num(rp, nan=-1.0)], axis=1)
+        groups = [
+            (
+                np.all(keys == key, axis=1),
+                None if key[0] < 0 else float(key[0]),
+                None if key[1] < 0 else float(key[1]),
+            )
+            for key in (np.unique(keys, axis=0) if n else [])
+        ]
+    for sel, r_neg, r_pos in groups:
+        y = admittance(design, w, r_to_neg_ohm=r_neg, r_to_pos_ohm=r_pos)
+        i0 = dc_current(design, r_to_neg_ohm=r_neg, r_to_pos_ohm=r_pos)
+        d0[sel] = i0 + pd_c[sel] + pd_s[sel] * v0
+        b[sel] = np.abs(y + pd_s[sel]) * abs(a)
+    return d0, b
+
+
+def conduction_verdict(
+    stage: StageParams,
+    demand_min_a: np.ndarray,
+    demand_max_a: np.ndarray,
+    margin: float = MARGIN,
+) -> np.ndarray:
+    """The conduction verdict of every part: the one rule every output uses.
+
+    ``demand`` is the current the source device must carry (:func:`source_demand`); ``m`` the
+    margin as a fraction of the stage current ``I``:
+
+    * class AB / CMOS: ``"biased"`` (both devices stay biased; bounded, not quoted);
+    * class A / B: ``"one-mode"`` when the least demand is at least ``m I`` (source mode) or,
+      class B only, the largest demand at most ``-m I`` (sink mode, a pull-up holding the sink
+      device on); ``"marginal"`` when the demand comes within ``m I`` of zero from either side
+      (the device nearly cuts off, or the other one barely takes over: the device law decides);
+      ``"changes-mode"`` otherwise (the demand crosses zero by more than ``m I``: a handover,
+      or for class A a clipped trough).
+    """
+    i = np.nan_to_num(stage.stage_current_a, nan=0.0)
+    band = margin * i
+    lo = np.asarray(demand_min_a, dtype=float)
+    hi = np.asarray(demand_max_a, dtype=float)
+    is_b = stage.topology == CLASS_B
+    src_mode = lo >= band
+    snk_mode = is_b & (hi <= -band)
+    near = (np.abs(lo) < band) | (is_b & (np.abs(hi) < band))
+    out = np.full(stage.n, "changes-mode", dtype=object)
+    out[near] = "marginal"
+    out[src_mode | snk_mode] = "one-mode"
+    out[stage.biased] = "biased"
+    return out
+
+
 def one_mode_thd(
     stage: StageParams,
     design: Design,
@@ -316,57 +468,178 @@ def one_mode_thd(
     r_to_neg_ohm: np.ndarray | None = None,
     r_to_pos_ohm: np.ndarray | None = None,
     n_harmonics: int = DEFAULT_HARMONICS,
+    input_stage: bool = True,
 ) -> np.ndarray:
     """THD_F estimate (harmonics 2..H, ratio) of a class-A / class-B stage kept in one mode.
 
-    The conducting device follows its exponential law, ``x = V_S ln(i_dev / I)`` (see
-    :mod:`partsel.physics.stage`), with ``i_dev = D0 + B sin(theta)`` the device current over
-    the ideal period: the source device (``D0 = I_stage + I0``) or, with a pull-up that keeps
-    the sink device on, the sink device (``D0 = -I0 - I_stage``). The Fourier series of the
-    logarithm is analytic (``ln(1 + m sin) = c + 2 sum (-1)^.. r^n / n cos(n ..)`` with
-    ``m = B / D0``, ``r = (1 - sqrt(1 - m^2)) / m``), so harmonic ``n`` of the stage drop has
-    amplitude ``2 V_S r^n / n``; the loop (integrator at ``omega_t beta``) leaves
+    The output stage's drop (below) and, with ``input_stage``, the input stage's slew-induced
+    distortion (:func:`partsel.physics.distortion.input_stage_harmonics`), added in power (the
+    phase between the two is not modelled).
+
+    The conducting device follows its DC law (see :mod:`partsel.physics.stage`): the source
+    device ``x = V_S ln(d / I)`` for the demand ``d = D0 + B sin(theta)`` of
+    :func:`source_demand`, or, with a pull-up that keeps the sink device on, the sink device
+    ``x = -dV - V_K ln(-d / I)``. The Fourier series of the logarithm is analytic
+    (``ln(1 + m sin) = c + 2 sum (-1)^.. r^n / n cos(n ..)`` with ``m = B / D0``,
+    ``r = (1 - sqrt(1 - m^2)) / m``), so harmonic ``n`` of the stage drop has amplitude
+    ``2 V_S r^n / n``; the loop (integrator at ``omega_t beta``) leaves
     ``n omega / sqrt((n omega)^2 + (omega_t beta)^2)`` of it at the output. The estimate grows
-    without bound as the device nearly cuts off (``m -> 1``: a marginal stage, whose distortion
-    it then underestimates, the loop being no longer linear). Per-part resistors to either rail
-    (``NaN``: none) are added to the design's load, as a fix would be. NaN where the stage
-    changes mode or is biased (class AB / CMOS).
+    without bound as the device nearly cuts off (``m -> 1``: a marginal stage, whose THD comes
+    from the device law in time instead, see :func:`predict_closed_form`). Per-part resistors
+    to either rail (``NaN``: none) are added to the design's load, as a fix would be. NaN where
+    the stage changes mode or is biased (class AB / CMOS).
     """
     n = stage.n
     out = np.full(n, np.nan)
-    a = design.signal_gain * design.signal.amplitude_v
-    amp = abs(a)
+    amp = design.out_amplitude_v
     w = design.omega
-    rn = np.full(n, np.nan) if r_to_neg_ohm is None else np.asarray(r_to_neg_ohm, dtype=float)
-    rp = np.full(n, np.nan) if r_to_pos_ohm is None else np.asarray(r_to_pos_ohm, dtype=float)
     pulldown = stage.has_pulldown
+    if not pulldown.any() or amp <= 0:
+        return np.where(pulldown, 0.0, np.nan) if amp <= 0 else out
+    d0, b = source_demand(stage, design, r_to_neg_ohm=r_to_neg_ohm, r_to_pos_ohm=r_to_pos_ohm)
     k = 2.0 * np.pi * stage.gbw_hz * design.beta
-    keys = np.stack([np.nan_to_num(rn, nan=-1.0), np.nan_to_num(rp, nan=-1.0)], axis=1)
-    for key in np.unique(keys[pulldown], axis=0) if pulldown.any() else []:
-        sel = np.flatnonzero(pulldown & np.all(keys == key, axis=1))
-        r_neg = None if key[0] < 0 else float(key[0])
-        r_pos = None if key[1] < 0 else float(key[1])
-        b = abs(admittance(design, w, r_to_neg_ohm=r_neg, r_to_pos_ohm=r_pos)) * amp
-        i0 = dc_current(design, r_to_neg_ohm=r_neg, r_to_pos_ohm=r_pos)
-        i_st = stage.stage_current_a[sel]
-        src = i_st + i0
-        snk = -i0 - i_st
-        d0 = np.where(src > b, src, np.where(stage.topology[sel] != CLASS_A, snk, np.nan))
-        with np.errstate(divide="ignore", invalid="ignore"):
-            m = np.where(d0 > b, b / d0, np.nan)
-            r = np.where(m > 0, m / (1.0 + np.sqrt(1.0 - m * m)), 0.0)  # (1 - sqrt(1-m^2)) / m
-            # sum over n of (r^n w)^2 / ((n w)^2 + k^2), r^n by repeated products (no pow)
-            r2 = np.where(np.isfinite(r), r * r, 0.0)
-            k2 = k[sel] ** 2
-            rn2 = r2 * r2  # r^(2n) for n = 2
-            acc = np.zeros(sel.size)
-            for order in range(2, n_harmonics + 1):
-                acc += rn2 / ((order * w) ** 2 + k2)
-                rn2 = rn2 * r2
-            e_rms = 2.0 * stage.device_scale_v[sel] * w * np.sqrt(acc)
-            thd_sel = e_rms / amp if amp > 0 else np.zeros(sel.size)
-        out[sel] = np.where(np.isfinite(m), thd_sel, np.nan)
+    sel = np.flatnonzero(pulldown)
+    src = d0[sel]
+    snk = -d0[sel]
+    can_sink = stage.topology[sel] != CLASS_A
+    mean = np.where(src > b[sel], src, np.where(can_sink, snk, np.nan))
+    scale = np.where(src > b[sel], stage.device_scale_v[sel], stage.sink_scale_v[sel])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        m = np.where(mean > b[sel], b[sel] / mean, np.nan)
+        r = np.where(m > 0, m / (1.0 + np.sqrt(1.0 - m * m)), 0.0)  # (1 - sqrt(1-m^2)) / m
+        # sum over n of (r^n w)^2 / ((n w)^2 + k^2), r^n by repeated products (no pow)
+        r2 = np.where(np.isfinite(r), r * r, 0.0)
+        k2 = k[sel] ** 2
+        rn2 = r2 * r2  # r^(2n) for n = 2
+        acc = np.zeros(sel.size)
+        for order in range(2, n_harmonics + 1):
+            acc += rn2 / ((order * w) ** 2 + k2)
+            rn2 = rn2 * r2
+        thd_sel = 2.0 * scale * w * np.sqrt(acc) / amp
+    out[sel] = np.where(np.isfinite(m), thd_sel, np.nan)
+    if input_stage:
+        with np.errstate(over="ignore"):
+            out = np.sqrt(out**2 + _input_stage_thd(stage, design, n_harmonics) ** 2)
+        out = np.where(np.isinf(out), BOUND_CAP, out)
     return out
+
+
+def _input_stage_series(
+    stage: StageParams, design: Design, n_harmonics: int, bound: bool = False
+) -> np.ndarray:
+    """Harmonics (V) of the input stage's slew-induced distortion at the output, (P, H - 1):
+    the drive follows the output's slope; the common mode moves at the input's (a
+    non-inverting stage's input is the output over the gain; an inverting stage's is still),
+    so the tail sees ``gamma_d + gamma_cm / G`` or ``gamma_d`` of the output's slope. For a
+    ``bound`` the rise/fall asymmetry is taken at least :data:`GAMMA_BOUND` (a datasheet's two
+    rates are each uncertain; equal minima do not make a part symmetric)."""
+    sr0, gamma, a_in, _b0 = input_law(
+        stage.gbw_hz, stage.slew_rise_v_per_s, stage.slew_fall_v_per_s
+    )
+    if bound:
+        gamma = np.maximum(np.abs(gamma), GAMMA_BOUND)
+    cm = (
+        1.0 / design.closed_loop.gain
+        if design.closed_loop.configuration == "non-inverting"
+        else 0.0
+    )
+    g_eff = gamma * ((1.0 - GAMMA_CM_SHARE) + GAMMA_CM_SHARE * cm)
+    rate = design.out_amplitude_v * design.omega
+    return input_stage_harmonics(a_in, g_eff, sr0, rate, design.noise_gain, n_harmonics)
+
+
+def _input_stage_thd(stage: StageParams, design: Design, n_harmonics: int) -> np.ndarray:
+    """THD_F (ratio) of the input stage's slew-induced distortion alone (inf: slew-limited)."""
+    amp = design.out_amplitude_v
+    if amp <= 0 or stage.n == 0:
+        return np.zeros(stage.n)
+    es = _input_stage_series(stage, design, n_harmonics)
+    with np.errstate(invalid="ignore"):
+        return np.where(np.isfinite(es).all(axis=1), np.sqrt(np.sum(es * es, axis=1)) / amp, np.inf)
+
+
+def thd_bound(
+    stage: StageParams,
+    design: Design,
+    *,
+    r_to_neg_ohm: np.ndarray | None = None,
+    r_to_pos_ohm: np.ndarray | None = None,
+    n_harmonics: int = DEFAULT_HARMONICS,
+) -> np.ndarray:
+    """Upper bound of THD_F (harmonics 2..H, ratio) of a biased stage, or of a class-A/B stage
+    kept in one mode (NaN for a class-A/B stage that does not stay in one mode with margin).
+
+    Two mechanisms, each as an exact harmonic series over the ideal period (design notes
+    section 10), combined per harmonic by the sum of magnitudes and multiplied by
+    :data:`BOUND_FACTOR`:
+
+    (a) the output devices' gm variation between quiescent and peak current: the stage drop
+        ``x(t)`` of the device law, ``V_X asinh(i / 2 I_q)`` for a biased pair and
+        ``V_S ln(d / I)`` for a follower in one mode (:func:`one_mode_thd`), each harmonic
+        reduced by the loop at its own frequency, ``n omega / sqrt((n omega)^2 + K^2)`` with
+        ``K = omega_t beta`` (the loop gain ``GBW / (G f)`` at ``f``);
+    (b) slew-induced distortion of the input stage: the error the differential pair needs to
+        deliver a fraction ``k = 2 pi f A / SR`` of its tail current
+        (:func:`partsel.physics.distortion.input_stage_harmonics`; it does not depend on the
+        load and dominates at high frequency into light loads).
+
+    Where the output needs more than the slower slew rate (b) has no bound: the figure is then
+    :data:`BOUND_CAP` (100 %), as is any bound above it, and ``ClosedForm.limited_by`` says
+    "slew".
+    """
+    n = stage.n
+    amp = design.out_amplitude_v
+    out = np.full(n, np.nan)
+    if n == 0:
+        return out
+    if amp <= 0:
+        return np.zeros(n)
+    w = design.omega
+    k = 2.0 * np.pi * stage.gbw_hz * design.beta
+    d0, b = source_demand(stage, design, r_to_neg_ohm=r_to_neg_ohm, r_to_pos_ohm=r_to_pos_ohm)
+    dem_lo, dem_hi = d0 - b, d0 + b
+    verdict = conduction_verdict(stage, dem_lo, dem_hi)
+    keep = np.flatnonzero((verdict == "one-mode") | (verdict == "biased"))
+    if keep.size == 0:
+        return out
+    st = stage.take(keep)
+    h = n_harmonics - 1
+    xs = np.zeros((keep.size, h))
+    biased = st.biased
+    i_q = np.nan_to_num(st.stage_current_a)
+    if biased.any():
+        j = np.flatnonzero(biased)
+        xs[j] = translinear_harmonics(
+            st.device_scale_v[j], i_q[j], d0[keep][j], b[keep][j], n_harmonics
+        )
+    fol = np.flatnonzero(~biased)
+    if fol.size:
+        src_mode = d0[keep][fol] > 0
+        mean = np.where(src_mode, d0[keep][fol], -d0[keep][fol])
+        scale = np.where(src_mode, st.device_scale_v[fol], st.sink_scale_v[fol])
+        xs[fol] = device_law_harmonics(scale, mean, b[keep][fol], n_harmonics)
+    xs = np.nan_to_num(xs) * loop_residue(w, k[keep], n_harmonics)
+    es = _input_stage_series(st, design, n_harmonics, bound=True)
+    slewed = ~np.isfinite(es).all(axis=1)
+    tot = xs + np.nan_to_num(es, posinf=0.0)
+    with np.errstate(over="ignore", invalid="ignore"):
+        bound = BOUND_FACTOR * np.sqrt(np.sum(tot * tot, axis=1)) / amp
+    out[keep] = np.where(slewed, BOUND_CAP, np.minimum(bound, BOUND_CAP))
+    return out
+
+
+def _device_law_thd(
+    stage: StageParams, design: Design, idx: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """THD_F and glitch (peak residual, V) of parts ``idx`` from the device law in time: the
+    compiled simulation of :mod:`partsel.physics.simulate` at MARGINAL_STEPS steps per period
+    (marginal stages: no formula holds where a device nearly cuts off)."""
+    from partsel.physics.simulate import simulate
+
+    sim = simulate(
+        stage.take(idx), design, steps_per_period=MARGINAL_STEPS, n_warmup=1, max_warmup=2
+    )
+    return sim.thd_f, sim.residual_peak_v
 
 
 def _window(a: int, b: int, n: int, pad: int = 3, most: int = 24) -> np.ndarray:
@@ -444,6 +717,67 @@ def ideal_grid(design: Design, n: int = GRID) -> tuple[np.ndarray, np.ndarray, n
     return t, design.v_ideal(t), ideal_current(design, t)
 
 
+def _effective_dead_band(
+    dead_band_v: np.ndarray,
+    i_stage: np.ndarray,
+    r_eff: float,
+    slope: np.ndarray,
+    glitch_v: np.ndarray,
+    k_loop: np.ndarray,
+    slew: np.ndarray,
+    v_off: np.ndarray,
+    v_on: np.ndarray,
+) -> np.ndarray:
+    """The drive distance a crossing really covers with exponential device laws, V.
+
+    The dead band ``dV`` separates the drive points where each device carries the stage
+    current ``I``. With a load of resistance ``R`` the device turning off follows the ideal
+    until the drive can no longer keep up with its logarithmic law: ``x = V_off ln(s t / R I)``
+    needs the drive speed ``V_off / t``, i.e. an error ``V_off / (K t)``, which reaches the
+    ideal's own ``s t`` at ``t_0 = sqrt(V_off / (K s))``; the crossing proper starts there, at
+    ``V_off ln(s t_0 / (R I))`` from that device's stage-current point. The deviation stops
+    growing when the output moves as fast as the ideal again: the device turning on moves it
+    at ``R i r / V_on`` for a drive rate ``r = min(K g, SR)``, which equals ``s`` at
+    ``i = s V_on / (R r)``, ``V_on ln(i / I)`` from its point. So the distance is
+    ``dV + V_off ln(s t_0 / R I) + V_on ln(s V_on / (R r I))`` (shorter than ``dV`` for light
+    loads), at least a tenth of ``dV``.
+    """
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        t0 = np.sqrt(v_off / (k_loop * slope))
+        start = v_off * np.log(slope * t0 / (r_eff * i_stage))
+        rate = np.minimum(k_loop * np.maximum(glitch_v, 1e-12), slew)
+        end = v_on * np.log(slope * v_on / (r_eff * rate * i_stage))
+        eff = dead_band_v + np.nan_to_num(start) + np.nan_to_num(end)
+    return np.clip(eff, 0.1 * dead_band_v, None)
+
+
+def _clip_levels(
+    stage: StageParams, design: Design, pulldown: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Depths (V, >= 0) by which the ideal output goes beyond the positive and the negative
+    swing limit at the current flowing there (the headroom curves of the catalogue), taken at
+    the output's peaks: ``max(v_pk - (V+ - h_pos(i_src)), 0)`` and likewise below. The current
+    is the one the load draws at the clip level itself (solved by fixed-point iteration: a
+    clipped output draws less than the ideal would)."""
+    sup = design.supply
+    v0, amp = design.out_bias_v, design.out_amplitude_v
+    rb = resistive_branches(design)
+    ld = design.load
+    g = rb.g_s + (1.0 / ld.r_load_ohm if (ld.r_load_ohm and ld.coupling == "ac") else 0.0)
+    i_s = rb.i_s + (v0 / ld.r_load_ohm if (ld.r_load_ohm and ld.coupling == "ac") else 0.0)
+    i_hi = np.where(pulldown, stage.stage_current_high_a, 0.0)
+    top = np.full(stage.n, v0 + amp)
+    bot = np.full(stage.n, v0 - amp)
+    for _ in range(4):
+        src = np.maximum(g * top - i_s + i_hi, 0.0)
+        top = np.minimum(v0 + amp, sup.v_pos_v - stage.headroom_pos(src))
+        snk = np.maximum(-(g * bot - i_s), 0.0)
+        bot = np.maximum(v0 - amp, sup.v_neg_v + stage.headroom_neg(snk))
+    depth_top = np.nan_to_num(np.maximum(v0 + amp - top, 0.0))
+    depth_bot = np.nan_to_num(np.maximum(bot - (v0 - amp), 0.0))
+    return depth_top, depth_bot
+
+
 def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     """Closed-form predictions of every part of ``stage`` in ``design``."""
     p = stage.n
@@ -458,18 +792,19 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     wt = 2.0 * np.pi * stage.gbw_hz
     wt_beta = wt * design.beta
 
-    # --- conduction: i(t) = I0 + B sin(wt + phi) -----------------------------------------
+    # --- conduction: i(t) = I0 + B sin(wt + phi); source demand d(t) = D0 + B_d sin(..) --------
     y = admittance(design, w)
     i0 = dc_current(design)
     b = abs(y) * amp
     phi = math.atan2(y.imag, y.real) + (math.pi if a < 0 else 0.0)
     i_min, i_max = i0 - b, i0 + b
+    d0, bd = source_demand(stage, design)
+    dem_lo, dem_hi = d0 - bd, d0 + bd
+    verdict = conduction_verdict(stage, dem_lo, dem_hi)
+    handover = verdict == "changes-mode"
+    marginal = verdict == "marginal"
     with np.errstate(invalid="ignore"):
-        handover = pulldown & (i_min < -i_stage)
-        min_src = np.where(
-            pulldown, i_min + i_stage, 0.5 * (i_min + np.sqrt(i_min**2 + 4.0 * i_stage**2))
-        )
-        marginal = pulldown & ~handover & (min_src < MARGINAL_FRACTION * i_stage)
+        min_src = np.where(pulldown, dem_lo, 0.5 * (i_min + np.sqrt(i_min**2 + 4.0 * i_stage**2)))
     crossover_biased = ~pulldown & (i_min < 0) & (i_max > 0)
     level, g_th = thevenin_level(design)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -484,41 +819,63 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     active = handover | crossover_biased
     out_at = np.where(active, v0 + a * np.sin(theta_fall - phi), np.nan)
     phase = np.where(active, np.mod(theta_fall - phi, 2 * np.pi), np.nan)
-    sr_f = stage.slew_fall_v_per_s
-    sr_r = stage.slew_rise_v_per_s
+    # the drive slews through a crossing at the input stage's full rate, its tail current less
+    # the common mode's share of its slope (the input's slope; 0 for an inverting stage)
+    cm_gain = (
+        1.0 / design.closed_loop.gain
+        if design.closed_loop.configuration == "non-inverting"
+        else 0.0
+    )
+    sr_f = drive_slew(
+        stage.gbw_hz, stage.slew_rise_v_per_s, stage.slew_fall_v_per_s, -cm_gain * s_fall, False
+    )
+    sr_r = drive_slew(
+        stage.gbw_hz, stage.slew_rise_v_per_s, stage.slew_fall_v_per_s, cm_gain * s_rise, True
+    )
     # The crossing is modelled against a linearly moving ideal output, which holds for a small
     # part of a period only. A crossing that would last a quarter period or more (a part far
     # too slow for the signal; the slew and bandwidth checks reject it) is taken as lasting a
     # quarter period with the deviation a sine reaches in that time, amp * pi / 2, whatever
-    # the part: the estimate then says "very large" without ranking hopeless parts by noise.
+    # the part: the estimate then says "very large" without ranking hopeless parts by noise,
+    # and limited_by says "bandwidth" (or "slew").
     quarter = 0.25 / design.signal.frequency_hz
     g_cap = amp * np.pi / 2.0
     c_load = design.load.c_load_f
-    _, g_load = thevenin_level(design)
     if c_load <= 0:
         tau_load = 0.0
-    elif g_load > 0:
-        tau_load = c_load / g_load
+    elif g_th > 0:
+        tau_load = c_load / g_th
     else:
         tau_load = np.inf
+    r_eff = 1.0 / g_th if g_th > 0 else np.inf
+    v_src = stage.device_scale_v
+    v_snk = stage.sink_scale_v
     edges_raw = []
-    for s_e, sr_e, psi_e, sign in (
-        (s_fall, sr_f, theta_fall - phi, 1.0),
-        (s_rise, sr_r, theta_rise - phi, -1.0),
+    for s_e, sr_e, psi_e, sign, v_off, v_on in (
+        (s_fall, sr_f, theta_fall - phi, 1.0, v_src, v_snk),
+        (s_rise, sr_r, theta_rise - phi, -1.0, v_snk, v_src),
     ):
         # ideal output's steepening at the handover (falling edge: slope growing more negative)
         accel = np.maximum(sign * a * w * w * np.sin(psi_e), 0.0)
-        tau_e, g_e, capped = _crossing(
-            stage.dead_band_v, s_e, accel, tau_load, wt_beta, sr_e, quarter
-        )
-        edges_raw.append((tau_e, np.where(capped, g_cap, np.minimum(g_e, g_cap)), capped))
-    (tau_f, g_fall, cap_f), (tau_r, g_rise, cap_r) = edges_raw
+        # dead-zone crossing over the distance the exponential laws leave (two passes: the
+        # end of the crossing depends on the glitch it produces)
+        db_eff = stage.dead_band_v
+        for _ in range(2):
+            tau_e, g_e, capped = _crossing(db_eff, s_e, accel, tau_load, wt_beta, sr_e, quarter)
+            db_eff = _effective_dead_band(
+                stage.dead_band_v, i_stage, r_eff, s_e, g_e, wt_beta, sr_e, v_off, v_on
+            )
+        tau_e, g_e, capped = _crossing(db_eff, s_e, accel, tau_load, wt_beta, sr_e, quarter)
+        edges_raw.append((tau_e, np.where(capped, g_cap, np.minimum(g_e, g_cap)), capped, db_eff))
+    (tau_f, g_fall, cap_f, db_f), (tau_r, g_rise, cap_r, db_r) = edges_raw
     glitch = np.maximum(g_fall, g_rise)
     tau = np.where(g_fall >= g_rise, tau_f, tau_r)
+    db_used = np.where(g_fall >= g_rise, db_f, db_r)
     slope = np.where(g_fall >= g_rise, s_fall, s_rise)
     is_a = stage.topology == CLASS_A
     glitch = np.where(handover, glitch, 0.0)
     tau = np.where(handover & ~is_a, tau, 0.0)
+    crossing_capped = handover & ~is_a & (cap_f | cap_r)
     f = design.signal.frequency_hz
     # Class B: the deviation from the ideal is a ramp on each edge (output stuck while the drive
     # crosses the dead band) that the loop then removes at its closed-loop rate omega_t beta, or
@@ -544,20 +901,20 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
                 slope_sel = np.where(tau_sel > 0, g_sel / tau_sel, 0.0)
             edges.append((slope_sel, tau_sel, t_rec))
         thd_est[sel] = _glitch_thd(w, amp, edges)
-    # Biased stages (class AB / CMOS): no dead band, but the stage's incremental resistance
-    # changes near zero current. Bound rather than a precise-looking number: take the whole
-    # stage drop V_x asinh(i_pk / 2 I_q) as nonlinear, suppressed by the loop gain
-    # GBW / (noise gain * f); THD_F <= e_pk / (A / sqrt 2).
-    with np.errstate(divide="ignore", invalid="ignore"):
-        loop_gain = stage.gbw_hz / (design.noise_gain * f)
-        i_pk = max(abs(i_min), abs(i_max))
-        e_pk = stage.device_scale_v * np.arcsinh(i_pk / (2.0 * i_stage)) / loop_gain
-        thd_bound = np.where(amp > 0, e_pk * np.sqrt(2.0) / amp, 0.0)
-    thd_est = np.where(crossover_biased, thd_bound, thd_est)
-    # Class A / B in one mode: the follower's exponential law, reduced by the loop gain.
-    one = pulldown & ~handover
+    # Biased stages and class A/B in one mode: an upper bound (design notes section 10); the
+    # ranking of biased stages uses the bound itself, one-mode followers their device-law
+    # estimate (the Fourier series of the log law).
+    bound = thd_bound(stage, design)
+    one = pulldown & (verdict == "one-mode")
     if one.any():
         thd_est[one] = np.nan_to_num(one_mode_thd(stage.take(np.flatnonzero(one)), design))
+    thd_est = np.where(stage.biased, bound, thd_est)
+    # Marginal: the device law in time (a short compiled simulation of these parts only).
+    marg_idx = np.flatnonzero(marginal)
+    if marg_idx.size:
+        thd_m, glitch_m = _device_law_thd(stage, design, marg_idx)
+        thd_est[marg_idx] = thd_m
+        glitch[marg_idx] = glitch_m
     # Class A: the output flattens at the flat level instead of crossing a dead band.
     clipped = np.flatnonzero(is_a & handover)
     if clipped.size:
@@ -584,6 +941,22 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     src_peak = np.maximum(i_max + np.where(pulldown, i_hi, 0.0), 0.0)
     snk_peak = np.full(p, max(-i_min, 0.0))
 
+    # --- clipping at the swing limits (the current flowing there) ------------------------------
+    clip_top, clip_bot = _clip_levels(stage, design, pulldown)
+    clip_depth = np.maximum(clip_top, clip_bot)
+    thd_clip = np.zeros(p)
+    clipping = clip_depth > 0
+    if clipping.any() and amp > 0:
+        a1, an = clipped_sine_harmonics(
+            1.0 - clip_top[clipping] / amp, 1.0 - clip_bot[clipping] / amp
+        )
+        with np.errstate(divide="ignore", invalid="ignore"):
+            thd_clip[clipping] = np.sqrt(np.sum(an * an, axis=1)) / np.abs(a1)
+        # the clipped part's THD adds to the crossover's (different instants: in power)
+        with np.errstate(over="ignore"):
+            thd_est = np.where(clipping, np.sqrt(thd_est**2 + thd_clip**2), thd_est)
+        bound = np.where(clipping & np.isfinite(bound), bound + thd_clip, bound)
+
     # --- input common mode -------------------------------------------------------------------
     vplus = design.v_plus(t)
     cm_low = float(vplus.min()) - (vneg + stage.cm_headroom_neg_v)
@@ -591,7 +964,7 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
 
     # --- dynamics ---------------------------------------------------------------------------
     slew_req = amp * w
-    sr = np.minimum(sr_r, sr_f)
+    sr = np.minimum(stage.slew_rise_v_per_s, stage.slew_fall_v_per_s)  # datasheet values
     with np.errstate(divide="ignore", invalid="ignore"):
         slew_ratio = np.where(slew_req > 0, sr / slew_req, np.inf)
         fpbw = np.where(amp > 0, sr / (2.0 * np.pi * amp), np.inf)
@@ -604,6 +977,10 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     with np.errstate(divide="ignore", invalid="ignore"):
         cap_ratio = design.load.c_load_f / stage.cap_load_limit_f
     stable = gn >= stage.min_stable_gain * (1 - 1e-9)
+    limited = np.full(p, "", dtype=object)
+    limited[crossing_capped | (f >= f_cl)] = "bandwidth"
+    limited[slew_ratio < 1.0] = "slew"
+    limited[clipping] = "clipping"
     total = sup.total_v
     in_range = (stage.supply_min_v <= total + 1e-9) & (total <= stage.supply_max_v + 1e-9)
 
@@ -625,13 +1002,13 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
         handover=handover,
         marginal=marginal,
         crossover_biased=crossover_biased,
-        flat_level_v=np.where(handover, flat, np.nan),
+        flat_level_v=np.where(handover | marginal, flat, np.nan),
         handover_out_v=out_at,
         handover_phase_rad=phase,
         slope_v_per_s=np.where(active, slope, np.nan),
         handover_time_s=tau,
         glitch_v=glitch,
-        thd_estimate=np.where(handover | crossover_biased | pulldown, thd_est, 0.0),
+        thd_estimate=thd_est,
         swing_pos_margin_v=swing_pos,
         swing_neg_margin_v=swing_neg,
         cm_low_margin_v=cm_low,
@@ -653,4 +1030,14 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
         dissipation_w=p_diss,
         t_junction_c=t_j,
         t_junction_margin_c=stage.junction_max_c - t_j,
+        conduction=verdict,
+        dead_band_eff_v=np.where(handover & ~is_a, db_used, np.nan),
+        source_demand_min_a=np.where(pulldown, dem_lo, np.nan),
+        source_demand_max_a=np.where(pulldown, dem_hi, np.nan),
+        thd_bound=bound,
+        clip_depth_v=clip_depth,
+        clip_top_v=clip_top,
+        clip_bottom_v=clip_bot,
+        thd_clipping=thd_clip,
+        limited_by=limited,
     )

@@ -150,6 +150,12 @@ class Design:
             return self.v_in(t_s)
         return np.full_like(np.asarray(t_s, dtype=float), self.reference_v)
 
+    def v_plus_slope(self, t_s: np.ndarray) -> np.ndarray:
+        """Slope of the non-inverting input (the common-mode input of the loop), V/s."""
+        if self.closed_loop.configuration == "non-inverting":
+            return self.signal.amplitude_v * self.omega * np.cos(self.omega * t_s)
+        return np.zeros_like(np.asarray(t_s, dtype=float))
+
     def v_minus_drive(self, t_s: np.ndarray) -> np.ndarray:
         """Part of the inverting-input voltage not due to the output: v- = this + beta*v_out."""
         beta = self.beta

@@ -22,13 +22,14 @@ from dataclasses import dataclass
 import numpy as np
 
 from partsel.physics import eseries
-from partsel.physics.analysis import ideal_grid
+from partsel.physics.analysis import MARGIN, conduction_verdict, ideal_grid, source_demand
 from partsel.physics.circuit import Design
 from partsel.physics.stage import CLASS_B, StageParams
 
 #: Default margin: the device kept on must still carry half its stage current (partsel's
-#: choice; a stage barely in one mode still distorts, design notes section 4).
-DEFAULT_MARGIN = 0.5
+#: choice; a stage barely in one mode still distorts, design notes section 4). The same band
+#: decides the "marginal" verdict (partsel.physics.analysis.MARGIN).
+DEFAULT_MARGIN = MARGIN
 
 
 @dataclass(frozen=True)
@@ -100,9 +101,9 @@ def size_fix(
     i_st = stage.stage_current_a[:, None]
     i_hi = stage.stage_current_high_a[:, None]
     pulldown = stage.has_pulldown
-    # Needed where the source device would fall below the margin (class A/B).
-    min_src = i.min() + stage.stage_current_a
-    needed = pulldown & (min_src < margin * stage.stage_current_a)
+    # Needed where the stage does not stay in one mode with the margin (the conduction verdict).
+    d0, b = source_demand(stage, design)
+    needed = pulldown & (conduction_verdict(stage, d0 - b, d0 + b, margin) != "one-mode")
 
     def finish(rail: str, r_max: np.ndarray, impossible: np.ndarray) -> RailFix:
         r_max = np.where(needed & ~impossible & np.isfinite(r_max) & (r_max > 0), r_max, np.nan)

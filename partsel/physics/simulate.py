@@ -1,22 +1,25 @@
-"""Time-domain simulation of partsel's amplifier macro-model, vectorised over parts.
+"""Time-domain simulation of partsel's amplifier macro-model, compiled, one part after another.
 
-The macro-model (one channel, all parts at once):
+The macro-model (one channel, every part):
 
 * error at the inputs ``e = v_plus - v_minus`` with ``v_minus = beta * v_out + v_md`` (the
   feedback network);
-* a slew-limited integrator drives the internal node:
-  ``dv_drive/dt = clip(omega_t * e, -SR_fall, +SR_rise)``, ``omega_t = 2 pi GBW``;
-* the output stage of :mod:`partsel.physics.stage` (dead-zone followers with pull-down or bias
-  current, current limits, swing limits) feeds the output node;
+* the input stage (a degenerated differential pair, :mod:`partsel.physics.stage`) drives the
+  internal node at ``omega_t e`` for small errors (``omega_t = 2 pi GBW``) and at the slew rate
+  (rising or falling) when fully switched, with the pair's tanh law in between;
+* the output stage of :mod:`partsel.physics.stage`: a Darlington source follower whose base
+  node is a state, a PNP sink follower behind the dead band, a pull-down current source with
+  finite output resistance (class A / B), or a biased translinear pair (class AB / CMOS);
+  current limits and swing limits at the current flowing;
 * the load network of :mod:`partsel.physics.loading` as an ODE (coupling capacitor state,
   load capacitance).
 
-Integration is backward Euler on the drive node and on the load capacitance, so the time step
-need not resolve the closed-loop pole; at each step the output-node equation is monotonic in
-``v_out`` and is solved for all parts at once with a bracketing (Illinois) iteration. The
-coupling capacitor starts at its linear periodic steady state and is corrected after each
-warm-up period (shooting on the periodicity condition: zero mean current through it). The last
-``n_record`` periods are kept and analysed with coherent sampling.
+Integration is backward Euler at a fixed step in :mod:`partsel.physics.stepper` (numba), so the
+step need not resolve the closed-loop pole nor the Darlington node; each step is a scalar Newton
+solve. The coupling capacitor starts at its linear periodic steady state and is corrected after
+each warm-up period (shooting on the periodicity condition: zero mean current through it); each
+part warms up until it has settled, then ``n_record`` periods are kept and analysed with
+coherent sampling.
 """
 
 from __future__ import annotations
@@ -26,15 +29,26 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from partsel.physics import stepper_layout as _st
 from partsel.physics.circuit import Design
-from partsel.physics.loading import resistive_branches
+from partsel.physics.loading import ideal_current, resistive_branches
 from partsel.physics.spectrum import DEFAULT_HARMONICS, harmonic_amplitudes, thd
-from partsel.physics.stage import CLASS_A, V_EARLY_PULLDOWN, StageParams, pwl_with_slope
+from partsel.physics.stage import (
+    CLASS_A,
+    CLASS_B,
+    DARLINGTON_BETA,
+    DARLINGTON_C_E,
+    GAMMA_CM_SHARE,
+    V_T,
+    StageParams,
+    input_law,
+    pulldown_law,
+)
 
 #: Fraction of the stage current below which the source device counts as cut off.
 CUTOFF_FRACTION = 0.1
-#: Fraction of the stage current below which a stage still in source mode counts as marginal.
-MARGINAL_FRACTION = 0.5
+#: From this many parts on, the parts are spread over the CPU's cores (numba prange).
+PARALLEL_PARTS = 64
 
 
 @dataclass(frozen=True)
@@ -56,10 +70,18 @@ class SimResult:
     residual_peak_v: np.ndarray  #: (P,) peak of v_out minus its DC and fundamental, V
     deviation_peak_v: np.ndarray  #: (P,) peak |v_out - v_ideal|, V
     min_source_a: np.ndarray  #: (P,) smallest source-device current over the period, A
-    handover: np.ndarray  #: (P,) bool: the stage changed conduction mode
+    handover: np.ndarray
+    """(P,) bool: the stage changed conduction mode (class B: the sink device took over;
+    class A: the source device cut off); never for class AB / CMOS, see crossover_biased."""
     handover_level_v: np.ndarray  #: (P,) output level at the first handover instant, V
     handover_time_s: np.ndarray  #: (P,) time of the first handover in the record, s
     unconverged: np.ndarray  #: (P,) bool: the output-node solve missed its tolerance somewhere
+    handover_edges_s: np.ndarray
+    """(P, 2) times of the hand-over (source device to sink device or to the load alone) and of
+    the hand-back in the record, s; NaN where none (biased stages never hand over)."""
+    handover_edge_levels_v: np.ndarray  #: (P, 2) output level at those instants, V
+    crossover_biased: np.ndarray  #: (P,) bool: class AB / CMOS output current changes sign
+    warmup_periods: np.ndarray  #: (P,) warm-up periods each part ran before the record
 
 
 def default_steps(stage: StageParams, design: Design) -> int:
@@ -87,6 +109,111 @@ def _as_part_array(value: float | np.ndarray | None, n: int) -> np.ndarray:
     return np.where(np.isnan(arr), np.inf, arr)
 
 
+def part_matrix(
+    stage: StageParams,
+    design: Design,
+    r_to_neg_ohm: np.ndarray | None = None,
+    r_to_pos_ohm: np.ndarray | None = None,
+) -> np.ndarray:
+    """Per-part constants of the stepper, shape (P, stepper.N_PARAMS) (one formula for every
+    topology; see :mod:`partsel.physics.stage`). Used by simulate() and the SPICE deck."""
+    p = stage.n
+    sup = design.supply
+    vpos, vneg = sup.v_pos_v, sup.v_neg_v
+    topo = stage.topology
+    pulldown = stage.has_pulldown
+    i_stage = np.nan_to_num(stage.stage_current_a, nan=0.0)
+    db = np.nan_to_num(stage.dead_band_v, nan=0.0)
+    m = np.zeros((p, _st.N_PARAMS))
+    m[:, _st.P_TOPO] = np.select(
+        [topo == CLASS_B, topo == CLASS_A], [_st.T_CLASS_B, _st.T_CLASS_A], _st.T_BIASED
+    )
+    m[:, _st.P_I_STAGE] = i_stage
+    m[:, _st.P_I_SRC0] = i_stage
+    m[:, _st.P_I_SNK0] = np.where(topo == CLASS_A, 0.0, i_stage)
+    m[:, _st.P_LIM_SRC] = np.nan_to_num(stage.source_limit_a, nan=np.inf)
+    m[:, _st.P_LIM_SNK] = np.nan_to_num(stage.sink_limit_a, nan=np.inf)
+    m[:, _st.P_DB] = db
+    m[:, _st.P_VS_SRC] = 1.0 / stage.device_scale_v
+    m[:, _st.P_VS_SNK] = 1.0 / stage.sink_scale_v
+    with np.errstate(divide="ignore", invalid="ignore"):
+        k_e = np.where(pulldown, i_stage / (DARLINGTON_BETA * DARLINGTON_C_E), 0.0)
+    m[:, _st.P_K_E] = k_e
+    m[:, _st.P_INV_BETA_D] = 1.0 / DARLINGTON_BETA
+    wt = 2.0 * np.pi * stage.gbw_hz
+    m[:, _st.P_WT] = wt
+    sr0, gamma, a, b0 = input_law(
+        stage.gbw_hz,
+        np.nan_to_num(stage.slew_rise_v_per_s, nan=np.inf),
+        np.nan_to_num(stage.slew_fall_v_per_s, nan=np.inf),
+    )
+    m[:, _st.P_SR0] = sr0
+    m[:, _st.P_GAMMA] = (1.0 - GAMMA_CM_SHARE) * gamma
+    m[:, _st.P_GAMMA_CM] = GAMMA_CM_SHARE * gamma
+    m[:, _st.P_A] = a
+    m[:, _st.P_B0] = b0
+    pd_const, pd_slope = pulldown_law(np.where(pulldown, i_stage, 0.0), vpos, vneg)
+    m[:, _st.P_PD_CONST] = pd_const
+    m[:, _st.P_PD_SLOPE] = pd_slope
+    rb = resistive_branches(design)
+    rn = _as_part_array(r_to_neg_ohm, p)
+    rp = _as_part_array(r_to_pos_ohm, p)
+    m[:, _st.P_G_S] = rb.g_s + 1.0 / rn + 1.0 / rp
+    m[:, _st.P_I_S] = rb.i_s + vneg / rn + vpos / rp
+    m[:, _st.P_DRIVE_LO] = vneg - db - 1.0
+    m[:, _st.P_DRIVE_HI] = vpos + 1.0
+    m[:, _st.P_V_CAP0] = coupling_start(design)
+    # Start in the DC state of the device laws for the current the load draws at t = 0 (the
+    # output on its ideal value): drive x0 and Darlington base node y0 (its DC point x0 / 2).
+    v0 = float(design.v_ideal(np.array([0.0]))[0])
+    i_out0 = float(ideal_current(design, np.array([0.0]))[0])
+    i_out0 = i_out0 + (v0 - vneg) / rn + (v0 - vpos) / rp
+    demand = i_out0 + pd_const + pd_slope * v0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        safe = np.where(i_stage > 0, i_stage, 1.0)
+        u = demand / safe
+        x_src = 2.0 * V_T * np.log(np.maximum(u, 1e-12))
+        x_snk = -db - V_T * np.log(np.maximum(-u, 1e-12))
+        x_biased = stage.device_scale_v * np.arcsinh(u / 2.0)
+    x0 = np.where(pulldown, np.where((u > 0) | (topo == CLASS_A), x_src, x_snk), x_biased)
+    x0 = np.clip(np.nan_to_num(x0), vneg - db - 1.0 - v0, vpos + 1.0 - v0)
+    m[:, _st.P_X0] = x0
+    m[:, _st.P_Y0] = np.where(pulldown, 0.5 * x0, 0.0)
+    # Headroom beyond which a swing curve cannot bind: where it offers more current than the
+    # device limit (or 1 A), plus 0.1 V of room for the output's move within a step.
+    with np.errstate(invalid="ignore"):
+        big_p = np.minimum(np.nan_to_num(stage.source_limit_a, nan=1.0), 1.0)
+        big_n = np.minimum(np.nan_to_num(stage.sink_limit_a, nan=1.0) + 2.0 * i_stage, 1.0)
+        h_p = stage.headroom_pos(big_p)
+        h_n = stage.headroom_neg(big_n)
+    m[:, _st.P_H_FAR_POS] = np.where(np.isfinite(h_p), np.maximum(h_p, 0.0) + 0.1, np.inf)
+    m[:, _st.P_H_FAR_NEG] = np.where(np.isfinite(h_n), np.maximum(h_n, 0.0) + 0.1, np.inf)
+    return m
+
+
+def coupling_start(design: Design) -> float:
+    """Start voltage of the coupling capacitor (output side minus load side): the linear
+    periodic steady state, V (0 without an AC-coupled load)."""
+    ld = design.load
+    if not (ld.r_load_ohm is not None and ld.coupling == "ac"):
+        return 0.0
+    r_l = float(ld.r_load_ohm)
+    c_c = float(ld.c_couple_f or np.inf)
+    a_sig = design.signal_gain * design.signal.amplitude_v
+    h = 1.0 / (1.0 + 1j * design.omega * r_l * c_c)
+    return float(design.out_bias_v - ld.reference_v + float(np.imag(a_sig * h)))
+
+
+def _curves(stage: StageParams) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """Inverse swing curves (headroom -> current) as contiguous (P, K) arrays."""
+    return (
+        np.ascontiguousarray(stage.swing_pos_v, dtype=float),
+        np.ascontiguousarray(stage.swing_pos_i_a, dtype=float),
+        np.ascontiguousarray(stage.swing_neg_v, dtype=float),
+        np.ascontiguousarray(stage.swing_neg_i_a, dtype=float),
+    )
+
+
 def simulate(
     stage: StageParams,
     design: Design,
@@ -100,23 +227,22 @@ def simulate(
     r_to_pos_ohm: float | np.ndarray | None = None,
     n_harmonics: int = DEFAULT_HARMONICS,
     iterations: int = 4,
-    max_iterations: int = 60,
+    max_iterations: int = 200,
     tol_v: float = 1e-7,
 ) -> SimResult:
     """Simulate all parts of ``stage`` in ``design`` and analyse the last periods.
 
     ``r_to_neg_ohm`` / ``r_to_pos_ohm`` (scalar or one per part) add resistors from the output
-    to a rail on top of the design's own (the fix under test).
+    to a rail on top of the design's own (the fix under test). Each part runs at least
+    ``n_warmup`` and at most ``max_warmup`` warm-up periods (until its output and drive repeat
+    within ``settle_v`` from one period to the next), then ``n_record`` recorded periods.
+    ``tol_v`` is the Newton tolerance of the output node (V) and ``max_iterations`` its
+    iteration limit per step (a step that misses it is retried once from the last state and
+    counted in ``unconverged``); ``iterations`` is accepted for compatibility and unused (the
+    Newton solve stops at its tolerance).
     """
+    del iterations
     p = stage.n
-
-    def stage_pos_curve(h: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Available source current and its slope d i / d headroom at headroom ``h``."""
-        return pwl_with_slope(h, stage.swing_pos_v, stage.swing_pos_i_a)
-
-    def stage_neg_curve(h: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        return pwl_with_slope(h, stage.swing_neg_v, stage.swing_neg_i_a)
-
     sup = design.supply
     vpos, vneg = sup.v_pos_v, sup.v_neg_v
     f = design.signal.frequency_hz
@@ -125,201 +251,45 @@ def simulate(
     n_harm = min(n_harmonics, n // 2 - 1)
     dt = period / n
     max_warmup = max(max_warmup, n_warmup)
-
-    # --- part parameters (one formula for every topology; see partsel.physics.stage) --------
-    topo = stage.topology
-    pulldown = stage.has_pulldown
-    i_stage = np.nan_to_num(stage.stage_current_a, nan=0.0)
-    inv_vs = 1.0 / stage.device_scale_v
-    db = np.nan_to_num(stage.dead_band_v, nan=0.0)
-    i_src0 = i_stage
-    i_snk0 = np.where(topo == CLASS_A, 0.0, i_stage)  # class A has no sink device
-    i_pd0 = np.where(pulldown, i_stage, 0.0)  # internal pull-down / sink-bias source
-    lim_src = np.nan_to_num(stage.source_limit_a, nan=np.inf)
-    lim_snk = np.nan_to_num(stage.sink_limit_a, nan=np.inf)
-    wt = 2.0 * np.pi * stage.gbw_hz
-    sr_r = np.nan_to_num(stage.slew_rise_v_per_s, nan=np.inf)
-    sr_f = np.nan_to_num(stage.slew_fall_v_per_s, nan=np.inf)
-    beta = design.beta
-    v_mid = 0.5 * (vpos + vneg)
-    drive_lo = vneg - db - 1.0
-    drive_hi = vpos + 1.0
-    pd_slope = i_pd0 / V_EARLY_PULLDOWN
-    pd_const = i_pd0 - pd_slope * v_mid
-
-    # --- load network -------------------------------------------------------------------------
+    prm = part_matrix(
+        stage,
+        design,
+        None if r_to_neg_ohm is None else _as_part_array(r_to_neg_ohm, p),
+        None if r_to_pos_ohm is None else _as_part_array(r_to_pos_ohm, p),
+    )
     ld = design.load
-    rb = resistive_branches(design)
-    rn = _as_part_array(r_to_neg_ohm, p)
-    rp = _as_part_array(r_to_pos_ohm, p)
-    g_s = rb.g_s + 1.0 / rn + 1.0 / rp
-    i_s = rb.i_s + vneg / rn + vpos / rp
     ac = ld.r_load_ohm is not None and ld.coupling == "ac"
     r_l = float(ld.r_load_ohm) if ac else np.inf
     c_c = float(ld.c_couple_f or np.inf) if ac else np.inf
-    v_ref_l = ld.reference_v
-    c_l = ld.c_load_f
-    g_tot = g_s + c_l / dt + (1.0 / r_l if ac else 0.0)
-    a_sig = design.signal_gain * design.signal.amplitude_v
-    w = design.omega
-    if ac:
-        h = 1.0 / (1.0 + 1j * w * r_l * c_c)
-        v_cap = np.full(p, design.out_bias_v - v_ref_l + float(np.imag(a_sig * h)))
-    else:
-        v_cap = np.zeros(p)
-
-    # Input drive for every step of a period (the drive is periodic and the steps align).
+    # Input drive at the end of every step of a period (the drive is periodic and steps align).
     t_all = (np.arange(n) + 1) * dt
-    drive_in = design.v_plus(t_all) - design.v_minus_drive(t_all)
-
-    # --- state ------------------------------------------------------------------------------------
-    v = np.full(p, float(design.v_ideal(np.array([0.0]))[0]))
-    vd = v.copy()
-    v_old = v.copy()
+    c_in = np.ascontiguousarray(design.v_plus(t_all) - design.v_minus_drive(t_all), dtype=float)
+    cm_rate = np.ascontiguousarray(design.v_plus_slope(t_all), dtype=float)
+    v_start = float(design.v_ideal(np.array([0.0]))[0])
     rec_n = n * n_record
-    rec = {k: np.empty((rec_n, p)) for k in ("v", "vd", "io", "isrc", "isnk", "ipd")}
-    i_cap_sum = np.zeros(p)
-    unconverged = np.zeros(p, dtype=bool)
-    shoot_prev: tuple[np.ndarray, np.ndarray] | None = None
-    shoot_ok = np.zeros(p, dtype=bool)  # shoot_prev holds a usable point for this part
-    settled = np.zeros(p, dtype=bool)
-    period_start = (v.copy(), vd.copy())
-    n_warm_done = 0
-    recording = False
-    k_total = 0
-    j = -1
+    out = np.empty((p, 6, rec_n))
+    flags = np.zeros((p, 3), dtype=np.int64)
+    pos_h, pos_i, neg_h, neg_i = _curves(stage)
+    from partsel.physics import stepper  # numba: loaded when a simulation runs, not before
 
-    while True:
-        for k in range(n):
-            k_total += 1
-            # Per-step constants.
-            c_rate = wt * drive_in[k]
-            base = vd
-            i_const = i_s + c_l * v / dt + ((v_cap + v_ref_l) / r_l if ac else 0.0)
-            # Swing limits linearised around the last output level (one segment per step).
-            ap, sp = stage_pos_curve(vpos - v)
-            an, sn = stage_neg_curve(v - vneg)
-            kp = ap + sp * v  # avail_pos(vo) = kp - sp * vo
-            kn = an - sn * (v - vneg)  # avail_neg(vo) = kn + sn * (vo - vneg)
-
-            def drive(vo: np.ndarray) -> np.ndarray:
-                """Drive node at the end of the step: slew-limited integrator, clamped."""
-                rate = np.clip(c_rate - (wt * beta) * vo, -sr_f, sr_r)
-                return np.clip(base + dt * rate, drive_lo, drive_hi)
-
-            def devices(x: np.ndarray, vo: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-                """Source, sink and pull-down currents at drive - output ``x`` and output
-                ``vo`` (device laws of partsel.physics.stage, swing limits of this step)."""
-                avail_pos = np.maximum(kp - sp * vo, 0.0)
-                avail_neg = np.maximum(kn + sn * (vo - vneg), 0.0)
-                i_src = np.minimum(
-                    np.minimum(i_src0 * np.exp(np.minimum(x * inv_vs, 60.0)), lim_src), avail_pos
-                )
-                i_pd = np.minimum(pd_const + pd_slope * vo, avail_neg)
-                e_snk = np.exp(np.minimum((-x - db) * inv_vs, 60.0))
-                i_snk = np.minimum(
-                    np.minimum(i_snk0 * e_snk, lim_snk), np.maximum(avail_neg - i_pd, 0.0)
-                )
-                return i_src, i_snk, i_pd
-
-            def resid(vo: np.ndarray) -> np.ndarray:
-                i_src, i_snk, i_pd = devices(drive(vo) - vo, vo)
-                return i_src - i_snk - i_pd - (g_tot * vo - i_const)
-
-            # Bracket around the linear extrapolation of the last two steps.
-            v_pred = 2.0 * v - v_old
-            width = 0.1 * np.abs(v - v_old) + 2e-6  # extrapolation is good to second order
-            lo = v_pred - width
-            hi = v_pred + width
-            flo = resid(lo)
-            fhi = resid(hi)
-            for _ in range(12):
-                below = flo < 0  # root below lo (F is decreasing)
-                above = fhi > 0  # root above hi
-                if not (below.any() or above.any()):
-                    break
-                width = width * 8.0
-                hi = np.where(below, lo, hi)
-                fhi = np.where(below, flo, fhi)
-                lo = np.where(above, hi, lo)
-                flo = np.where(above, fhi, flo)
-                lo = np.where(below, lo - width, lo)
-                hi = np.where(above, hi + width, hi)
-                flo = np.where(below, resid(lo), flo)
-                fhi = np.where(above, resid(hi), fhi)
-            # Illinois (modified regula falsi) on a decreasing function, F(lo) >= 0 >= F(hi),
-            # iterated until every part's bracket is below tol_v (bisection every 4th step
-            # guarantees progress), at most max_iterations.
-            side = np.zeros(p)
-            for it in range(max_iterations):
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    c = lo + flo * (hi - lo) / (flo - fhi)
-                if it % 4 == 3:
-                    c = 0.5 * (lo + hi)
-                c = np.where((c > lo) & (c < hi), c, 0.5 * (lo + hi))
-                fc = resid(c)
-                up = fc > 0
-                lo = np.where(up, c, lo)
-                hi = np.where(up, hi, c)
-                flo = np.where(up, fc, np.where(side < 0, 0.5 * flo, flo))
-                fhi = np.where(up, np.where(side > 0, 0.5 * fhi, fhi), fc)
-                side = np.where(up, 1.0, -1.0)
-                if it + 1 >= iterations and float(np.max(hi - lo)) < tol_v:
-                    break
-            else:
-                unconverged |= (hi - lo) >= tol_v
-            with np.errstate(divide="ignore", invalid="ignore"):
-                v_new = lo + flo * (hi - lo) / (flo - fhi)
-            v_new = np.where((v_new >= lo) & (v_new <= hi), v_new, 0.5 * (lo + hi))
-            v_old = v
-            v = v_new
-            vd = drive(v)
-            if ac:
-                i_c = (v - v_cap - v_ref_l) / r_l
-                v_cap = v_cap + dt * i_c / c_c
-                i_cap_sum += i_c
-            if recording:
-                j += 1
-                i_src, i_snk, i_pd = devices(vd - v, v)
-                rec["v"][j] = v
-                rec["vd"][j] = vd
-                rec["io"][j] = i_src - i_snk - i_pd
-                rec["isrc"][j] = i_src
-                rec["isnk"][j] = i_snk
-                rec["ipd"][j] = i_pd
-        # ---- end of a period -------------------------------------------------------------
-        if recording:
-            if j + 1 >= rec_n:
-                break
-            continue
-        n_warm_done += 1
-        change = np.maximum(np.abs(v - period_start[0]), np.abs(vd - period_start[1]))
-        loop_settled = change < 1e-3
-        if ac:
-            # Shooting on the periodicity condition: zero mean coupling-capacitor current, for
-            # parts whose own loop has settled (a slew-limited loop settles over several periods
-            # and would spoil the estimate). First step d(mean i)/d(v_cap) = -1/R_L, then secant.
-            mean_i = i_cap_sum / n
-            start = v_cap - dt * i_cap_sum / c_c
-            slope = np.full(p, -1.0 / r_l)
-            if shoot_prev is not None:
-                dv = start - shoot_prev[0]
-                with np.errstate(divide="ignore", invalid="ignore"):
-                    sec = (mean_i - shoot_prev[1]) / dv
-                good = shoot_ok & (np.abs(dv) > 1e-12) & (sec < -0.02 / r_l)
-                slope = np.where(good, sec, slope)
-            shoot_prev = (start, mean_i)
-            shoot_ok = loop_settled
-            v_cap = np.where(loop_settled, start - mean_i / slope, v_cap)
-            i_cap_sum[:] = 0.0
-            settled = (change < settle_v) & (np.abs(mean_i) * r_l < settle_v)
-        else:
-            settled = change < settle_v
-        period_start = (v.copy(), vd.copy())
-        if n_warm_done >= n_warmup and (settled.all() or n_warm_done >= max_warmup):
-            recording = True
-            n_warm_rec = n_warm_done
-    rec = {key: val.T.copy() for key, val in rec.items()}
+    runner = stepper.run_parallel if p >= PARALLEL_PARTS else stepper.run
+    runner(
+        prm, pos_h, pos_i, neg_h, neg_i, c_in, cm_rate, v_start, V_T, design.beta, dt, vpos, vneg,
+        float(ld.c_load_f), ac, r_l, c_c, float(ld.reference_v), int(n_warmup),
+        int(max_warmup), float(settle_v), int(n_record), float(tol_v), int(max_iterations),
+        out, flags,
+    )  # fmt: skip
+    unconverged = flags[:, 0] > 0
+    n_warm_rec = int(flags[:, 1].max()) if p else n_warmup
+    rec = {
+        "v": out[:, 0],
+        "vd": out[:, 1],
+        "io": out[:, 2],
+        "isrc": out[:, 3],
+        "isnk": out[:, 4],
+        "ipd": out[:, 5],
+    }
+    pulldown = stage.has_pulldown
 
     t_rec = (np.arange(rec_n) + 1) * dt + n * n_warm_rec * dt
     v_id = design.v_ideal(t_rec)
@@ -336,23 +306,16 @@ def simulate(
     deviation = np.max(np.abs(v_out - v_id[None, :]), axis=1)
 
     i_src_rec = rec["isrc"]
+    i_snk_rec = rec["isnk"]
     min_src = i_src_rec.min(axis=1)
-    with np.errstate(invalid="ignore"):
-        if pulldown.any():
-            cut = i_src_rec < CUTOFF_FRACTION * i_stage[:, None]
-        else:
-            cut = np.zeros_like(i_src_rec, dtype=bool)
-        # Biased stages: "mode change" = the output current changes sign.
-        io = rec["io"]
-        sign_change = (io.max(axis=1) > 0) & (io.min(axis=1) < 0)
-    # A handover is a change of conduction mode within the period (a stage held in one mode
-    # all period, e.g. sink mode by a resistor to V+, does not hand over).
-    handover = np.where(pulldown, cut.any(axis=1) & (~cut).any(axis=1), sign_change)
-    on_off = np.diff(cut.astype(np.int8), axis=1, prepend=cut[:, -1:].astype(np.int8)) > 0
-    sign_flip = np.diff(np.sign(io), axis=1, prepend=np.sign(io[:, -1:])) != 0
-    first = np.argmax(np.where(pulldown[:, None], on_off, sign_flip), axis=1)
-    level = np.where(handover, v_out[np.arange(p), first], np.nan)
-    when = np.where(handover, t_rec[first], np.nan)
+    edges_t, edges_v = _handover_edges(stage, i_src_rec, i_snk_rec, v_out, t_rec)
+    handover = np.isfinite(edges_t).any(axis=1)
+    io = rec["io"]
+    crossover_biased = ~pulldown & (io.max(axis=1) > 0) & (io.min(axis=1) < 0)
+    first = np.argmin(np.where(np.isfinite(edges_t), edges_t, np.inf), axis=1)
+    rows = np.arange(p)
+    level = np.where(handover, edges_v[rows, first], np.nan)
+    when = np.where(handover, edges_t[rows, first], np.nan)
     return SimResult(
         t_s=t_rec,
         v_ideal=v_id,
@@ -373,4 +336,42 @@ def simulate(
         handover_level_v=level,
         handover_time_s=when,
         unconverged=unconverged,
+        handover_edges_s=edges_t,
+        handover_edge_levels_v=edges_v,
+        crossover_biased=crossover_biased,
+        warmup_periods=flags[:, 1].copy(),
     )
+
+
+def _handover_edges(
+    stage: StageParams,
+    i_src: np.ndarray,
+    i_snk: np.ndarray,
+    v_out: np.ndarray,
+    t_rec: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Times (s) and output levels (V) of the handovers in the record, shape (P, 2): column 0
+    the hand-over from the source device (class B: the sink device starts to carry more than
+    CUTOFF_FRACTION of the stage current; class A: the source device falls below it, the load
+    alone holding the output), column 1 the hand-back (the source device carries it again).
+    NaN where it does not happen, and for biased stages (both devices stay on)."""
+    p = i_src.shape[0]
+    t_out = np.full((p, 2), np.nan)
+    v_at = np.full((p, 2), np.nan)
+    thr = (CUTOFF_FRACTION * np.nan_to_num(stage.stage_current_a, nan=0.0))[:, None]
+    topo = stage.topology
+    with np.errstate(invalid="ignore"):
+        src_on = i_src >= thr
+        away = np.where((topo == CLASS_B)[:, None], i_snk >= thr, ~src_on)
+    # a mode change needs both states within the period; edges are the up-steps of each
+    # state on the periodic record (wrapping round from the last sample to the first)
+    for col, state in ((0, away), (1, src_on)):
+        prev = np.roll(state, 1, axis=1)
+        up = state & ~prev
+        has = up.any(axis=1) & (~state).any(axis=1) & stage.has_pulldown
+        has &= away.any(axis=1) & src_on.any(axis=1)
+        k = np.argmax(up, axis=1)
+        rows = np.flatnonzero(has)
+        t_out[rows, col] = t_rec[k[rows]]
+        v_at[rows, col] = v_out[rows, k[rows]]
+    return t_out, v_at

@@ -5,11 +5,17 @@ The deck is plain SPICE3 with ngspice behavioural sources (B-sources with ``exp`
 continuous-time model that :func:`partsel.physics.simulate.simulate` integrates:
 
 * feedback error ``e = v_plus - v_md - beta * v_out`` (:class:`~partsel.physics.circuit.Design`);
-* drive node: a capacitor ``C_drv`` charged by ``C_drv * clip(omega_t * e, -SR_fall, SR_rise)``
-  (so ``dv_drive/dt`` is the slew-clipped integrator), held inside ``[drive_lo, drive_hi]`` by a
-  stiff clamp current (overshoot at most :data:`CLAMP_OVERSHOOT_V` at the fastest rate);
+* input stage: a node ``nz`` holding the stage's state ``z``, fixed by the algebraic constraint
+  ``a z + b_0 t / (1 + gamma t) = e`` with ``t = tanh(z)`` (a B-source current that only that
+  root makes zero; see :mod:`partsel.physics.stage`);
+* drive node: a capacitor ``C_drv`` charged by ``C_drv * SR_0 t / (1 + gamma t)`` (so
+  ``dv_drive/dt`` is the input stage's rate), held inside ``[drive_lo, drive_hi]`` by a stiff
+  clamp current (overshoot at most :data:`CLAMP_OVERSHOOT_V` at the fastest rate); a part
+  without slew rate has the linear rate ``omega_t e`` instead;
+* class A / B: the Darlington base node ``y`` as a capacitor ``C_e`` charged by
+  ``(I / beta_D) (exp((x - y) / V_T) - exp(y / V_T))``;
 * output node: B-source currents of the source device, the sink device and the internal
-  pull-down with the device laws, current limits, ``exp`` argument cap (60) and Early voltage of
+  pull-down with the device laws, current limits, ``exp`` argument cap (60) and Early effect of
   :mod:`partsel.physics.stage`, each capped by the current available at the present headroom
   (the swing curves as piecewise-linear functions of headroom, written as nested ternaries with
   the same segment choice and linear extrapolation as :func:`partsel.physics.stage.pwl`);
@@ -37,9 +43,10 @@ from collections.abc import Sequence
 
 import numpy as np
 
+from partsel.physics import stepper_layout as _st
 from partsel.physics.circuit import Design
-from partsel.physics.simulate import default_steps
-from partsel.physics.stage import CLASS_A, TOPOLOGIES, V_EARLY_PULLDOWN, StageParams
+from partsel.physics.simulate import coupling_start, default_steps, part_matrix
+from partsel.physics.stage import DARLINGTON_C_E, TOPOLOGIES, V_T, StageParams
 
 __all__ = ["C_DRIVE_F", "DATA_COLUMNS", "DEFAULT_DATA_FILE", "pwl_expression", "spice_deck"]
 
@@ -178,41 +185,48 @@ def spice_deck(
     dt = period / n
     t_stop = periods * period
 
-    # Same parameters as simulate() (one formula for every topology).
-    vs = one(st.device_scale_v)
-    db = float(np.nan_to_num(st.dead_band_v[0], nan=0.0))
-    i_src0 = i_stage
-    i_snk0 = 0.0 if topo == CLASS_A else i_stage
-    i_pd0 = i_stage if bool(st.has_pulldown[0]) else 0.0
-    lim_src = float(np.nan_to_num(st.source_limit_a[0], nan=np.inf))
-    lim_snk = float(np.nan_to_num(st.sink_limit_a[0], nan=np.inf))
+    # Same parameters as simulate() (one formula for every topology: simulate.part_matrix).
+    m = part_matrix(
+        st,
+        design,
+        None if r_to_neg_ohm is None else np.array([r_to_neg_ohm], dtype=float),
+        None if r_to_pos_ohm is None else np.array([r_to_pos_ohm], dtype=float),
+    )[0]
+    topo_code = int(m[_st.P_TOPO])
+    darlington = topo_code != _st.T_BIASED
+    db = float(m[_st.P_DB])
+    i_src0 = float(m[_st.P_I_SRC0])
+    i_snk0 = float(m[_st.P_I_SNK0])
+    i_pd0 = i_stage if darlington else 0.0
+    lim_src = float(m[_st.P_LIM_SRC])
+    lim_snk = float(m[_st.P_LIM_SNK])
     wt = 2.0 * math.pi * gbw
-    sr_r = float(np.nan_to_num(st.slew_rise_v_per_s[0], nan=np.inf))
-    sr_f = float(np.nan_to_num(st.slew_fall_v_per_s[0], nan=np.inf))
+    sr0 = float(m[_st.P_SR0])
+    gam = float(m[_st.P_GAMMA])
+    gam_cm = float(m[_st.P_GAMMA_CM])
+    a_in = float(m[_st.P_A])
+    b0_in = float(m[_st.P_B0])
+    sr_r = sr0 / (1.0 + gam + gam_cm)  # the follower's slew rates (largest drive rates)
+    sr_f = sr0 / (1.0 - gam - gam_cm)
     beta = design.beta
-    v_mid = 0.5 * (vpos + vneg)
-    drive_lo = vneg - db - 1.0
-    drive_hi = vpos + 1.0
-    pd_slope = i_pd0 / V_EARLY_PULLDOWN
-    pd_const = i_pd0 - pd_slope * v_mid
+    drive_lo = float(m[_st.P_DRIVE_LO])
+    drive_hi = float(m[_st.P_DRIVE_HI])
+    pd_slope = float(m[_st.P_PD_SLOPE])
+    pd_const = float(m[_st.P_PD_CONST])
     pos_h, pos_i = _curve(st.swing_pos_v[0], st.swing_pos_i_a[0], "positive", index)
     neg_h, neg_i = _curve(st.swing_neg_v[0], st.swing_neg_i_a[0], "negative", index)
     # Fastest possible drive rate: the slew limits, or omega_t times the largest error.
     span = (drive_hi - drive_lo) + abs(design.signal.bias_v) + design.signal.amplitude_v
-    rate_max = min(max(sr_r, sr_f), wt * span)
+    rate_max = min(max(sr_r, sr_f), wt * span) if math.isfinite(sr0) else wt * span
     g_clamp = C_DRIVE_F * rate_max / CLAMP_OVERSHOOT_V
 
     v0 = float(design.v_ideal(np.array([0.0]))[0])
     ld = design.load
     ac = ld.r_load_ohm is not None and ld.coupling == "ac"
-    a_sig = design.signal_gain * design.signal.amplitude_v
     if ac:
         r_l = float(ld.r_load_ohm)
         c_c = float(ld.c_couple_f or math.inf)
-        h = 1.0 / (1.0 + 1j * design.omega * r_l * c_c)
-        v_cap0 = design.out_bias_v - ld.reference_v + float(np.imag(a_sig * h))
-        if v_couple_start_v is not None:
-            v_cap0 = float(v_couple_start_v)
+        v_cap0 = coupling_start(design) if v_couple_start_v is None else float(v_couple_start_v)
 
     def used(key: str) -> str:
         u = st.used.get(key)
@@ -257,7 +271,12 @@ def spice_deck(
         "p_dlo": drive_lo,
         "p_dhi": drive_hi,
         "p_gcl": g_clamp,
-        "p_invvs": 1.0 / vs,  # 1 / device voltage scale, 1/V
+        "p_invvs": float(m[_st.P_VS_SRC]),  # 1 / source law's voltage scale (biased), 1/V
+        "p_invvk": float(m[_st.P_VS_SNK]),  # 1 / sink law's voltage scale, 1/V
+        "p_invvt": 1.0 / V_T,
+        "p_ibd": float(m[_st.P_INV_BETA_D]),  # 1 / Darlington beta
+        "p_ce": DARLINGTON_C_E,  # Darlington base-node capacitance, F
+        "p_limdev": min(lim_src, 1.0),  # current limit of each Darlington transistor, A
         "p_db": db,  # dead band, V
         "p_isrc0": i_src0,
         "p_isnk0": i_snk0,
@@ -266,16 +285,14 @@ def spice_deck(
         "p_vpos": vpos,
         "p_vneg": vneg,
     }
+    if math.isfinite(sr0):
+        params.update({"p_sr0": sr0, "p_gam": gam, "p_gcm": gam_cm, "p_a": a_in, "p_b0": b0_in})
     for key, val in params.items():
         add(f".param {key}={_num(val)}")
     if math.isfinite(lim_src):
         add(f".param p_limsrc={_num(lim_src)}")
     if math.isfinite(lim_snk):
         add(f".param p_limsnk={_num(lim_snk)}")
-    if math.isfinite(sr_r):
-        add(f".param p_srr={_num(sr_r)}")
-    if math.isfinite(sr_f):
-        add(f".param p_srf={_num(sr_f)}")
     add("*")
     add("* ---- input source and feedback error e = v_plus - v_md - beta*v_out ----")
     sig = design.signal
@@ -287,37 +304,60 @@ def spice_deck(
         v_plus = _num(design.reference_v)
         v_md = f"{_num(1.0 - beta)}*v(in)"
     add(f".func err(vo) {{{v_plus} - {v_md} - p_beta*vo}}")
-    rate = "p_wt*err(vo)"
-    if math.isfinite(sr_r):
-        rate = f"min({rate}, p_srr)"
-    if math.isfinite(sr_f):
-        rate = f"max({rate}, -p_srf)"
-    add(f".func rate(vo) {{{rate}}}")
+    if math.isfinite(sr0):
+        add("* ---- input stage: state z (node nz), a z + b0 t/(1 + gam t) = e, t = tanh(z) ----")
+        add(".func frac(z) {tanh(z)/(1 + p_gam*tanh(z))}")
+        if design.closed_loop.configuration == "non-inverting":
+            w_s = _num(2.0 * math.pi * f_hz)
+            cm = f"{_num(sig.amplitude_v)}*{w_s}*cos({w_s}*time)"
+        else:
+            cm = "0"
+        add("* tail current (slew rate) less the common-mode input's share of its slope")
+        add(f".func srcm() {{max(p_sr0 - p_gcm*{cm}, {_num(0.05 * sr0)})}}")
+        add("Bz 0 nz I = err(v(out)) - (p_a*v(nz) + p_b0*srcm()/p_sr0*frac(v(nz)))")
+        add("Rz nz 0 1e15")
+        rate = "srcm()*frac(v(nz))"
+    else:
+        rate = "p_wt*err(v(out))"
     add("*")
-    add("* ---- drive node: slew-limited integrator dv/dt = rate, clamped to [p_dlo, p_dhi] ----")
-    add(f"Cdrv drive 0 {{p_cd}} IC={_num(v0)}")
-    add("Bint 0 drive I = p_cd*rate(v(out))")
+    add("* ---- drive node: integrator dv/dt = rate, clamped to [p_dlo, p_dhi] ----")
+    add(f"Cdrv drive 0 {{p_cd}} IC={_num(v0 + float(m[_st.P_X0]))}")
+    add(f"Bint 0 drive I = p_cd*{rate}")
     add("Bclamp drive 0 I = p_gcl*(max(v(drive) - p_dhi, 0) + min(v(drive) - p_dlo, 0))")
     add("*")
     add("* ---- output stage (drive coordinate x = v(drive) - v(out)) ----")
     add("* current available at headroom h to V+ / V- (inverse swing curves), A")
     add(f".func availpos(vo) {{max({pwl_expression('(p_vpos - vo)', pos_h, pos_i)}, 0)}}")
     add(f".func availneg(vo) {{max({pwl_expression('(vo - p_vneg)', neg_h, neg_i)}, 0)}}")
-    src = "p_isrc0*exp(min(x*p_invvs, 60))"
+    if darlington:
+        add("* Darlington: base node y (node ny) with C_e dy/dt = i1 - i2 / beta_D")
+        add("* each transistor's current capped at the source limit (1 A where none)")
+        add(".func i2(y) {min(p_isrc0*exp(min(y*p_invvt, 60)), p_limdev)}")
+        add(".func i1(x, y) {min(p_isrc0*p_ibd*exp(min((x - y)*p_invvt, 60)), p_limdev)}")
+        add(f"Cy ny 0 {{p_ce}} IC={_num(float(m[_st.P_Y0]))}")
+        add("By 0 ny I = i1(v(drive) - v(out), v(ny)) - p_ibd*i2(v(ny))")
+        src = "(i2(y) + i1(x, y))"
+        src_args = "x, y, vo"
+    else:
+        src = "p_isrc0*exp(min(x*p_invvs, 60))"
+        src_args = "x, vo"
     if math.isfinite(lim_src):
         src = f"min({src}, p_limsrc)"
-    add(f".func isrc(x, vo) {{min({src}, availpos(vo))}}")
+    add(f".func isrc({src_args}) {{min({src}, availpos(vo))}}")
     if i_pd0 > 0:
         add(".func ipd(vo) {min(p_pdc + p_pds*vo, availneg(vo))}")
         room = "max(availneg(vo) - ipd(vo), 0)"
     else:
         add(".func ipd(vo) {0}")
         room = "availneg(vo)"
-    snk = "p_isnk0*exp(min((-x - p_db)*p_invvs, 60))"
+    snk = "p_isnk0*exp(min((-x - p_db)*p_invvk, 60))"
     if math.isfinite(lim_snk):
         snk = f"min({snk}, p_limsnk)"
     add(f".func isnk(x, vo) {{min({snk}, {room})}}")
-    add("Bsrc 0 out I = isrc(v(drive) - v(out), v(out))")
+    if darlington:
+        add("Bsrc 0 out I = isrc(v(drive) - v(out), v(ny), v(out))")
+    else:
+        add("Bsrc 0 out I = isrc(v(drive) - v(out), v(out))")
     if i_snk0 > 0:
         add("Bsnk out 0 I = isnk(v(drive) - v(out), v(out))")
     if i_pd0 > 0:
@@ -358,8 +398,13 @@ def spice_deck(
         add(f"Rfb out lfb {_num(rfb)}")
     add("*")
     add("* ---- analysis ----")
-    add(".options reltol=1e-6 abstol=1e-12 vntol=1e-9 chgtol=1e-16 itl4=100")
-    add(f".ic v(out)={_num(v0)} v(drive)={_num(v0)}")
+    add(".options reltol=1e-6 abstol=1e-12 vntol=1e-7 chgtol=1e-16 itl4=100")
+    ic = f".ic v(out)={_num(v0)} v(drive)={_num(v0 + float(m[_st.P_X0]))}"
+    if darlington:
+        ic += f" v(ny)={_num(float(m[_st.P_Y0]))}"
+    if math.isfinite(sr0):
+        ic += " v(nz)=0"
+    add(ic)
     add(f".tran {_num(dt)} {_num(t_stop)} 0 {_num(dt)} uic")
     add(".control")
     add("set wr_singlescale")

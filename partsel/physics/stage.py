@@ -5,20 +5,63 @@ resolved to a *basis*: ``"typical"`` (datasheet typical values) or ``"worst-case
 parameter the side of its guaranteed range that is pessimistic, see
 :attr:`partsel.params.ParamDef.worst_side`). Each field records which side it came from.
 
-Device laws (partsel's own macro-model; SI units):
+Device laws (partsel's own macro-model; SI units; design notes sections 2 and 4)
+-------------------------------------------------------------------------------
 
 * drive coordinate ``x = v_drive - v_out`` is chosen so that at ``x = 0`` the source device of a
-  class-A or class-B stage carries exactly the stage current (pull-down or sink bias).
-* class A / class B source device (emitter follower, often a Darlington):
-  ``i_src = I_stage * exp(x / V_S)`` with ``V_S = M_FOLLOWER * V_T``.
-* class B sink device: ``i_snk = I_stage * exp((-x - dV) / V_S)``: it carries the stage current
-  once the drive is a dead band ``dV`` below the output.
-* class AB / CMOS: ``i_src = I_q * exp(x / V_X)`` and ``i_snk = I_q * exp(-x / V_X)``
-  (translinear pair; both carry ``I_q`` at zero output current).
+  class-A or class-B stage carries exactly the stage current (pull-down or sink bias) in DC.
+* class A / class B **source device**: a Darlington emitter follower (driver and output
+  transistor, two base-emitter junctions). The output transistor's base node is a state:
+  ``y = v_base - v_out`` (relative to its value at the stage current), with
+  ``i_2 = I_stage exp(y / V_T)`` (output transistor), ``i_1 = (I_stage / beta_D)
+  exp((x - y) / V_T)`` (driver) and ``C_e dy/dt = i_1 - i_2 / beta_D``: the node is charged by
+  the driver and discharged only by the output transistor's base current. The output receives
+  ``i_1 + i_2``. In DC ``y = x / 2`` and ``i_src = I_stage exp(x / (2 V_T))``
+  (:data:`M_FOLLOWER` junctions); when the drive falls quickly the driver cuts off at once and
+  the output transistor's current decays over ``beta_D C_e V_T / i_2`` (a 1/t tail that is
+  long exactly when the current is small: the marginal cases). The catalogue gives neither
+  ``beta_D`` nor ``C_e``: partsel takes :data:`DARLINGTON_BETA` and :data:`DARLINGTON_C_E`,
+  generic values of a small-geometry bipolar process (an assumption; see their docstrings).
+  Each of the two transistors carries at most the source limit (1 A where none is given).
+* class B **sink device**: a PNP emitter follower, one junction:
+  ``i_snk = I_stage exp((-x - dV) / V_T)``: it carries the stage current once the drive is a
+  dead band ``dV`` below the point where the source device carries it.
+* class A: no sink device; the bias current source is the only way to sink current.
+* **pull-down / sink-bias current source**: a transistor current source with finite output
+  resistance (Early voltage :data:`V_EARLY_PULLDOWN`): ``i_pd = I_stage (1 + (v_out - V-) /
+  V_A) / (1 + (V_mid - V-) / V_A)``, the catalogue's stage current being taken at mid-supply
+  ``V_mid`` (an assumption: datasheets rarely state the output level of that figure).
+* class AB / CMOS: ``i_src = I_q exp(x / V_X)`` and ``i_snk = I_q exp(-x / V_X)`` (translinear
+  pair; both carry ``I_q`` at zero output current).
 * every device current is capped by its current limit and by the current available at the
   present headroom to its rail (inverse of the swing curve); the class-A/B pull-down current
-  source collapses near the negative rail the same way and has a finite output resistance
-  (Early voltage :data:`V_EARLY_PULLDOWN`).
+  source collapses near the negative rail the same way.
+* **input stage**: a differential pair into the compensation capacitance (the integrator). Its
+  output is ``SR tanh(z)`` (the drive node's rate: the slew rate ``SR`` when fully switched),
+  for an input error ``e = a z + b tanh(z)`` with
+  ``a = min(2 V_T, V_lin)``, ``b = V_lin - a`` and ``V_lin = SR / omega_t``: the law of a
+  bipolar pair with emitter degeneration, ``e = 2 V_T atanh(y) + R_E I_tail y`` for the output
+  fraction ``y = tanh(z)`` (e.g. Gray, Hurst, Lewis and Meyer, *Analysis and Design of Analog
+  Integrated Circuits*, differential pair with emitter degeneration; from memory). Its small-
+  signal rate is ``omega_t e`` (GBW) and its large-signal limit the slew rate, both from the
+  catalogue; ``V_lin = 2 V_T`` is a plain pair (tanh law), larger values a degenerated one.
+  The tail current, and with it the slew rate, moves with two slopes: the drive node's own
+  slope ``r`` (a capacitive coupling of the swinging gain stage into the input stage's bias,
+  e.g. through the collector-base capacitance of the gain stage's current-source load) and
+  the common-mode input's slope ``c`` (the tail node's capacitance follows the input pair):
+  ``SR = SR_0 - gamma_d r - gamma_cm c``, so ``r = SR_cm t / (1 + gamma_d t)`` for
+  ``t = tanh(z)`` and ``SR_cm = SR_0 - gamma_cm c``, and the degeneration term in proportion:
+  ``e = a z + b_0 (SR_cm / SR_0) t / (1 + gamma_d t)``. A datasheet's slew test is a
+  unity-gain follower (common practice), where ``c = r``: ``SR_rise = SR_0 / (1 + gamma)``
+  and ``SR_fall = SR_0 / (1 - gamma)`` with ``gamma = gamma_d + gamma_cm``, so
+  ``SR_0 = 2 SR_r SR_f / (SR_r + SR_f)`` and ``gamma = (SR_f - SR_r) / (SR_f + SR_r)``. How
+  ``gamma`` splits between the two cannot be read from such a test; partsel gives each half
+  (:data:`GAMMA_CM_SHARE`). In partsel's transistor-level test circuit (the coupling there is
+  the gain stage's load into the bias line and the input pair's tail node) a crossing at
+  20 kHz, where the drive slews while the common mode hardly moves, shows between a half and
+  two thirds of the follower's asymmetry (0.53 to 0.64, measured in
+  tests/test_transistor_level_opamp.py); the even split is not fitted to it.
+  ``V_lin = SR_0 / omega_t``.
 """
 
 from __future__ import annotations
@@ -46,6 +89,21 @@ CLASS_A, CLASS_B, CLASS_AB, CMOS = range(4)
 V_T = 8.617333262e-5 * 300.0
 #: Junctions in the class-A/B source follower (a Darlington pair: two base-emitter drops).
 M_FOLLOWER = 2.0
+#: Current gain of the Darlington's output transistor (an assumption: a generic small-signal
+#: integrated NPN, beta 100 to 200; from memory).
+DARLINGTON_BETA = 150.0
+#: Capacitance of the Darlington output transistor's base node (its base-emitter and base-
+#: collector junctions and the driver's emitter junction), F (an assumption: a few pF for an
+#: output device of a few unit emitters of a small-geometry bipolar process; from memory).
+#: The turn-off tail ``beta_D C_e V_T / i`` scales with the product of the two.
+DARLINGTON_C_E = 3e-12
+#: Junctions in the class-B sink follower (a PNP emitter follower: one base-emitter drop).
+M_SINK = 1.0
+#: Share of a datasheet's slew-rate asymmetry that partsel gives to the common-mode input's
+#: motion (the rest to the drive node's own slope): a follower's slew test moves both at the
+#: same rate, so the split cannot be read from a datasheet; partsel takes half each (a neutral
+#: choice; see the module docstring).
+GAMMA_CM_SHARE = 0.5
 #: Effective voltage scale of the class-AB device law, V: bipolar followers ``V_T``;
 #: CMOS output devices in moderate inversion (gm/I of roughly 12 /V, an assumption).
 V_X_BIPOLAR = V_T
@@ -53,6 +111,52 @@ V_X_CMOS = 1.0 / 12.0
 #: Early voltage of the internal pull-down current source, V (assumption, typical of a
 #: small-geometry bipolar current mirror; makes the pull-down current rise with output voltage).
 V_EARLY_PULLDOWN = 50.0
+
+
+def pulldown_law(i_stage: np.ndarray, v_pos: float, v_neg: float) -> tuple[np.ndarray, np.ndarray]:
+    """``(const, slope)`` of the pull-down current ``i_pd = const + slope * v_out`` (A, A/V):
+    Early effect normalised to the stage current at mid-supply (see the module docstring)."""
+    v_mid = 0.5 * (v_pos + v_neg)
+    slope = i_stage / (V_EARLY_PULLDOWN + (v_mid - v_neg))
+    return i_stage - slope * v_mid, slope
+
+
+def input_law(
+    gbw_hz: np.ndarray, slew_rise_v_per_s: np.ndarray, slew_fall_v_per_s: np.ndarray
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """``(SR_0, gamma, a, b_0)`` of the input stage (see the module docstring): the slew rate
+    of the unmodulated tail current (V/s), the total modulation ``gamma = gamma_d + gamma_cm``
+    (split by :data:`GAMMA_CM_SHARE`), and the law's coefficients (V, V). Infinite slew rates
+    give a linear stage (``SR_0`` infinite, ``gamma = b_0 = 0``)."""
+    sr_r = np.asarray(slew_rise_v_per_s, dtype=float)
+    sr_f = np.asarray(slew_fall_v_per_s, dtype=float)
+    fin = np.isfinite(sr_r) & np.isfinite(sr_f) & (sr_r > 0) & (sr_f > 0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        sr0 = np.where(fin, 2.0 * sr_r * sr_f / (sr_r + sr_f), np.inf)
+        gamma = np.where(fin, (sr_f - sr_r) / (sr_r + sr_f), 0.0)
+        v_lin = np.where(fin, sr0 / (2.0 * np.pi * gbw_hz), np.inf)
+    a = np.where(fin, np.minimum(2.0 * V_T, v_lin), 0.0)
+    b0 = np.where(fin, v_lin - a, 0.0)
+    return sr0, gamma, np.nan_to_num(a), np.nan_to_num(b0)
+
+
+def drive_slew(
+    gbw_hz: np.ndarray,
+    slew_rise_v_per_s: np.ndarray,
+    slew_fall_v_per_s: np.ndarray,
+    cm_slope_v_per_s: np.ndarray | float,
+    rising: bool,
+) -> np.ndarray:
+    """The rate the drive node slews at, fully switched, while the common-mode input moves at
+    ``cm_slope`` (V/s, signed): ``SR_0 - gamma_d r - gamma_cm c = |r|`` solved for the drive
+    rate ``r`` (see the module docstring); the datasheet's own rates where ``c = r``."""
+    sr0, gamma, _a, _b = input_law(gbw_hz, slew_rise_v_per_s, slew_fall_v_per_s)
+    g_d = (1.0 - GAMMA_CM_SHARE) * gamma
+    g_c = GAMMA_CM_SHARE * gamma
+    c = np.asarray(cm_slope_v_per_s, dtype=float)
+    with np.errstate(invalid="ignore"):
+        rate = (sr0 - g_c * c) / ((1.0 + g_d) if rising else (1.0 - g_d))
+    return np.where(np.isfinite(sr0), np.maximum(rate, 0.05 * sr0), np.inf)
 
 
 def _resolve(
@@ -235,11 +339,20 @@ class StageParams:
 
     @property
     def device_scale_v(self) -> np.ndarray:
-        """Voltage scale of the device law, V (see module docstring)."""
+        """Voltage scale of the source device's DC law, V (see module docstring)."""
         return np.select(
             [self.topology == CLASS_AB, self.topology == CMOS],
             [V_X_BIPOLAR, V_X_CMOS],
             M_FOLLOWER * V_T,
+        )
+
+    @property
+    def sink_scale_v(self) -> np.ndarray:
+        """Voltage scale of the sink device's law, V (class B: one junction)."""
+        return np.select(
+            [self.topology == CLASS_AB, self.topology == CMOS],
+            [V_X_BIPOLAR, V_X_CMOS],
+            M_SINK * V_T,
         )
 
     def headroom_pos(self, i_a: np.ndarray) -> np.ndarray:

@@ -403,8 +403,8 @@ def fix_variant(
 
     ``base`` holds those parts as designed. With the resistor the stage stays in one mode, so
     the conduction check is ``fixed``, the crossover glitch is 0 and the THD estimate is
-    ``thd_fixed``, the one-mode estimate with the resistor fitted
-    (:func:`partsel.physics.analysis.one_mode_thd`); the
+    ``thd_fixed``, the upper bound of the stage kept in one mode by the resistor
+    (:func:`partsel.physics.analysis.thd_bound`); the
     supply current and the junction temperature rise by the resistor's share (per channel used);
     the resistor must work (source / sink limit and swing at the new current, see
     :func:`partsel.physics.fix.size_fix`) and be at least ``min_fix_resistance``.

@@ -26,8 +26,10 @@ FORMAT = "partsel.ranking/1"
 
 THD_LABEL = (
     "THD_F estimate of the output stage from partsel's closed-form macro-model (class A / B "
-    "handing over: from the glitch or clipping shape; class A / B in one mode: from the follower's "
-    "device law; class AB / CMOS: an upper bound; not a simulation or a measurement)"
+    "handing over: from the glitch or clipping shape; at the boundary: from the device law; "
+    "class A / B in one mode: from the follower's device law and the input stage; class AB / "
+    "CMOS, and a stage kept in one mode by the fix resistor: an upper bound; a clipping output "
+    "adds the clipped sine's THD; not a simulation or a measurement)"
 )
 CAUTION = (
     "Estimates from partsel's behavioural macro-model: confirm on the bench or in a full "
@@ -136,14 +138,20 @@ def _binding(r: Ranking, i: int, j: int) -> dict[str, Any] | None:
 
 
 def verdict_text(r: Ranking, i: int) -> str:
-    """The conduction verdict of part ``i``: changes-mode / marginal / biased-crossover /
-    one-mode (:func:`partsel.solver.solve.conduction_verdict`)."""
+    """The conduction verdict of part ``i``: one-mode / marginal / changes-mode / biased
+    (:func:`partsel.physics.analysis.conduction_verdict`)."""
     return str(r.prediction.conduction[i])
 
 
 def _int(x: Any) -> int | None:
     v = num(x)
     return None if v is None else int(v)
+
+
+def thd_is_bound(r: Ranking, i: int) -> bool:
+    """The THD the verdict judges is an upper bound (a biased stage, or one kept in one mode by
+    the fix resistor), not an estimate: people read it as "below X %"."""
+    return str(r.prediction.conduction[i]) == "biased" or bool(r.fix.applied[i])
 
 
 def rail_dict(rf: Any, i: int) -> dict[str, Any]:
@@ -211,6 +219,9 @@ def prediction_fields(r: Ranking, i: int) -> dict[str, Any]:
         "min_source_current_a": num(p.min_source_a[i]),
         "stage_current_a": num(p.stage_current_a[i]),
         "stage_current_side": CORNERS[corner] if corner >= 0 else "typ",
+        "thd_bound": num(p.thd_bound[i]),
+        "clip_depth_v": num(p.clip_depth_v[i]),
+        "limited_by": str(p.limited_by[i]) or None,
     }
 
 
@@ -234,6 +245,7 @@ def part_dict(r: Ranking, i: int, *, checks: bool = True) -> dict[str, Any]:
         "binding": _binding(r, i, int(r.binding[i])),
         "tightest": _binding(r, i, int(r.tightest[i])),
         "thd_estimate": num(r.checks.value[i, C.IDX["thd"]]),
+        "thd_is_bound": thd_is_bound(r, i),
         "prediction": prediction_fields(r, i),
         "fix": fix_dict(r, i),
         "objectives": {
@@ -457,6 +469,7 @@ def part_schema() -> dict[str, Any]:
             "binding",
             "tightest",
             "thd_estimate",
+            "thd_is_bound",
             "prediction",
             "fix",
             "objectives",
@@ -502,14 +515,17 @@ def part_schema() -> dict[str, Any]:
                 THD_LABEL + ": the value the verdict judges (with the fix where it is applied).",
                 "1",
             ),
+            "thd_is_bound": {
+                "description": "thd_estimate is an upper bound (a biased stage, or one kept in "
+                "one mode by the fix), not an estimate.",
+                "type": "boolean",
+            },
             "prediction": {
                 "type": "object",
                 "additionalProperties": False,
                 "required": ["conduction", "handover", "glitch_v", "thd_estimate"],
                 "properties": {
-                    "conduction": {
-                        "enum": ["changes-mode", "marginal", "biased-crossover", "one-mode"]
-                    },
+                    "conduction": {"enum": ["one-mode", "marginal", "changes-mode", "biased"]},
                     "handover": {"type": "boolean"},
                     "marginal": {"type": "boolean"},
                     "biased_crossover": {"type": "boolean"},
@@ -528,6 +544,15 @@ def part_schema() -> dict[str, Any]:
                         "description": "Side of the stage-current range used: on the "
                         "worst-case basis the one worst for the crossover.",
                         "enum": list(CORNERS),
+                    },
+                    "thd_bound": _n(
+                        "Upper bound of THD_F (biased stages, stages in one mode); null else.",
+                        "1",
+                    ),
+                    "clip_depth_v": _n("How far the ideal output passes the swing limits.", "V"),
+                    "limited_by": {
+                        "description": "What limits the output (null: nothing).",
+                        "enum": ["clipping", "slew", "bandwidth", None],
                     },
                 },
             },
@@ -552,7 +577,7 @@ def part_schema() -> dict[str, Any]:
                     "extra_supply_current_a": _n("Extra supply current per channel.", "A"),
                     "extra_dissipation_w": _n("Extra dissipation per channel.", "W"),
                     "thd_estimate_with_fix": _n(
-                        "THD_F estimate with the resistor fitted (one mode).", "1"
+                        "Upper bound of THD_F with the resistor fitted (one mode).", "1"
                     ),
                     "reason": {"type": "string"},
                     "rule": {

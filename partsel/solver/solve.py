@@ -31,7 +31,7 @@ from typing import Any, Literal
 
 import numpy as np
 
-from partsel.physics.analysis import ClosedForm, one_mode_thd, predict_closed_form
+from partsel.physics.analysis import ClosedForm, predict_closed_form, thd_bound
 from partsel.physics.circuit import Design
 from partsel.physics.fix import RailFix, size_fix
 from partsel.solver import checks as C
@@ -88,11 +88,12 @@ class Prediction:
     slope_v_per_s: np.ndarray
     handover_phase_rad: np.ndarray
     corner: np.ndarray  #: stage-current corner used (index into CORNERS; -1 on the typical basis)
-
-    @property
-    def conduction(self) -> np.ndarray:
-        """Conduction verdict per part (see :func:`conduction_verdict`)."""
-        return conduction_verdict(self.handover, self.marginal, self.crossover_biased)
+    conduction: np.ndarray
+    """Conduction verdict per part, :func:`partsel.physics.analysis.conduction_verdict`'s (the
+    one rule): ``one-mode``, ``marginal``, ``changes-mode`` or ``biased`` (class AB / CMOS)."""
+    thd_bound: np.ndarray  #: upper bound of the THD_F (biased and one-mode stages), ratio
+    clip_depth_v: np.ndarray  #: how far the ideal output goes past the swing limits, V
+    limited_by: np.ndarray  #: "", "clipping", "slew" or "bandwidth": what limits the output
 
     @classmethod
     def of(cls, cf: ClosedForm, stage_current_a: np.ndarray, corner: int) -> Prediction:
@@ -114,6 +115,10 @@ class Prediction:
             slope_v_per_s=cf.slope_v_per_s.copy(),
             handover_phase_rad=cf.handover_phase_rad.copy(),
             corner=np.full(n, corner, dtype=np.int8),
+            conduction=np.asarray(cf.conduction, dtype=object).copy(),
+            thd_bound=np.asarray(cf.thd_bound, dtype=float).copy(),
+            clip_depth_v=np.asarray(cf.clip_depth_v, dtype=float).copy(),
+            limited_by=np.asarray(cf.limited_by, dtype=object).copy(),
         )
 
     def take(self, index: np.ndarray) -> Prediction:
@@ -142,20 +147,6 @@ class Prediction:
             getattr(self, name)[at] = getattr(other, name)[worse]
 
 
-def conduction_verdict(
-    handover: np.ndarray, marginal: np.ndarray, crossover_biased: np.ndarray
-) -> np.ndarray:
-    """The conduction verdict of every part: ``changes-mode`` (the stage hands over),
-    ``marginal`` (stays in source mode with less than the margin of its stage current),
-    ``biased-crossover`` (class AB / CMOS whose output current changes sign) or ``one-mode``.
-    The one rule every output uses."""
-    out = np.full(np.shape(handover), "one-mode", dtype=object)
-    out[np.asarray(crossover_biased, dtype=bool)] = "biased-crossover"
-    out[np.asarray(marginal, dtype=bool)] = "marginal"
-    out[np.asarray(handover, dtype=bool)] = "changes-mode"
-    return out
-
-
 @dataclass(frozen=True)
 class FixInfo:
     """The fix of every part (arrays of shape (P,)): the one fix decision per part and design
@@ -181,7 +172,7 @@ class FixInfo:
     margin: float  #: fraction of its stage current the device kept on must still carry
     negative: RailFix  #: the pull-down remedy of every part (a resistor to V-)
     positive: RailFix  #: the pull-up remedy of every part (a resistor to V+)
-    thd_with_fix: np.ndarray  #: one-mode THD_F estimate with the recommended resistor fitted
+    thd_with_fix: np.ndarray  #: upper bound of THD_F with the recommended resistor fitted
 
     @property
     def recommended(self) -> np.ndarray:
@@ -557,7 +548,9 @@ def _size_fixes(
         st = st.replace(
             stage_current_a=np.where(rr == "positive", st.stage_current_high_a, st.stage_current_a)
         )
-        thd_fix[rows] = one_mode_thd(
+        # A stage kept in one mode by a resistor is bounded, not quoted (the loop-reduced device
+        # law plus the input stage's slew-induced term: partsel.physics.analysis.thd_bound).
+        thd_fix[rows] = thd_bound(
             st,
             design,
             r_to_neg_ohm=np.where(rr == "negative", r_ohm[rows], np.nan),

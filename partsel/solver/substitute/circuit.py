@@ -31,7 +31,7 @@ from partsel import present as P
 from partsel.physics.circuit import Design
 from partsel.physics.stage import Basis
 from partsel.solver import checks as C
-from partsel.solver.export import fix_dict, part_checks, prediction_fields
+from partsel.solver.export import fix_dict, part_checks, prediction_fields, thd_is_bound
 from partsel.solver.messages import check_message
 from partsel.solver.requirements import Requirements
 from partsel.solver.solve import Ranking, rank
@@ -81,6 +81,7 @@ def summary(r: Ranking, k: int) -> dict[str, Any]:
         "basis": r.requirements.basis,
         "verdict": str(r.verdict[k]),
         "thd_estimate": _num(r.checks.value[k, C.IDX["thd"]]),
+        "thd_is_bound": thd_is_bound(r, k),
         "prediction": prediction_fields(r, k),
         "fix": fix_dict(r, k),
         "failing": [

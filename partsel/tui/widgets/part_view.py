@@ -165,9 +165,7 @@ class PartView(Vertical):
             return
         pn = str(pred.frame["part_number"].iloc[k])
         t_ms = (sim.t_s - sim.t_s[0]) * 1e3
-        markers: list[tuple[float, str]] = []
-        if bool(sim.handover[k]):
-            markers.append((float((sim.handover_time_s[k] - sim.t_s[0]) * 1e3), "handover"))
+        markers = [(t, label) for t, _, label in pred.handover_marks(k)]
         flat = pred.closed.flat_level_v[k]
         wave = self.query_one(".plot-wave", WavePlot)
         wave.draw(

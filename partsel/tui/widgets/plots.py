@@ -68,8 +68,9 @@ class WavePlot(_Plot):
         for t, label in markers_ms:
             plt.vline(float(t), color=theme.PLOT_MARKER)
             if label:
-                top = max(float(np.max(s[0])) for s in series) if series else 0.0
-                plt.text(label, x=float(t), y=top, color=theme.PLOT_MARKER)
+                # at the foot of the plot, right of its line: clear of the legend (top left)
+                low = min(float(np.min(s[0])) for s in series) if series else 0.0
+                plt.text(label, x=float(t), y=low, color=theme.PLOT_MARKER, alignment="left")
         if level_v is not None and np.isfinite(level_v):
             plt.hline(float(level_v), color=theme.PLOT_MARKER)
         plt.title(title)
