@@ -65,6 +65,8 @@ def si(value: Any, unit: str, digits: int = 3, *, symbols: bool = False) -> str:
     if v == 0:
         return f"0 {unit}".strip()
     mag = abs(v)
+    if not PREFIXES[-1][0] * 1e-3 <= mag < PREFIXES[0][0] * 1e3:  # beyond the prefixes
+        return f"{v:.{digits}g} {unit}".strip()
     scale, prefix = PREFIXES[-1]
     for s, p in PREFIXES:
         # 0.9995: a value that rounds up to the next prefix at `digits` digits takes it

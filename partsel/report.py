@@ -106,7 +106,9 @@ def prediction_text(d: dict[str, Any]) -> str:
             f"  Clipping    the output clips by {_q(depth, 'V')}: the THD figure includes the "
             "clipping"
         )
-    if sim:
+    if sim and not sim.get("converged", True):
+        lines.append(f"  Simulation  not quoted: {sim['note']}")
+    elif sim:
         if c["conduction"] == "biased":
             shown = "not quoted for a biased stage (see the bound above)"
         else:
@@ -178,7 +180,9 @@ def fix_lines(fx: dict[str, Any], simf: dict[str, Any] | None = None) -> list[st
     thd = fx.get("thd_estimate_with_fix")
     if thd is not None and math.isfinite(thd):
         out.append(f"              with the fix: THD {P.thd(thd, bound=True)} (an upper bound)")
-    if simf:
+    if simf and not simf.get("converged", True):
+        out.append(f"              with the fix, not simulated: {simf['note']}")
+    elif simf:
         out.append(
             f"              with the fix, simulated: handover {'yes' if simf['handover'] else 'no'}"
         )

@@ -778,8 +778,13 @@ def _clip_levels(
     return depth_top, depth_bot
 
 
+@np.errstate(over="ignore", invalid="ignore")
 def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
-    """Closed-form predictions of every part of ``stage`` in ``design``."""
+    """Closed-form predictions of every part of ``stage`` in ``design``.
+
+    Overflow becomes infinity and NaN a missing figure, not a warning: only values far outside
+    their plausible range get there (a signal at 1e-300 Hz), and the checks read them as
+    failing or unknown."""
     p = stage.n
     sup = design.supply
     vpos, vneg = sup.v_pos_v, sup.v_neg_v

@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 
 from partsel import present as P
+from partsel.physics.simulate import abandoned_reason
 from partsel.solver import checks as C
 from partsel.solver.messages import check_message
 from partsel.solver.relax import Hint
@@ -735,8 +736,11 @@ def options_dict(r: Ranking) -> dict[str, Any]:
 
 def simulation_dict(sim: Any, k: int) -> dict[str, Any]:
     """Part ``k`` of a :class:`partsel.physics.simulate.SimResult` as plain data."""
+    abandoned = bool(sim.abandoned[k])
     return {
         "steps_per_period": int(sim.steps_per_period),
+        "converged": not abandoned,
+        "note": abandoned_reason(sim, k) if abandoned else None,
         "thd_f": num(sim.thd_f[k]),
         "thd_definition": f"THD_F (IEC): RMS of harmonics 2..{sim.harmonics_v.shape[1] - 1}"
         " over the fundamental",
@@ -784,6 +788,12 @@ def prediction_schema() -> dict[str, Any]:
         "required": ["steps_per_period", "thd_f", "handover"],
         "properties": {
             "steps_per_period": {"type": "integer", "minimum": 1},
+            "converged": {
+                "type": "boolean",
+                "description": "False when the simulation was stopped (its figures are null; "
+                "the closed form stands); 'note' says why.",
+            },
+            "note": {"type": ["string", "null"]},
             "thd_f": _n("THD_F of the simulated output (IEC definition).", "1"),
             "thd_definition": {"type": "string"},
             "residual_peak_v": _n("Peak of the output minus its DC and fundamental.", "V"),
