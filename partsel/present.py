@@ -87,7 +87,7 @@ def percent(ratio: Any, digits: int = 2) -> str:
 
 def thd(ratio: Any, *, bound: bool = False) -> str:
     """A THD (a ratio, IEC THD_F) for people: always a percentage; an upper bound (biased
-    stages, a stage kept in one mode by a resistor) reads "below 0.2 %"."""
+    stages) reads "below 0.2 %"."""
     text = percent(ratio, 2)
     return f"below {text}" if bound and finite(ratio) else text
 

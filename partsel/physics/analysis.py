@@ -87,6 +87,12 @@ class ClosedForm:
     i_out_min_a: np.ndarray
     i_out_max_a: np.ndarray
     min_source_a: np.ndarray  #: smallest source-device current over the period
+    held_current_a: np.ndarray
+    """Least current of the device that must stay on all period, A: the source device's, or
+    (class B held in sink mode, e.g. by a pull-up) the sink device's; negative when the stage
+    changes mode (by how much the other device takes over). The conduction check's value: it
+    passes where :func:`conduction_verdict` says one mode with the margin."""
+    held_sink: np.ndarray  #: the held device is the sink device (class B in sink mode)
     handover: np.ndarray  #: verdict "changes-mode" (class A/B)
     marginal: np.ndarray
     """verdict "marginal": the least source-device demand lies within the margin band around
@@ -125,7 +131,7 @@ class ClosedForm:
     source_limit_ok: np.ndarray
     sink_limit_ok: np.ndarray
     # power
-    supply_current_a: np.ndarray  #: whole package, mean, from the positive rail
+    supply_current_a: np.ndarray  #: whole package and any pull-up, mean, from the positive rail
     dissipation_w: np.ndarray  #: whole package
     t_junction_c: np.ndarray  #: at the highest ambient
     t_junction_margin_c: np.ndarray
@@ -810,6 +816,10 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     marginal = verdict == "marginal"
     with np.errstate(invalid="ignore"):
         min_src = np.where(pulldown, dem_lo, 0.5 * (i_min + np.sqrt(i_min**2 + 4.0 * i_stage**2)))
+    # class B may instead be held in sink mode (the demand stays below zero): the sink device
+    # then carries at least -dem_hi; the side nearer to one mode is the one held
+    held_sink = (stage.topology == CLASS_B) & (-dem_hi > dem_lo)
+    held = np.where(held_sink, -dem_hi, min_src)
     crossover_biased = ~pulldown & (i_min < 0) & (i_max > 0)
     level, g_th = thevenin_level(design)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -860,6 +870,10 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
         (s_fall, sr_f, theta_fall - phi, 1.0, v_src, v_snk),
         (s_rise, sr_r, theta_rise - phi, -1.0, v_snk, v_src),
     ):
+        if not handover.any():  # no crossing to model (e.g. every part kept in one mode)
+            zero = np.zeros(p)
+            edges_raw.append((zero, zero.copy(), np.zeros(p, dtype=bool), stage.dead_band_v))
+            continue
         # ideal output's steepening at the handover (falling edge: slope growing more negative)
         accel = np.maximum(sign * a * w * w * np.sin(psi_e), 0.0)
         # dead-zone crossing over the distance the exponential laws leave (two passes: the
@@ -994,7 +1008,11 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     used = float(design.channels_used)
     src_load = np.maximum(i, 0.0)
     snk_load = np.maximum(-i, 0.0)
-    i_supply = stage.supply_current_a * chans + used * float(src_load.mean())
+    # from the positive rail: the quiescent current, what the source device delivers, and what
+    # a resistor from V+ to the output (a pull-up) draws straight from the rail
+    r_up = design.load.r_to_pos_ohm
+    i_up = float(np.mean((vpos - v) / r_up)) if r_up is not None and np.isfinite(r_up) else 0.0
+    i_supply = stage.supply_current_a * chans + used * (float(src_load.mean()) + i_up)
     p_out_stage = used * float(np.mean(src_load * (vpos - v) + snk_load * (v - vneg)))
     p_diss = stage.supply_current_a * chans * total + p_out_stage
     t_j = design.t_ambient_max_c + p_diss * stage.theta_ja_k_per_w
@@ -1004,6 +1022,8 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
         i_out_min_a=np.full(p, i_min),
         i_out_max_a=np.full(p, i_max),
         min_source_a=min_src,
+        held_current_a=held,
+        held_sink=held_sink,
         handover=handover,
         marginal=marginal,
         crossover_biased=crossover_biased,

@@ -308,7 +308,7 @@ def evaluate(
     put("junction_temp", cf.t_junction_c, stage.junction_max_c)
     frac = lim("min_source_fraction")
     frac = 0.0 if frac is None else frac
-    put("conduction", cf.min_source_a, frac * stage.stage_current_a)
+    put("conduction", cf.held_current_a, frac * stage.stage_current_a)
     put("fix_resistor", np.nan, lim("min_fix_resistance") or 0.0)
     put("thd", cf.thd_estimate, np.nan if lim("max_thd") is None else lim("max_thd"))
     put("glitch", cf.glitch_v, np.nan if lim("max_glitch") is None else lim("max_glitch"))
@@ -388,65 +388,39 @@ def _opt(x: float | None) -> float:
 
 
 def fix_variant(
-    base: CheckArrays,
-    *,
-    r_ohm: np.ndarray,
-    works: np.ndarray,
-    thd_fixed: np.ndarray,
-    extra_supply_a: np.ndarray,
-    extra_dissipation_w: np.ndarray,
-    theta_ja_k_per_w: np.ndarray,
-    design: Design,
-    req: Requirements,
+    base: CheckArrays, *, r_ohm: np.ndarray, works: np.ndarray, req: Requirements
 ) -> CheckArrays:
-    """The checks of parts that need the fix, with partsel's fix resistor fitted.
+    """The checks of parts that need the fix, before the circuit with it is evaluated.
 
-    ``base`` holds those parts as designed. With the resistor the stage stays in one mode, so
-    the conduction check is ``fixed``, the crossover glitch is 0 and the THD estimate is
-    ``thd_fixed``, the upper bound of the stage kept in one mode by the resistor
-    (:func:`partsel.physics.analysis.thd_bound`); the
-    supply current and the junction temperature rise by the resistor's share (per channel used);
-    the resistor must work (source / sink limit and swing at the new current, see
-    :func:`partsel.physics.fix.size_fix`) and be at least ``min_fix_resistance``.
+    ``base`` holds those parts as designed. Where no resistor works (or none was sized) the
+    conduction check fails (ignored under ``conduction = "allowed"``) and so does the
+    fix-resistor check; the other parts get their checks from the circuit with the resistor
+    fitted (:func:`with_fix_resistor`, by :func:`partsel.solver.solve.rank`).
     """
     out = CheckArrays(*(a.copy(order="F") for a in base.astuple()))
-    used = float(design.channels_used)
     works = works & np.isfinite(r_ohm)
     j = IDX["conduction"]
     unfixed = IGNORED if req.conduction == "allowed" else FAIL
-    out.status[:, j] = np.where(works, FIXED, unfixed)
+    out.status[:, j] = np.where(works, out.status[:, j], unfixed)
     j = IDX["fix_resistor"]
     out.value[:, j] = np.where(works, r_ohm, np.nan)
-    j = IDX["glitch"]
-    out.value[:, j] = np.where(works, 0.0, out.value[:, j])
-    j = IDX["thd"]
-    out.value[:, j] = np.where(works, np.nan_to_num(thd_fixed), out.value[:, j])
-    out.value[:, IDX["supply_current"]] += np.where(works, used * extra_supply_a, 0.0)
-    out.value[:, IDX["junction_temp"]] += np.where(
-        works, used * extra_dissipation_w * theta_ja_k_per_w, 0.0
-    )
-    # recompute margins, ratios and statuses of the columns touched
-    cols = [IDX[c] for c in ("fix_resistor", "thd", "glitch", "supply_current", "junction_temp")]
-    m, r = margins_and_ratios(out.value, out.limit)
-    t_a = design.t_ambient_max_c
-    jt = IDX["junction_temp"]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        rise = out.value[:, jt] - t_a
-        r[:, jt] = np.where(
-            rise > 0,
-            np.maximum(out.limit[:, jt] - t_a, 0.0) / rise,
-            np.where(m[:, jt] >= 0, np.inf, 0.0),
-        )
-    for c in cols:
-        was_ignored = base.status[:, c] == IGNORED
-        st = np.where(m[:, c] >= 0, PASS, FAIL).astype(np.int8)
-        st = np.where(np.isnan(m[:, c]), UNKNOWN, st)
-        if CHECKS[c].name == "fix_resistor":
-            st = np.where(works, st, FAIL)
-            r[:, c] = np.where(works, r[:, c], 0.0)
-        else:
-            st = np.where(was_ignored, IGNORED, st)
-        out.status[:, c] = st
-        out.margin[:, c] = np.where(st == IGNORED, np.nan, m[:, c])
-        out.ratio[:, c] = np.where(st == IGNORED, np.nan, r[:, c])
+    out.status[:, j] = np.where(works, out.status[:, j], FAIL)
+    out.ratio[:, j] = np.where(works, out.ratio[:, j], 0.0)
+    return out
+
+
+def with_fix_resistor(chk: CheckArrays, r_ohm: float, req: Requirements) -> CheckArrays:
+    """``chk``, the checks of parts on the circuit with their fix resistor ``r_ohm`` fitted
+    (:func:`evaluate` of that circuit), marked as such: the fix-resistor check holds the value
+    against ``min_fix_resistance``, and a conduction check that passes reads ``fixed``."""
+    out = CheckArrays(*(a.copy(order="F") for a in chk.astuple()))
+    j = IDX["fix_resistor"]
+    out.value[:, j] = r_ohm
+    c = CHECKS[j]
+    m, r = _column_margin_ratio(out.value[:, j], out.limit[:, j], c.sense, c.has_ratio)
+    out.margin[:, j] = m
+    out.ratio[:, j] = r
+    out.status[:, j] = np.where(m >= 0, PASS, FAIL)
+    j = IDX["conduction"]
+    out.status[:, j] = np.where(out.status[:, j] == PASS, FIXED, out.status[:, j])
     return out

@@ -28,9 +28,9 @@ FORMAT = "partsel.ranking/1"
 THD_LABEL = (
     "THD_F estimate of the output stage from partsel's closed-form macro-model (class A / B "
     "handing over: from the glitch or clipping shape; at the boundary: from the device law; "
-    "class A / B in one mode: from the follower's device law and the input stage; class AB / "
-    "CMOS, and a stage kept in one mode by the fix resistor: an upper bound; a clipping output "
-    "adds the clipped sine's THD; not a simulation or a measurement)"
+    "class A / B in one mode, by itself or with the fix resistor fitted: from the follower's "
+    "device law and the input stage; class AB / CMOS: an upper bound; a clipping output adds "
+    "the clipped sine's THD; not a simulation or a measurement)"
 )
 CAUTION = (
     "Estimates from partsel's behavioural macro-model: confirm on the bench or in a full "
@@ -150,9 +150,10 @@ def _int(x: Any) -> int | None:
 
 
 def thd_is_bound(r: Ranking, i: int) -> bool:
-    """The THD the verdict judges is an upper bound (a biased stage, or one kept in one mode by
-    the fix resistor), not an estimate: people read it as "below X %"."""
-    return str(r.prediction.conduction[i]) == "biased" or bool(r.fix.applied[i])
+    """The THD the verdict judges is an upper bound (a biased stage), not an estimate: people
+    read it as "below X %". A stage kept in one mode, by itself or by the fix resistor, has an
+    estimate (the closed form of the circuit as it is built)."""
+    return str(r.prediction.conduction[i]) == "biased"
 
 
 def rail_dict(rf: Any, i: int) -> dict[str, Any]:
@@ -578,7 +579,9 @@ def part_schema() -> dict[str, Any]:
                     "extra_supply_current_a": _n("Extra supply current per channel.", "A"),
                     "extra_dissipation_w": _n("Extra dissipation per channel.", "W"),
                     "thd_estimate_with_fix": _n(
-                        "Upper bound of THD_F with the resistor fitted (one mode).", "1"
+                        "THD_F estimate with the resistor fitted (the stage kept in one mode; "
+                        "the closed form of the circuit with it).",
+                        "1",
                     ),
                     "reason": {"type": "string"},
                     "rule": {
