@@ -13,8 +13,10 @@ section 11). SI units throughout; V- is 0 V.
 * slew rate: 20 % to 80 % of each edge of a large step (common practice), from the settled
   levels before and after the edge;
 * swing: headroom ``V+ - v_out`` (``v_out - V-``) against the load current, the curve kept as
-  at most six points chosen where linear interpolation between them follows the measured
-  curve best (greedy insertion at the largest error);
+  at most six points chosen where the polyline through them follows the measured curve best
+  (greedy insertion where it misses most, then each point moved between its neighbours to
+  where the larger miss of its two segments is least; a miss is in headroom or in current,
+  :func:`curve_distance`);
 * stage current, by the knee method of the design notes (section 11): pull a DC current
   ``I_x`` into the follower's output and watch the V+ supply current fall by what the source
   device no longer carries. Class A / B: it falls one for one until the source device cuts
@@ -62,8 +64,11 @@ KNEE_REACH = 50.0
 #: Slope of the supply current against the pulled current at no load above which the sink
 #: device conducts too (a biased stage): between the class-A/B value -1 and the pair's -1/2.
 BIASED_SLOPE = -0.75
-#: Largest interpolation error the swing curve's points are chosen for, V.
+#: Misses of the swing curve's points' polyline from the measured curve that the points are
+#: chosen to stay within, where six points allow it (:func:`curve_distance`): headroom, V, or
+#: current, relative.
 SWING_TOLERANCE_V = 5e-3
+SWING_TOLERANCE_REL = 0.05
 #: Phase margin below which the part counts as not unity-gain stable, degrees (common practice).
 STABLE_MARGIN_DEG = 45.0
 
@@ -176,24 +181,56 @@ class SwingCurve:
     points: tuple[tuple[float, float], ...]  #: the catalogue's (current, headroom) points
 
 
-def _pwl_error(x: np.ndarray, y: np.ndarray, keep: list[int]) -> np.ndarray:
+def curve_distance(x: np.ndarray, y: np.ndarray, kx: np.ndarray, ky: np.ndarray) -> np.ndarray:
+    """How far the piecewise-linear curve through ``(kx, ky)`` (what partsel interpolates)
+    misses each point ``(x, y)`` of a measured swing curve (current, headroom), in units of
+    the tolerances: the smaller of the headroom miss over :data:`SWING_TOLERANCE_V` and the
+    current miss (the polyline's current at that headroom against the curve's, relative to
+    the current) over :data:`SWING_TOLERANCE_REL`. A step (a class-B stage's sink headroom
+    jumps by 0.4 V within microamps at its pull-down current) then counts by how far off it
+    is in current, and the curved stretches by their headroom."""
+    vertical = np.abs(y - np.interp(x, kx, ky)) / SWING_TOLERANCE_V
+    ramp = ky + np.arange(ky.size) * 1e-12  # strictly increasing for the inverse
+    x_at = np.interp(y, ramp, kx)
+    floor = 1e-3 * float(x[-1])
+    sideways = np.abs(x_at - x) / np.maximum(x, floor) / SWING_TOLERANCE_REL
+    return np.minimum(vertical, sideways)
+
+
+def _distance(x: np.ndarray, y: np.ndarray, keep: list[int]) -> np.ndarray:
     k = sorted(keep)
-    return np.abs(y - np.interp(x, x[k], y[k]))
+    return curve_distance(x, y, x[k], y[k])
 
 
-def _round_current(i_a: float) -> float:
-    if i_a <= 0:
-        return 0.0
-    digits = 2 - math.floor(math.log10(i_a))
-    return round(i_a, digits)
+def _refine(x: np.ndarray, y: np.ndarray, keep: list[int], passes: int = 4) -> list[int]:
+    """Move each inner breakpoint, between its neighbours, to where the larger distance of
+    its two segments from the curve is least (a few passes: greedy insertion alone leaves the
+    points where the miss first peaked)."""
+    keep = list(keep)
+    for _ in range(passes):
+        moved = False
+        for n in range(1, len(keep) - 1):
+            a, b = keep[n - 1], keep[n + 1]
+            if b - a < 3:
+                continue
+            best, best_err = keep[n], math.inf
+            for j in range(a + 1, b, max(1, (b - a) // 200)):
+                err = float(np.max(_distance(x, y, [0, a, j, b, x.size - 1])[a : b + 1]))
+                if err < best_err:
+                    best, best_err = j, err
+            moved |= best != keep[n]
+            keep[n] = best
+        if not moved:
+            break
+    return keep
 
 
 def swing_curve(
     tables: list[dict[str, np.ndarray]], rail: str, supply_v: float, top_a: float
 ) -> SwingCurve:
     """Headroom against current from the ``swing_*`` bench's sweeps, and the catalogue's
-    points: 0 and ``top_a`` and up to four more, at least four in all, where the piecewise-
-    linear curve through them misses the measured one most (:data:`SWING_TOLERANCE_V`)."""
+    points: 0 and ``top_a`` and up to four more, at least four in all (see the module
+    docstring; :data:`SWING_TOLERANCE`)."""
     i = np.concatenate([t["i-sweep"] for t in tables])
     v = np.concatenate([t["v(out)"] for t in tables])
     order = np.argsort(i, kind="stable")
@@ -207,23 +244,17 @@ def swing_curve(
         raise _fail(f"swing_{rail}", "the output does not reach towards the rail")
     keep = [0, i.size - 1]
     while len(keep) < MAX_SWING_POINTS:
-        err = _pwl_error(i, head, keep)
+        err = _distance(i, head, keep)
         j = int(np.argmax(err))
-        if err[j] <= SWING_TOLERANCE_V and len(keep) >= 4:
+        if err[j] <= 1.0 and len(keep) >= 4:
             break
         if j in keep:  # error zero everywhere: add the largest gap's middle
             gaps = np.diff(sorted(keep))
             j = int(sorted(keep)[int(np.argmax(gaps))] + gaps.max() // 2)
         keep.append(j)
-    points = []
-    for j in sorted(set(keep)):
-        ia = _round_current(float(i[j]))
-        points.append((ia, float(np.interp(ia, i, head))))
-    # rounding may merge points; keep increasing currents
-    uniq: dict[float, float] = {}
-    for ia, h in points:
-        uniq.setdefault(ia, h)
-    return SwingCurve(i, head, tuple(sorted(uniq.items())))
+    keep = _refine(i, head, sorted(set(keep)))
+    points = tuple((float(i[j]), float(head[j])) for j in sorted(set(keep)))
+    return SwingCurve(i, head, points)
 
 
 # ---- input common mode ---------------------------------------------------------------------

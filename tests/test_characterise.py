@@ -1,0 +1,331 @@
+"""``partsel characterise`` against partsel's transistor-level op-amps (tests/circuits/).
+
+The characteriser sees only the five pins of each subcircuit. Every figure it measures is
+checked against something it cannot see or does not share:
+
+* internal probes (device currents; the characteriser's benches never name them): the
+  class-B pull-down transistor's collector current, the source device's collector (drain)
+  current at no load for the biased stages;
+* tests/circuits/characterise.py, the circuits' own datasheet-style measurements written
+  independently of partsel.characterise (GBW as |A| f at 10 kHz, slew rates from its own step
+  bench, supply current, swing with a current-source load);
+* transistor-level transients of circuits the characteriser never ran (gain 2, other loads,
+  frequencies and amplitudes), for the dead band and for the end-to-end prediction.
+
+Tolerances (issue 12): stage current +-5 %, GBW +-10 %, slew rate +-10 %, supply current
++-5 %, the topology right, and the glitch the fitted dead band gives at slopes not used for
+the fit within +-15 % of the transistor-level glitch. Measured (ngspice 39; the table:
+``python tests/bench/bench_characterise.py``): stage current -0.3 % (class B), -1.2 % (class
+AB), -0.0 % (CMOS) from the probes; GBW within 0.2 % and slew rates within 0.2 % of the
+reference benches; supply current within 0.1 %; the fitted dead band 0.8 % below the probe's
+drive-node distance, and its glitches in the 15 crossover cases of the grid -8.0 .. +10.7 %
+(closed form) and -0.1 .. +14.0 % (simulation) from the transistor level's. The closest
+agreements (GBW, slew, supply) are the same quantity read by two benches; the probe checks
+are the independent ones.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import pytest
+import yaml
+from circuits import characterise as reference
+from circuits.characterise import CLASS_AB, CLASS_B, CMOS, Case, Circuit, run_all
+from test_transistor_level_opamp import design_of
+
+from partsel.characterise.benches import Conditions
+from partsel.characterise.model_file import read_models
+from partsel.characterise.record import stage_params
+from partsel.characterise.run import Characterisation, characterise
+from partsel.physics.analysis import predict_closed_form
+from partsel.physics.simulate import simulate
+
+CIRCUITS = (CLASS_B, CLASS_AB, CMOS)
+SUPPLY = Conditions(5.0)
+#: Gain-2 circuits (R_f = R_g = 100 kohm around 2.5 V, load to 2.5 V) the dead-band fit never
+#: saw: three loads, three frequencies, two output amplitudes.
+GRID = [Case(r, f, a) for r in (600.0, 2e3, 10e3) for f in (1e3, 5e3, 20e3) for a in (0.5, 0.8)]
+
+
+@dataclass(frozen=True)
+class Run:
+    result: Characterisation
+    ref: reference.Measured
+    slew_ref: tuple[float, float]  #: the reference's step bench at the characteriser's levels
+
+
+@pytest.fixture(scope="module")
+def runs(need_ngspice: None, tmp_path_factory: pytest.TempPathFactory) -> dict[str, Run]:
+    tmp = tmp_path_factory.mktemp("characterise")
+    out = {}
+    for c in CIRCUITS:
+        models = read_models([c.path], c.name)
+        r = characterise(models, SUPPLY, work=tmp / c.name)
+        ref = reference.characterise(c, tmp / "ref" / c.name)
+        slew = reference._slew(c, tmp / "ref" / f"{c.name}-slew", r.step.low_v, r.step.high_v)
+        out[c.name] = Run(r, ref, slew)
+    return out
+
+
+@pytest.mark.parametrize("c", CIRCUITS, ids=lambda c: c.name)
+def test_topology(runs: dict[str, Run], c: Circuit) -> None:
+    """Class B: the supply current falls one for one with the current pulled into the output
+    (slope -1) and the loop holds the output past the knee; biased stages share it (slope
+    about -1/2, the value for two equal devices at balance); CMOS swings to both rails."""
+    r = runs[c.name].result
+    assert r.topology.value == c.topology
+    expected = -1.0 if c.pulldown else -0.5
+    assert r.knee.slope_at_zero == pytest.approx(expected, abs=0.05)
+
+
+@pytest.mark.parametrize("c", CIRCUITS, ids=lambda c: c.name)
+def test_stage_current_within_5_percent_of_the_probe(runs: dict[str, Run], c: Circuit) -> None:
+    run = runs[c.name]
+    assert run.result.knee.stage_current_a == pytest.approx(run.ref.stage_current_probe_a, rel=0.05)
+
+
+@pytest.mark.parametrize("c", CIRCUITS, ids=lambda c: c.name)
+def test_supply_current_within_5_percent(runs: dict[str, Run], c: Circuit) -> None:
+    run = runs[c.name]
+    assert run.result.quiescent.supply_current_a == pytest.approx(
+        run.ref.supply_current_a, rel=0.05
+    )
+
+
+@pytest.mark.parametrize("c", CIRCUITS, ids=lambda c: c.name)
+def test_gbw_within_10_percent(runs: dict[str, Run], c: Circuit) -> None:
+    run = runs[c.name]
+    ol = run.result.open_loop
+    assert ol.integrator and ol.gbw_hz == pytest.approx(run.ref.gbw_hz, rel=0.10)
+    # unity-gain stable (the circuits' phase margins are 59 to 87 degrees)
+    assert ol.phase_margin_deg > 45.0 and ol.min_stable_gain == 1.0
+
+
+@pytest.mark.parametrize("c", CIRCUITS, ids=lambda c: c.name)
+def test_slew_within_10_percent(runs: dict[str, Run], c: Circuit) -> None:
+    run = runs[c.name]
+    rise, fall = run.slew_ref
+    assert run.result.slew.rise_v_per_s == pytest.approx(rise, rel=0.10)
+    assert run.result.slew.fall_v_per_s == pytest.approx(fall, rel=0.10)
+    assert run.result.slew.swing_v > 1.0  # a large step: many times the linear range
+
+
+@pytest.mark.parametrize("c", CIRCUITS, ids=lambda c: c.name)
+def test_swing_curves(runs: dict[str, Run], c: Circuit) -> None:
+    """At least four points, increasing; the polyline through them (what partsel
+    interpolates) misses the measured curve at no current of the sweep by more than 25 mV
+    in headroom or 25 % in current (where the curve steps, the class-B sink headroom jumping
+    by 0.4 V within microamps at the pull-down current, it is the current that stays close);
+    the dense curve gives the reference's current-source bench's headroom at the reference's
+    currents within 10 mV (the same physics, another bench)."""
+    run = runs[c.name]
+    for curve, ref_points in (
+        (run.result.swing_pos, run.ref.swing_pos),
+        (run.result.swing_neg, run.ref.swing_neg),
+    ):
+        i, h = np.array(curve.points).T
+        assert 4 <= i.size <= 6 and np.all(np.diff(i) > 0) and np.all(np.diff(h) >= 0)
+        assert i[0] == 0.0
+        x, y = curve.current_a, curve.headroom_v
+        up = np.abs(np.interp(x, i, h) - y)
+        side = np.abs(np.interp(y, h + np.arange(h.size) * 1e-12, i) - x)
+        ok = (up <= 0.025) | (side <= 0.25 * np.maximum(x, 1e-3 * x[-1]))
+        assert ok.all(), (c.name, x[~ok][:3])
+        for i_ref, h_ref in ref_points:
+            if i_ref <= curve.current_a[-1]:
+                assert np.interp(i_ref, curve.current_a, curve.headroom_v) == pytest.approx(
+                    h_ref, abs=0.01
+                ), (c.name, i_ref)
+    if c is CMOS:  # rail-to-rail: a common-source device on at no load leaves millivolts
+        assert run.result.swing_pos.headroom_v[0] < 0.01
+        assert run.result.swing_neg.headroom_v[0] < 0.01
+
+
+@pytest.mark.parametrize("c", CIRCUITS, ids=lambda c: c.name)
+def test_current_limits_hold_the_output_at_mid_supply(runs: dict[str, Run], c: Circuit) -> None:
+    """The limits are where the output, driven hard, holds mid-supply (no protection in these
+    circuits): beyond every swing-curve current, and the swing curve reaches mid-supply's
+    headroom near the limit (the sweep goes to 80 % of it)."""
+    r = runs[c.name].result
+    assert r.source_limit_a > r.swing_pos.current_a[-1]
+    assert r.sink_limit_a > r.swing_neg.current_a[-1]
+
+
+def test_input_common_mode_range(runs: dict[str, Run]) -> None:
+    """The bipolar circuits' PNP pair saturates when its base falls below its collector node
+    (two base-emitter drops up, about 1.2 V) by more than about 0.4 V: range from about 0.8 V;
+    its tail source needs about 0.6 V (one V_BE and the emitter resistor's drop) to V+. The
+    CMOS pair (PMOS, NMOS mirror) works down to below ground. Values from the circuits' design
+    (common practice for these structures), windows of +-0.3 V."""
+    for name in (CLASS_B.name, CLASS_AB.name):
+        cm = runs[name].result.common_mode
+        assert 0.5 < cm.low_v < 1.1 and 4.1 < cm.high_v < 4.7
+    cm = runs[CMOS.name].result.common_mode
+    assert cm.low_v < 0.0 and cm.high_v < 4.7
+
+
+def test_dead_band_is_checked_at_a_second_slope(runs: dict[str, Run]) -> None:
+    """The characteriser's own report: at three times the fit's slope its dead band gives the
+    glitch ngspice measured there within 15 % (closed form and simulation)."""
+    d = runs[CLASS_B.name].result.dead_band
+    assert d is not None
+    assert d.slopes_v_per_s[1] == pytest.approx(3.0 * d.slopes_v_per_s[0], rel=0.05)
+    assert abs(d.closed_form_error) < 0.15 and abs(d.simulated_error) < 0.15
+    for name in (CLASS_AB.name, CMOS.name):
+        assert runs[name].result.dead_band is None
+
+
+@pytest.fixture(scope="module")
+def grid_waves(
+    runs: dict[str, Run], tmp_path_factory: pytest.TempPathFactory
+) -> dict[Case, reference.Wave]:
+    offset = runs[CLASS_B.name].ref.offset_v
+    waves = run_all([(CLASS_B, c) for c in GRID], tmp_path_factory.mktemp("grid"),
+                    {CLASS_B.name: offset})  # fmt: skip
+    return {c: waves[(CLASS_B, c)] for c in GRID}
+
+
+def _deviation(case: Case, w: reference.Wave) -> float:
+    d = design_of(case)
+    t = np.arange(w.v_out.size) / (w.v_out.size * case.frequency_hz)
+    return float(np.max(np.abs(w.v_out - (w.v_static - d.out_bias_v) - d.v_ideal(t))))
+
+
+def test_fitted_dead_band_reproduces_the_transistor_level_glitch(
+    runs: dict[str, Run], grid_waves: dict[Case, reference.Wave]
+) -> None:
+    """Every crossover case of the grid (the sink device takes over in ngspice: 15 of 18),
+    none of them a bench the fit used: partsel's closed-form glitch and its simulated peak
+    deviation with the record's values (the fitted dead band among them) within 15 % of the
+    transistor-level peak deviation. The fitted dead band itself lies within 10 % of the
+    drive-node distance the reference measures with the drive node exposed (a probe)."""
+    run = runs[CLASS_B.name]
+    d = run.result.dead_band
+    assert d is not None
+    assert d.value_v == pytest.approx(run.ref.dead_band_v, rel=0.10)
+    stage = stage_params(run.result, d.value_v)
+    n = 0
+    for case, w in grid_waves.items():
+        if np.max(-w.i_sink) < 5e-6:  # no handover in ngspice (boundary cases at 10 kohm)
+            continue
+        n += 1
+        design = design_of(case)
+        cf = predict_closed_form(stage, design)
+        sim = simulate(stage, design, steps_per_period=1024)
+        dev = _deviation(case, w)
+        assert cf.conduction[0] == "changes-mode", case
+        assert cf.glitch_v[0] == pytest.approx(dev, rel=0.15), case
+        assert sim.deviation_peak_v[0] == pytest.approx(dev, rel=0.15), case
+    assert n == 15
+
+
+# ---- the command line, end to end -----------------------------------------------------------
+
+
+def _design(path: Path, case: Case, *, r_neg: str | None = None) -> Path:
+    """The design file of a reference test circuit (see design_of): gain 2 around 2.5 V."""
+    extra = f'to_negative_rail = "{r_neg}"\n' if r_neg else ""
+    path.write_text(
+        f"""name = "characterise end to end"
+[supply]
+positive = "5 V"
+[signal]
+bias = "2.5 V"
+amplitude = "{case.amplitude_v / case.gain!r} V"
+frequency = "{case.frequency_hz!r} Hz"
+[amplifier]
+configuration = "non-inverting"
+gain = {case.gain!r}
+feedback_resistor = "100 kohm"
+[load]
+resistance = "{case.r_load_ohm!r} ohm"
+reference = "2.5 V"
+coupling = "dc"
+{extra}[requirements]
+basis = "typical"
+conduction = "allowed"
+""",
+        encoding="utf-8",
+    )
+    return path
+
+
+def test_characterise_store_predict_against_the_transistor_level_circuit(
+    cli, tmp_path: Path, need_ngspice: None
+) -> None:
+    """characterise -> --store -> predict in circuits the characteriser never ran, against
+    the same circuits at transistor level in ngspice: the glitch within 15 % and the
+    handover verdict right (the sink device conducts in ngspice exactly where partsel says
+    the stage changes mode)."""
+    res = cli(
+        "characterise", CLASS_B.path, "--subckt", "opamp_class_b", "--part-number", "TLB-50",
+        "--maker", "Test Bench Works", "--store", "--json",
+    )  # fmt: skip
+    assert res.exit_code == 0, res.output
+    out = json.loads(res.stdout)
+    assert out["stored"] == {"version": 1, "action": "added"}
+    show = json.loads(cli("show", "TLB-50", "--json").stdout)
+    assert show["record"]["output"]["topology"] == "class-b-pulldown"
+    ref = reference.characterise(CLASS_B, tmp_path / "ref")
+    cases = {
+        "changes-mode": (Case(2e3, 5e3, 0.8), None),
+        "one-mode": (Case(10e3, 2e3, 0.5, r_neg_ohm=10e3), "10 kohm"),
+    }
+    waves = run_all([(CLASS_B, c) for c, _ in cases.values()], tmp_path / "t",
+                    {CLASS_B.name: ref.offset_v})  # fmt: skip
+    for verdict, (case, r_neg) in cases.items():
+        design = _design(tmp_path / f"{verdict}.toml", case, r_neg=r_neg)
+        pred = cli("predict", design, "TLB-50", "--json")
+        assert pred.exit_code in (0, 1), pred.output
+        p = json.loads(pred.stdout)[0]["prediction"]
+        w = waves[(CLASS_B, case)]
+        sink_on = float(np.max(-w.i_sink)) > 0.1 * ref.stage_current_probe_a
+        assert p["conduction"] == verdict
+        assert sink_on == (verdict == "changes-mode")
+        if verdict == "changes-mode":
+            assert p["glitch_v"] == pytest.approx(_deviation(case, w), rel=0.15)
+
+
+def test_characterise_record_passes_check_and_stores_versioned(
+    cli, tmp_path: Path, need_ngspice: None
+) -> None:
+    """The YAML record passes partsel check; --store adds the part, a second --store over an
+    edited part keeps its own fields and replaces the measured ones (a new version in the
+    history, by characterise), and --plots writes one PNG per bench."""
+    res = cli("characterise", CLASS_AB.path, "--subckt", "opamp_class_ab", "--plots",
+              tmp_path / "figs")  # fmt: skip
+    assert res.exit_code == 0, res.output
+    f = tmp_path / "rec.yaml"
+    f.write_text(res.stdout, encoding="utf-8")
+    assert cli("check", f).exit_code == 0
+    doc = yaml.safe_load(res.stdout)
+    part = doc["parts"][0]
+    assert part["part_number"] == "OPAMP_CLASS_AB" and part["output"]["topology"] == "class-ab"
+    assert "dead_band" not in part["output"]
+    pngs = sorted(p.name for p in (tmp_path / "figs").glob("*.png"))
+    assert pngs == sorted(
+        f"{n}.png"
+        for n in ("supply", "open_loop", "short_pos", "short_neg", "input_cm", "knee",
+                  "swing_pos", "swing_neg", "slew")
+    )  # fmt: skip
+    # an existing part with its own package and price: characterise --store keeps them
+    part["packages"] = [{"code": "SO-8", "pinout": "SGL-8A"}]
+    part["price"] = {"unit": 0.5, "currency": "USD"}
+    part["output"]["stage_current"] = {"typ": "1 mA"}
+    f.write_text(yaml.safe_dump(doc), encoding="utf-8")
+    assert cli("load", f).exit_code == 0
+    res = cli("characterise", CLASS_AB.path, "--subckt", "opamp_class_ab", "--store")
+    assert res.exit_code == 0, res.output
+    assert "OPAMP_CLASS_AB: version 2 stored (changed)" in res.output
+    rec = json.loads(cli("show", "OPAMP_CLASS_AB", "--json").stdout)["record"]
+    assert rec["packages"] == [{"code": "SO-8", "pinout": "SGL-8A"}] and rec["price"]["unit"] == 0.5
+    assert rec["output"]["stage_current"]["typ"] != "1 mA"
+    hist = json.loads(cli("history", "OPAMP_CLASS_AB", "--json").stdout)
+    assert [h["version"] for h in hist] == [1, 2]
+    assert hist[-1]["source"] == "characterise opamp_class_ab"
+    assert math.isfinite(float(rec["dynamics"]["min_stable_gain"]))
