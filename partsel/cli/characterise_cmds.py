@@ -246,6 +246,181 @@ def _summary(r: Any) -> None:
         message(ln)
 
 
+#: Labels of the fitted quantities for people.
+_FIT_LABEL = {
+    "stage_current": "stage current",
+    "dead_band": "dead band",
+    "slew_rise": "slew rate, rising",
+    "slew_fall": "slew rate, falling",
+}
+#: Where each fitted quantity sits in a record.
+_FIT_PATH = {
+    "stage_current": ("output", "stage_current"),
+    "dead_band": ("output", "dead_band"),
+    "slew_rise": ("dynamics", "slew_rise"),
+    "slew_fall": ("dynamics", "slew_fall"),
+}
+
+
+def _fit_json(fit: Any, part: str, capture: Any, design: Any) -> dict[str, Any]:
+    def one(p: Any) -> dict[str, Any]:
+        return {
+            "value": p.value,
+            "ci95": p.ci95,
+            "start": p.start,
+            "unit": p.unit,
+            "determined": p.determined,
+        }
+
+    return {
+        "part_number": part,
+        "capture": capture.file,
+        "design": design.name,
+        "columns": [{"name": c.name, "unit": c.unit} for c in capture.columns],
+        "samples": fit.n,
+        "periods": fit.periods,
+        "time_from_input": fit.t0_from_input,
+        "parameters": {p.key: one(p) for p in fit.params},
+        "offset": one(fit.offset),
+        "time_shift": one(fit.time_shift),
+        "residual_rms_v": fit.residual_rms_v,
+        "degrees_of_freedom": fit.dof,
+        "evaluations": fit.nfev,
+    }
+
+
+def _fit_text(fit: Any, part: str, capture: Any, design: Any) -> str:
+    cols = ", ".join(f"{c.name!r}" + (f" [{c.unit}]" if c.unit else "") for c in capture.columns)
+    lines = [
+        f"{part} in {design.name!r} fitted to {capture.file}: {fit.n} samples over "
+        f"{fit.periods:.3g} periods (columns {cols}; time origin from "
+        f"{'the input' if fit.t0_from_input else 'the output (fitted)'})",
+    ]
+    for p in fit.params:
+        unit = "V/s" if p.unit == "V/s" else p.unit
+        lines.append(
+            f"  {_FIT_LABEL[p.key]:18} {P.quantity(p.value, unit, 4):>12} ± "
+            f"{P.quantity(p.ci95, unit, 3):<10} (95 %)  catalogue {P.quantity(p.start, unit, 4)}"
+            + ("" if p.determined else "  — not determined by this capture")
+        )
+    lines.append(
+        f"  {'output offset':18} {P.quantity(fit.offset.value, 'V', 4):>12} ± "
+        f"{P.quantity(fit.offset.ci95, 'V', 3)}"
+    )
+    lines.append(f"  {'residual':18} {P.quantity(fit.residual_rms_v, 'V', 3):>12} rms")
+    return "\n".join(lines)
+
+
+def _fitted_record(stored: dict[str, Any], fit: Any, capture: Any, design: Any) -> dict:
+    """``stored`` with the determined fitted values as typical values (min and max kept)."""
+    import copy
+
+    rec = copy.deepcopy(stored)
+    at: dict[str, Any] = {"supply": P.quantity(design.supply.total_v, "V", 4)}
+    if design.load.r_load_ohm is not None:
+        at["load"] = P.quantity(design.load.r_load_ohm, "ohm", 4)
+    name = " ".join(Path(capture.file).name.split())
+    at["note"] = f"partsel fit-capture of {name}"
+    for p in fit.params:
+        if not p.determined:
+            continue
+        node = rec
+        path = _FIT_PATH[p.key]
+        for k in path[:-1]:
+            node = node.setdefault(k, {})
+        old = node.get(path[-1])
+        spec = {s: old[s] for s in ("min", "max") if isinstance(old, dict) and s in old}
+        spec["typ"] = P.quantity(p.value, "V/s" if p.unit == "V/s" else p.unit, 4)
+        spec["at"] = at
+        node[path[-1]] = {k: spec[k] for k in ("min", "typ", "max", "at") if k in spec}
+    return rec
+
+
+def fit_capture(
+    ctx: typer.Context,
+    capture_file: Annotated[
+        Path, typer.Argument(metavar="CAPTURE", help="Scope capture (CSV): time, output[, input].")
+    ],
+    design_file: Annotated[
+        Path, typer.Option("--design", "-d", help="Design file of the circuit captured.")
+    ],
+    part: Annotated[
+        str,
+        typer.Option("--part", help="Part captured: its catalogue record is the fit's start."),
+    ],
+    columns: Annotated[
+        str | None,
+        typer.Option(
+            "--columns",
+            metavar="TIME,[IN,]OUT",
+            help="Columns by name or number (from 1): time,out or time,in,out (default: the "
+            "first is time, then input and output when there are three).",
+        ),
+    ] = None,
+    store: Annotated[
+        bool,
+        typer.Option(
+            "--store",
+            help="Store the fitted values (those the capture determines) as the part's "
+            "typical values, versioned like 'edit'.",
+        ),
+    ] = False,
+    json_out: JsonFlag = False,
+) -> None:
+    """Fit a part's stage current and dead band (and slew rate) to a bench capture.
+
+    Least squares on partsel's own simulation of the part in the design, with 95 %
+    confidence intervals and the residual. The capture is an oscilloscope CSV: header
+    lines, units in the column names and ; or tab separators with decimal commas are read.
+    """
+    from partsel.characterise.fit import fit_capture as run_fit
+    from partsel.io.scope import read_capture
+
+    with bad_input_exits(json_out=json_out):
+        if store:
+            writable_engine(ctx, "fit-capture")
+        from partsel.cli.common import load_design, session
+
+        design = load_design(design_file)
+        capture = read_capture(capture_file, columns)
+        s = session(ctx)
+        rows = s.rows([part])
+        stage = s.table.stage("typical").take(rows)
+        pn = str(s.table.part_number[rows[0]])
+        fit = run_fit(stage, design, capture)
+        edit = None
+        if store:
+            from partsel.catalogue import get_part
+
+            eng = writable_engine(ctx, "fit-capture")
+            stored = get_part(eng, pn)
+            if stored is None:  # removed since the session read it
+                raise InputError(f"no part {pn!r} in the catalogue", record=pn)
+            record = _fitted_record(stored.record, fit, capture, design)
+            from partsel.catalogue import edit_part
+
+            name = " ".join(Path(capture.file).name.split())
+            edit = edit_part(
+                eng, record, stored.version, user=user(ctx), source=f"fit-capture {name}"
+            )
+    if json_out:
+        out = _fit_json(fit, pn, capture, design)
+        if edit is not None:
+            out["stored"] = {"version": edit.version, "action": edit.action}
+        echo_json(out)
+    else:
+        typer.echo(_fit_text(fit, pn, capture, design))
+    undetermined = [p.key for p in fit.params if not p.determined]
+    if undetermined:
+        message(
+            "note: not determined by this capture (95 % interval wider than half the value), "
+            "not stored: " + ", ".join(undetermined)
+        )
+    if edit is not None:
+        message(_edit_line(edit))
+
+
 def register(app: typer.Typer) -> None:
     """Add the characterisation commands to ``app``."""
     app.command("characterise")(database_errors_exit(characterise))
+    app.command("fit-capture")(database_errors_exit(fit_capture))
