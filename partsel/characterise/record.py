@@ -3,9 +3,11 @@
 The record holds typical values only (a model is one part, not a production spread), each
 with the conditions of its bench in ``at``. What a model cannot tell (packages, price, rated
 temperature and supply range, lifecycle, channels) is filled so that the record passes
-``partsel check`` and says so in its notes: one package ``unspecified``, the rated ranges
-reduced to the one supply and temperature measured. Stored over an existing part
-(:func:`merged_record`), the measured fields replace the stored ones and the rest is kept.
+``partsel check`` and says so in its notes: one package ``unspecified`` (no thermal
+resistance: the junction-temperature check then lacks its value) and rated ranges around the
+one supply and temperature measured, unless the command line gives them. Stored over an
+existing part (:func:`merged_record`), the measured fields replace the stored ones and the
+rest is kept.
 
 The report (:func:`report`) lists every measurement with its value, unit, conditions and
 bench, and every bench with its circuit (the deck without the model): ``partsel characterise
@@ -22,6 +24,7 @@ import numpy as np
 
 from partsel import present as P
 from partsel.catalogue.schema import FORMAT_NAME
+from partsel.characterise.model_file import file_label
 from partsel.params import Topology
 
 if TYPE_CHECKING:
@@ -83,7 +86,7 @@ def conditions(result: Characterisation, load_ohm: float | None = None, note: st
 
 def _spec(result: Characterisation, value: float, unit: str, bench: str) -> dict:
     b = result.benches[bench]
-    return {"typ": _q(value, unit), "at": conditions(result, b.load_ohm, f"partsel {bench}")}
+    return {"typ": _q(value, unit), "at": conditions(result, b.load_ohm, f"partsel bench {bench}")}
 
 
 def _swing(result: Characterisation, rail: str) -> list[dict]:
@@ -128,7 +131,7 @@ def build_record(
     db = dead_band_v if dead_band_v is not None else (r.dead_band.value_v if r.dead_band else None)
     if r.topology == Topology.CLASS_B_PULLDOWN and db is not None:
         out["dead_band"] = _spec(r, db, "V", "deadband_1")
-    files = ", ".join(r.models.files)
+    files = ", ".join(file_label(f) for f in r.models.files)
     rec: dict[str, Any] = {
         "part_number": part_number,
         "maker": maker,
@@ -159,7 +162,8 @@ def build_record(
             f"Typical values measured by partsel characterise in ngspice on subcircuit "
             f"{r.models.name} (model files: {files}) at {_q(v_pos, 'V')} and "
             f"{r.cond.temperature_c:g} degC. A model gives no package, price, rated "
-            "temperature or supply range: the package is 'unspecified'"
+            "temperature or supply range: the package is what partsel was told ('unspecified' "
+            "when nothing)"
             + (
                 ""
                 if supply_range_v and temperature_range_c
@@ -169,10 +173,9 @@ def build_record(
             + "; fill them in from the datasheet."
         ),
     }
-    if cm.low_beyond or cm.high_beyond:
-        rec["input"]["cm_headroom_neg" if cm.low_beyond else "cm_headroom_pos"]["at"]["note"] += (
-            " (the range reaches the end of the sweep: at least this)"
-        )
+    for beyond, key in ((cm.low_beyond, "cm_headroom_neg"), (cm.high_beyond, "cm_headroom_pos")):
+        if beyond:
+            rec["input"][key]["at"]["note"] += " (the range reaches the end of the sweep)"
     return rec
 
 

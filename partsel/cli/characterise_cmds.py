@@ -49,6 +49,23 @@ def _pair(text: str | None, dimension: str, option: str) -> tuple[float, float] 
     return lo, hi
 
 
+def _package(text: str) -> dict[str, str]:
+    """A ``--package CODE,PINOUT[,THETA_JA]`` option as a record's package entry."""
+    parts = [p.strip() for p in text.split(",")]
+    if len(parts) not in (2, 3) or not all(parts):
+        raise InputError(
+            "--package takes CODE,PINOUT or CODE,PINOUT,THETA_JA (e.g. 'SO-8,SGL-8A,160 K/W')",
+            pointer="/package",
+        )
+    out = {"code": parts[0], "pinout": parts[1]}
+    if len(parts) == 3:
+        from partsel.units import parse_quantity
+
+        parse_quantity(parts[2], "thermal_resistance", field="/package/theta_ja")
+        out["theta_ja"] = parts[2]
+    return out
+
+
 def _name(text: str, what: str, option: str) -> str:
     from partsel.io.partnumber import name_problem
 
@@ -125,6 +142,15 @@ def characterise(
             help="Rated ambient range (default: the simulation temperature +-5 K).",
         ),
     ] = None,
+    package: Annotated[
+        list[str] | None,
+        typer.Option(
+            "--package",
+            metavar="CODE,PINOUT[,THETA_JA]",
+            help="A package of the part, e.g. 'SO-8,SGL-8A,160 K/W' (repeat for more; "
+            "default: one 'unspecified').",
+        ),
+    ] = None,
     store: Annotated[
         bool,
         typer.Option(
@@ -173,6 +199,7 @@ def characterise(
         )
         if not 0.5 <= cond.supply_v <= 100.0:
             raise InputError("--supply: give the total supply, 0.5 V to 100 V", pointer="/supply")
+        packages = [_package(p) for p in package or []]
         s_rng = _pair(supply_range, "voltage", "--supply-range")
         t_rng = _pair(temperature_range, "temperature", "--temperature-range")
         if plots is not None:
@@ -191,6 +218,8 @@ def characterise(
         record = build_record(
             result, part_number=pn, maker=mk, supply_range_v=s_rng, temperature_range_c=t_rng
         )
+        if packages:
+            record["packages"] = packages
         from partsel.catalogue import validate_documents
 
         (checked,) = validate_documents([("characterised record", document(record))])
