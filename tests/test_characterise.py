@@ -329,3 +329,60 @@ def test_characterise_record_passes_check_and_stores_versioned(
     assert [h["version"] for h in hist] == [1, 2]
     assert hist[-1]["source"] == "characterise opamp_class_ab"
     assert math.isfinite(float(rec["dynamics"]["min_stable_gain"]))
+
+
+def test_the_characterised_sample_is_what_characterise_measures(runs: dict[str, Run]) -> None:
+    """sample-catalog/characterised holds the three test subcircuits' records (README.md in
+    sample-catalog/parts): its measured values are today's measurements within 0.5 % (the
+    record's four significant digits and ngspice's tolerances)."""
+    from partsel.units import parse_quantity
+
+    path = Path(__file__).resolve().parents[1] / "sample-catalog" / "characterised"
+    doc = yaml.safe_load((path / "pellacott-devices.yaml").read_text(encoding="utf-8"))
+    by_circuit = {"PCD-150": CLASS_B, "PCD-240": CLASS_AB, "PCD-360R": CMOS}
+    assert sorted(p["part_number"] for p in doc["parts"]) == sorted(by_circuit)
+    for part in doc["parts"]:
+        r = runs[by_circuit[part["part_number"]].name].result
+        out, dyn = part["output"], part["dynamics"]
+        assert out["topology"] == r.topology.value
+        pairs = [
+            (out["stage_current"]["typ"], "current", r.knee.stage_current_a),
+            (part["supply"]["current_per_channel"]["typ"], "current",
+             r.quiescent.supply_current_a),
+            (dyn["gbw"]["typ"], "frequency", r.open_loop.gbw_hz),
+            (dyn["slew_rise"]["typ"], "slew", r.slew.rise_v_per_s),
+            (dyn["slew_fall"]["typ"], "slew", r.slew.fall_v_per_s),
+        ]  # fmt: skip
+        if r.dead_band is not None:
+            pairs.append((out["dead_band"]["typ"], "voltage", r.dead_band.value_v))
+        for text, dim, now in pairs:
+            assert parse_quantity(text, dim) == pytest.approx(now, rel=0.005), (part, text)
+
+
+def test_fit_capture_of_the_transistor_level_circuit_agrees_with_characterise(
+    runs: dict[str, Run], tmp_path: Path
+) -> None:
+    """A capture of the transistor-level class-B circuit itself (the last of six periods of a
+    gain-2 circuit, 2 kohm to mid-supply, 0.8 V at 5 kHz, 2000 samples: the circuit stands in
+    for a part on the bench) fitted from the characterised record: the stage current and the
+    dead band within 10 % of what characterise measured at its own benches, the slew rates
+    (the crossing slews here, so they are fitted too) within 15 %. Measured: -5.0 %, -5.9 %,
+    -9.6 %. The fit's intervals reflect noise only and are far narrower here (0.3 to 1.5 %):
+    what is left is the macro-model's own error against the transistor level (1.8 mV rms of
+    residual against a 195 mV glitch)."""
+    from partsel.characterise.fit import fit_capture
+    from partsel.io.scope import Capture
+
+    run = runs[CLASS_B.name]
+    case = Case(2e3, 5e3, 0.8)
+    design = design_of(case)
+    w = reference.transient(CLASS_B, case, tmp_path, periods=6, n=2000, steps=4096)
+    t = np.arange(2000) / (2000 * case.frequency_hz)
+    fit = fit_capture(stage_params(run.result, run.result.dead_band.value_v), design,
+                      Capture("transistor level", t, w.v_out, design.v_in(t), (), 1))  # fmt: skip
+    got = {p.key: p.value for p in fit.params}
+    assert got["stage_current"] == pytest.approx(run.result.knee.stage_current_a, rel=0.10)
+    assert got["dead_band"] == pytest.approx(run.result.dead_band.value_v, rel=0.10)
+    assert got["slew_rise"] == pytest.approx(run.result.slew.rise_v_per_s, rel=0.15)
+    assert got["slew_fall"] == pytest.approx(run.result.slew.fall_v_per_s, rel=0.15)
+    assert fit.residual_rms_v < 0.02 * _deviation(case, w)

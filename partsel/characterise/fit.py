@@ -133,14 +133,14 @@ def fit_capture(stage: StageParams, design: Design, capture: Capture) -> Capture
     period = 1.0 / f
     w = 2.0 * math.pi * f
     t, v = capture.t_s, capture.v_out
-    span = float(t[-1] - t[0])
-    if span < MIN_PERIODS * period:
+    dt_cap = float(np.median(np.diff(t)))
+    span = float(t[-1] - t[0]) + dt_cap  # the samples cover their last interval too
+    if span < MIN_PERIODS * period * (1 - 1e-6):
         raise InputError(
             f"the capture spans {span:.4g} s, less than one period of the design's "
             f"{f:.6g} Hz signal",
             file=capture.file,
         )
-    dt_cap = float(np.median(np.diff(t)))
     if dt_cap > period / 64:
         raise InputError(
             f"the capture samples every {dt_cap:.3g} s, too coarse for a {f:.6g} Hz signal "
