@@ -269,6 +269,11 @@ def test_characterise_store_predict_against_the_transistor_level_circuit(
     assert res.exit_code == 0, res.output
     out = json.loads(res.stdout)
     assert out["stored"] == {"version": 1, "action": "added"}
+    benches = {b["name"]: b for b in out["benches"]}
+    for m in out["measurements"]:  # every measurement names its bench and conditions
+        assert m["bench"] in benches and m["at"]["supply"] == "5 V", m
+    assert benches["knee"]["circuit"][0].startswith("* partsel characterise bench 'knee'")
+    assert not any("Qpd" in line for b in benches.values() for line in b["circuit"])
     show = json.loads(cli("show", "TLB-50", "--json").stdout)
     assert show["record"]["output"]["topology"] == "class-b-pulldown"
     ref = reference.characterise(CLASS_B, tmp_path / "ref")
@@ -386,3 +391,38 @@ def test_fit_capture_of_the_transistor_level_circuit_agrees_with_characterise(
     assert got["slew_rise"] == pytest.approx(run.result.slew.rise_v_per_s, rel=0.15)
     assert got["slew_fall"] == pytest.approx(run.result.slew.fall_v_per_s, rel=0.15)
     assert fit.residual_rms_v < 0.02 * _deviation(case, w)
+
+
+def test_class_a_is_the_class_b_circuit_without_its_sink_device(
+    need_ngspice: None, tmp_path: Path
+) -> None:
+    """The class-B circuit with its sink device (Qk) removed is a class-A stage: its pull-down
+    is the sink bias, and the loop lets go of the output once the pulled current passes it.
+    Topology class-a, stage current (the knee) within 5 % of the pull-down transistor's own
+    collector current (probe), and the sink limit is that same current."""
+    text = CLASS_B.path.read_text(encoding="utf-8")
+    assert "\nQk vn nd out PGEN 4\n" in text
+    sub = tmp_path / "opamp_class_a.sub"
+    sub.write_text(
+        text.replace("\nQk vn nd out PGEN 4\n", "\n").replace("opamp_class_b", "opamp_class_a"),
+        encoding="utf-8",
+    )
+    r = characterise(read_models([sub], "opamp_class_a"), SUPPLY, work=tmp_path / "w")
+    i_pd = _pulldown_probe(sub, tmp_path / "probe")
+    assert r.topology.value == "class-a"
+    assert r.knee.stage_current_a == pytest.approx(i_pd, rel=0.05)
+    assert r.sink_limit_a == pytest.approx(i_pd, rel=0.05)
+    assert r.dead_band is None
+
+
+def _pulldown_probe(sub: Path, work: Path) -> float:
+    """The pull-down transistor's collector current, the follower at mid-supply, no load."""
+    from partsel.spice_run import run_ngspice_columns
+
+    deck = (
+        f"* probe\n{sub.read_text(encoding='utf-8')}\nVp vp 0 5\nVin inp 0 DC 2.5\n"
+        "X1 inp out out vp 0 opamp_class_a\n.control\nset wr_singlescale\nset wr_vecnames\n"
+        "save @q.x1.qpd[ic]\nop\nwrdata data.txt @q.x1.qpd[ic]\nquit\n.endc\n.end\n"
+    )
+    cols = run_ngspice_columns(deck, work)
+    return float(np.ravel(cols["@q.x1.qpd[ic]"])[0])

@@ -296,3 +296,19 @@ def test_part_number_and_maker_text_never_reach_a_deck(
     assert decks.count("* partsel characterise bench") >= 9
     assert ".subckt opamp_class_ab" in decks
     assert "PN;" not in decks and "Maker" not in decks and "shell" not in decks
+
+
+def test_the_command_line_imports_none_of_it_until_asked() -> None:
+    """``partsel --help`` stays fast: importing the command line loads neither the
+    characterisation package, the scope reader, ngspice's runner nor their numerical
+    libraries (they are imported inside the commands)."""
+    import subprocess
+    import sys
+
+    code = (
+        "import sys, partsel.cli.main; print(','.join(m for m in ('numpy', 'scipy', "
+        "'matplotlib', 'partsel.characterise', 'partsel.io.scope', 'partsel.spice_run') "
+        "if m in sys.modules))"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == ""
