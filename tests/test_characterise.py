@@ -426,3 +426,59 @@ def _pulldown_probe(sub: Path, work: Path) -> float:
     )
     cols = run_ngspice_columns(deck, work)
     return float(np.ravel(cols["@q.x1.qpd[ic]"])[0])
+
+
+TWO_POLE = """* a two-pole behavioural amplifier, invented for this test
+.subckt twopole inp inn out vp vn
+G1 0 n1 inp inn 1m
+R1 n1 0 1meg
+C1 n1 0 {c1}
+E2 n2 0 n1 0 1
+R2 n2 n3 1k
+C2 n3 0 {c2}
+E3 out 0 n3 0 1
+Rq vp vn 20k
+.ends twopole
+"""
+
+
+def test_phase_margin_and_minimum_stable_gain_of_a_two_pole_amplifier(
+    need_ngspice: None, tmp_path: Path
+) -> None:
+    """A0 = 1000 with poles at f1 = 1 kHz and f2 = 300 kHz: GBW = A0 f1 = 1 MHz, unity gain
+    where A0 / sqrt((1 + x1^2)(1 + x2^2)) = 1 (x_i = f / f_i), phase margin
+    180 - atan x1 - atan x2 degrees, and a phase of -135 degrees where x1 + x2 = x1 x2 - 1
+    (the tangent of a sum), the minimum stable gain being |A| there (common practice: 45
+    degrees of phase margin). The open-loop bench and its measurement against that analysis,
+    within 2 % (0.2 degrees for the margin) and rounded up to a tenth for the gain."""
+    import math
+
+    from partsel.characterise import benches as bench
+    from partsel.characterise import measure
+    from partsel.spice_run import run_ngspice_tables
+
+    f1, f2, a0 = 1e3, 300e3, 1000.0
+    c1, c2 = 1 / (2 * math.pi * 1e6 * f1), 1 / (2 * math.pi * 1e3 * f2)
+    sub = tmp_path / "twopole.sub"
+    sub.write_text(TWO_POLE.format(c1=repr(c1), c2=repr(c2)), encoding="utf-8")
+    models = read_models([sub], "twopole")
+    b = bench.open_loop(models, SUPPLY)
+    ac = run_ngspice_tables(b.deck, tmp_path / "ol", no_init=True)["ac.txt"]
+    ol = measure.open_loop(ac["frequency"], ac["vdb(out)"], ac["vp(out)"])
+
+    def mag(f: float) -> float:
+        return a0 / math.sqrt((1 + (f / f1) ** 2) * (1 + (f / f2) ** 2))
+
+    lo, hi = f1, 10 * f2
+    for _ in range(200):  # unity gain by bisection (|A| falls with f)
+        mid = math.sqrt(lo * hi)
+        lo, hi = (mid, hi) if mag(mid) > 1 else (lo, mid)
+    f_u = lo
+    pm = 180 - math.degrees(math.atan(f_u / f1) + math.atan(f_u / f2))
+    # x1 + x2 = x1 x2 - 1 with x1 = f / f1, x2 = f / f2: f^2 / (f1 f2) - f (1/f1 + 1/f2) - 1 = 0
+    qa, qb = 1 / (f1 * f2), -(1 / f1 + 1 / f2)
+    f135 = (-qb + math.sqrt(qb * qb + 4 * qa)) / (2 * qa)
+    assert ol.gbw_hz == pytest.approx(a0 * f1, rel=0.02)
+    assert ol.unity_hz == pytest.approx(f_u, rel=0.02)
+    assert ol.phase_margin_deg == pytest.approx(pm, abs=0.2)
+    assert pm < 45 and ol.min_stable_gain == math.ceil(10 * mag(f135)) / 10

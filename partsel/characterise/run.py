@@ -142,12 +142,12 @@ def _run(
     timeout_s: float,
     advance: Callable[[int], None],
 ) -> dict[str, dict[str, dict[str, np.ndarray]]]:
-    from partsel.spice_run import run_ngspice_tables
+    from partsel.spice_run import NgspiceError, run_ngspice_tables
 
     def one(b: B.Bench) -> tuple[str, Any]:
         try:
             out = run_ngspice_tables(b.deck, work / b.name, timeout_s=timeout_s, no_init=True)
-        except Exception as exc:  # every failure becomes the bench's InputError below
+        except (NgspiceError, OSError, ValueError) as exc:  # ValueError: unreadable data
             return b.name, _bench_error(models, b, exc)
         finally:
             advance(1)
