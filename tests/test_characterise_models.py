@@ -96,6 +96,16 @@ def test_commands_and_circuits_are_refused_with_file_and_line(
     assert "line 8" in first.message and words in first.message
 
 
+def test_a_control_card_on_a_continuation_line_is_refused(tmp_path: Path) -> None:
+    err = _refused(_write(tmp_path, TOY.replace("Rq vp vn 50k", "Rq vp vn 50k\n+ .control")))
+    assert "line 7" in str(err) and ".control" in str(err)
+
+
+def test_global_nodes_the_benches_use_are_refused(tmp_path: Path) -> None:
+    err = _refused(_write(tmp_path, ".global mref\n" + TOY))
+    assert "mref" in str(err)
+
+
 def test_a_control_block_inside_the_subcircuit_is_refused(tmp_path: Path) -> None:
     p = _write(tmp_path, TOY.replace(".ends toy", ".control\nshell id\n.endc\n.ends toy"))
     err = _refused(p)

@@ -4,7 +4,8 @@ Every deck is written here from numbers and partsel's own text only: its title, 
 circuit, the analyses and the control block; the model appears as the cards
 :mod:`partsel.characterise.model_file` checked (``ModelSet.text``). The pins are the nodes
 ``inp``, ``inn``, ``out``, ``vp``; V- is the bench's ground (node 0), so a model that refers
-to node 0 internally is measured on a single supply, as partsel's designs are.
+to node 0 internally is measured on a single supply, as partsel's designs are. The benches use
+no other node names than :data:`partsel.characterise.model_file.BENCH_NODES`.
 
 Benches (``mid`` = half the supply; every resistive load but the slew bench's returns to ``mid``):
 

@@ -36,6 +36,9 @@ MAX_MODEL_BYTES = 8 * 2**20
 PIN_ROLES: tuple[str, ...] = ("IN+", "IN-", "OUT", "V+", "V-")
 #: Node names partsel's benches give the pins (V- is the bench's ground, node 0).
 PIN_NODES: dict[str, str] = {"IN+": "inp", "IN-": "inn", "OUT": "out", "V+": "vp", "V-": "0"}
+#: Every node name of partsel's benches (partsel.characterise.benches); a model may not
+#: declare one of them global.
+BENCH_NODES = frozenset({"inp", "inn", "out", "vp", "lref", "xs", "mref"})
 #: Dot cards a model file may hold.
 ALLOWED_CARDS = frozenset(
     {".subckt", ".ends", ".model", ".param", ".func", ".include", ".inc", ".global", ".end"}
@@ -192,7 +195,7 @@ def _refuse_unsafe(text: str, file: str) -> None:
         if not s or s.startswith("*"):
             continue
         body = _strip_comment(s)
-        if _CONTROL.search(body):
+        if _CONTROL.search(body.lstrip("+ \t")):
             raise InputError(
                 f"line {k}: a '.control' block holds ngspice commands; model files are data "
                 "and partsel runs none of their commands (remove the block)",
@@ -384,11 +387,11 @@ def read_models(
         )
     globals_ = {w.lower() for s in scans for c in s.top if c.words[0].lower() == ".global"
                 for w in c.words[1:]}  # fmt: skip
-    clash = sorted(globals_ & set(PIN_NODES.values()) - {"0"})
+    clash = sorted(globals_ & BENCH_NODES)
     if clash:
         raise InputError(
             f"the model declares global node(s) {', '.join(clash)}, which partsel's test "
-            "benches use for the pins",
+            "benches use",
             file=labels[0],
         )
     # the subcircuit and every subcircuit it instantiates (depth first)

@@ -232,7 +232,18 @@ def characterise(
             written = write_figures(result, plots)
         edit = None
         if store:
-            edit = _store(ctx, record, f"characterise {models.name}", merged_record)
+
+            def merge(stored: dict[str, Any], measured: dict[str, Any]) -> dict[str, Any]:
+                out = merged_record(stored, measured)
+                if packages:  # what the command line says wins over the stored record too
+                    out["packages"] = measured["packages"]
+                if s_rng:
+                    out["supply"]["range"] = measured["supply"]["range"]
+                if t_rng:
+                    out["temperature"] = measured["temperature"]
+                return out
+
+            edit = _store(ctx, record, f"characterise {models.name}", merge)
     _summary(result)
     if written:
         message(f"wrote {len(written)} figures to {plots}")
