@@ -407,7 +407,10 @@ def test_class_a_is_the_class_b_circuit_without_its_sink_device(
         text.replace("\nQk vn nd out PGEN 4\n", "\n").replace("opamp_class_b", "opamp_class_a"),
         encoding="utf-8",
     )
-    r = characterise(read_models([sub], "opamp_class_a"), SUPPLY, work=tmp_path / "w")
+    seen: list[tuple[int, int]] = []
+    r = characterise(read_models([sub], "opamp_class_a"), SUPPLY, work=tmp_path / "w",
+                     progress=lambda done, total: seen.append((done, total)))  # fmt: skip
+    assert seen[-1] == (9, 9) and [d for d, _ in seen] == list(range(1, 10))  # no dead band
     i_pd = _pulldown_probe(sub, tmp_path / "probe")
     assert r.topology.value == "class-a"
     assert r.knee.stage_current_a == pytest.approx(i_pd, rel=0.05)

@@ -19,6 +19,7 @@ from __future__ import annotations
 import math
 import os
 import tempfile
+import threading
 import time
 from collections.abc import Callable
 from concurrent.futures import ThreadPoolExecutor
@@ -215,11 +216,23 @@ def characterise(
     work: Path | None = None,
     jobs: int | None = None,
     timeout_s: float = DEFAULT_TIMEOUT_S,
-    progress: Callable[[int], None] | None = None,
+    progress: Callable[[int, int], None] | None = None,
 ) -> Characterisation:
-    """Measure ``models``' subcircuit at ``cond`` (see the module docstring)."""
+    """Measure ``models``' subcircuit at ``cond`` (see the module docstring).
+
+    ``progress(done, total)`` is called as each bench finishes; ``total`` is the benches
+    still expected (it shrinks when the stage turns out not to be class B)."""
     t0 = time.perf_counter()
-    advance = progress or (lambda n=1: None)
+    count = {"done": 0, "total": 11}  # 6 + 3 + the two dead-band benches of a class-B stage
+    lock = threading.Lock()
+
+    def advance(n: int = 1) -> None:
+        with lock:
+            count["done"] += n
+            count["total"] = max(count["total"], count["done"])
+            if progress is not None:
+                progress(count["done"], count["total"])
+
     jobs = jobs or default_jobs()
     with tempfile.TemporaryDirectory(prefix="partsel-characterise-") as tmp:
         root = Path(work) if work is not None else Path(tmp)
@@ -248,6 +261,8 @@ def characterise(
             B.swing(models, cond, "neg", top_neg),
             B.slew(models, cond, step),
         ]
+        if kn.biased or kn.class_a:
+            count["total"] -= 2
         t2 = _run(models, second, root, jobs, timeout_s, advance)
         sw_pos = M.swing_curve(list(t2["swing_pos"].values()), "pos", cond.supply_v, top_pos)
         sw_neg = M.swing_curve(list(t2["swing_neg"].values()), "neg", cond.supply_v, top_neg)
@@ -255,6 +270,7 @@ def characterise(
         tr = t2["slew"]["tran.txt"]
         sl = M.slew(tr["time"], tr["v(out)"], step.t_rise_s, step.t_fall_s, step.t_end_s)
         if not sl.settled:  # a slower part than its GBW suggests: once more, four times longer
+            count["total"] += 1
             step = _slew_step(cond, cm, ol.gbw_hz, 4.0)
             again = B.slew(models, cond, step)
             t2["slew"] = _run(models, [again], root, jobs, timeout_s, advance)["slew"]

@@ -208,13 +208,7 @@ def characterise(
             output_folder(plots)
         models = read_models(files, subckt, roles)
         with progress_to("running test benches", enabled=not json_out) as update:
-            done = [0]
-
-            def advance(n: int = 1) -> None:
-                done[0] += n
-                update(done[0], max(done[0], 11))
-
-            result = run(models, cond, timeout_s=timeout, jobs=jobs, progress=advance)
+            result = run(models, cond, timeout_s=timeout, jobs=jobs, progress=update)
         record = build_record(
             result, part_number=pn, maker=mk, supply_range_v=s_rng, temperature_range_c=t_rng
         )
