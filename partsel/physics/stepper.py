@@ -34,6 +34,7 @@ from __future__ import annotations
 
 import math
 import os
+import sys
 import time
 
 import platformdirs
@@ -46,6 +47,27 @@ import numpy as np
 
 if not numba.config.CACHE_DIR:  # numba was imported before this module with no folder set
     numba.config.CACHE_DIR = os.environ["NUMBA_CACHE_DIR"]
+
+
+def _load_numpy_support_without_blas_probe() -> None:
+    """Load numba's numpy support now, skipping its BLAS probe when scipy is not loaded yet.
+
+    numba probes for a BLAS by importing ``scipy.linalg`` (about 0.2 s where scipy is
+    installed, ``tests/bench/bench_physics.py``) the first time it loads compiled code; the
+    stepper uses no linear algebra, so while the support loads ``scipy.linalg`` is hidden and
+    numba records "no BLAS" (its ``np.dot`` is then unavailable to compiled code in this
+    process only). scipy itself is untouched: it imports normally afterwards
+    (``fit-capture``)."""
+    if "scipy.linalg" in sys.modules or "numba.np.arraymath" in sys.modules:
+        return  # probed already, or scipy.linalg is loaded anyway
+    sys.modules["scipy.linalg"] = None  # type: ignore[assignment]
+    try:
+        import numba.np.arraymath  # noqa: F401
+    finally:
+        del sys.modules["scipy.linalg"]
+
+
+_load_numpy_support_without_blas_probe()
 
 #: Largest increase of an exponent argument (units of its voltage scale) per Newton iteration.
 EXP_STEP = 3.0
