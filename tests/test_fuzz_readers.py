@@ -1,7 +1,7 @@
 """Fuzz suite over every reader of the input edge: catalogue files (YAML and JSON), sheets with
-their mapping files, edited records, and the text reader on TOML designs. Inputs are the
-invented fixtures mutated with hostile fragments (brackets, anchors and aliases, tags, quotes,
-long numbers, invisible characters, arithmetic, odd units) and free-form documents.
+their mapping files, edited records, scope captures, and the text reader on TOML designs.
+Inputs are the invented fixtures mutated with hostile fragments (brackets, anchors and aliases,
+tags, quotes, long numbers, invisible characters, arithmetic, odd units) and free-form documents.
 
 Property: every input gives a result or partsel's own InputError (with a message and the file
 where one exists), never another exception; after a refusal the database is unchanged (a dump
@@ -225,3 +225,35 @@ def test_text_reader_any_syntax(text: str, syntax: str) -> None:
         read_structured(text, syntax=syntax, file="x")  # type: ignore[arg-type]
     except InputError as exc:
         _check_problems(exc, "x")
+
+
+# Scope captures (partsel fit-capture): the sample capture's head (settings block, header with
+# units, the first rows) mutated, in the usual separators.
+CAPTURE_TEXT = "\n".join(
+    (PROJECT / "sample-catalog" / "captures" / "pcd-150-driver-2k.csv")
+    .read_text(encoding="utf-8")
+    .splitlines()[:40]
+)
+
+
+@SETTINGS
+@given(
+    st.one_of(
+        mutated(CAPTURE_TEXT),
+        mutated(CAPTURE_TEXT.replace(",", ";").replace(".", ",")),
+        mutated(CAPTURE_TEXT.replace(",", "\t")),
+    ),
+    st.sampled_from([None, "time,in,out", "time,out", "Time,CH2", "1,3", "x,y"]),
+)
+def test_scope_captures(tmp_path: Path, text: str, columns: str | None) -> None:
+    from partsel.io.scope import read_capture
+
+    path = tmp_path / "capture.csv"
+    path.write_text(text, encoding="utf-8", errors="surrogatepass")
+    try:
+        cap = read_capture(path, columns)
+    except InputError as exc:
+        _check_problems(exc, "file")
+        return
+    assert cap.n >= 2 and cap.t_s.shape == cap.v_out.shape
+    assert cap.v_in is None or cap.v_in.shape == cap.t_s.shape
