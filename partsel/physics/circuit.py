@@ -93,6 +93,10 @@ class Design:
     source: str | None = None
     warnings: tuple[str, ...] = field(default=(), compare=False)
     """Implausible values of the design file, for people (the values are kept)."""
+    tolerances: dict[tuple[str, str], Any] = field(default_factory=dict)
+    """Tolerances and ranges of the design's quantities, by (section, key) of the design file
+    (``("load", "resistance")``): :class:`partsel.units.Toleranced` values whose ``nominal``
+    is the field's value here. Quantities not listed are exact."""
 
     # ---- derived quantities of the ideal closed loop -------------------------------------
     @property
