@@ -18,8 +18,9 @@ parts) and :func:`partsel.physics.fix.size_fix`; see :mod:`partsel.solver.solve`
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 
@@ -232,17 +233,20 @@ def _empty(p: int, fill: float | int, dtype: type = float) -> np.ndarray:
 
 @dataclass(frozen=True)
 class DesignLevels:
-    """Part-independent levels of the ideal waveform, V."""
+    """Part-independent levels of the ideal waveform, V (arrays of shape (N,) for a batch
+    design, one per row)."""
 
-    out_max_v: float
-    out_min_v: float
-    in_max_v: float
-    in_min_v: float
+    out_max_v: Any
+    out_min_v: Any
+    in_max_v: Any
+    in_min_v: Any
 
     @classmethod
     def of(cls, design: Design) -> DesignLevels:
         t, v, _ = ideal_grid(design)
         vp = design.v_plus(t)
+        if design.rows is not None:
+            return cls(v.max(axis=1), v.min(axis=1), vp.max(axis=1), vp.min(axis=1))
         return cls(float(v.max()), float(v.min()), float(vp.max()), float(vp.min()))
 
 
@@ -260,10 +264,16 @@ def evaluate(
     design: Design,
     req: Requirements,
     levels: DesignLevels,
+    *,
+    inputs: Mapping[str, np.ndarray] | None = None,
 ) -> CheckArrays:
     """Every check, as designed (no fix fitted), for the parts ``idx`` of ``table``.
 
-    ``stage`` and ``cf`` hold the same parts, in the same order, as ``idx``.
+    ``stage`` and ``cf`` hold the same parts, in the same order, as ``idx`` (a part may appear
+    in several rows: the spread analysis evaluates samples of a part as rows, with a batch
+    ``design`` of one circuit per row). ``inputs``: the input parameters of the rows that the
+    stage model does not hold (``offset_voltage``, ``noise_density``, ``bias_current``); by
+    default the table's on the requirements' basis.
     """
     p = idx.size
     basis = req.basis
@@ -315,9 +325,15 @@ def evaluate(
     put("supply_current", cf.supply_current_a, _opt(lim("max_supply_current")))
     n_pack = packages_needed(table.channels[idx], design.channels_used)
     put("price", table.number("price")[idx] * n_pack, _opt(lim("max_price")))
-    put("offset", table.param("offset_voltage", basis)[0][idx], _opt(lim("max_offset")))
-    put("noise", table.param("noise_density", basis)[0][idx], _opt(lim("max_noise")))
-    put("bias_current", table.param("bias_current", basis)[0][idx], _opt(lim("max_bias_current")))
+
+    def given(key: str) -> np.ndarray:
+        if inputs is not None and key in inputs:
+            return np.asarray(inputs[key], dtype=float)
+        return table.param(key, basis)[0][idx]
+
+    put("offset", given("offset_voltage"), _opt(lim("max_offset")))
+    put("noise", given("noise_density"), _opt(lim("max_noise")))
+    put("bias_current", given("bias_current"), _opt(lim("max_bias_current")))
 
     margin, ratio = margins_and_ratios(value, limit)
     # junction: ratio of allowed over predicted temperature rise
@@ -350,11 +366,11 @@ def evaluate(
             margin[:, IDX[name]] = np.nan
             ratio[:, IDX[name]] = np.nan
     # not applicable; warnings
-    if design.load.c_load_f <= 0:
-        status[:, IDX["cap_load"]] = NA
-    elif lim("max_cap_load_ratio") is None:
-        j = IDX["cap_load"]
+    j = IDX["cap_load"]
+    no_cap = np.broadcast_to(np.asarray(design.load.c_load_f) <= 0, (p,))
+    if lim("max_cap_load_ratio") is None:
         status[:, j] = np.where(status[:, j] == PASS, PASS, WARN)
+    status[no_cap, j] = NA
     biased = ~stage.has_pulldown
     status[biased, IDX["conduction"]] = NA
     if req.conduction == "allowed":
