@@ -658,31 +658,15 @@ def _device_law_thd(
 ) -> tuple[np.ndarray, np.ndarray]:
     """THD_F and glitch (peak residual, V) of parts ``idx`` from the device law in time: the
     compiled simulation of :mod:`partsel.physics.simulate` at MARGINAL_STEPS steps per period
+    (a batch design: each row in its own circuit)
     (marginal stages: no formula holds where a device nearly cuts off)."""
     from partsel.physics.simulate import simulate
 
-    if design.rows is None:
-        sim = simulate(
-            stage.take(idx), design, steps_per_period=MARGINAL_STEPS, n_warmup=1, max_warmup=2
-        )
-        return sim.thd_f, sim.residual_peak_v
-    # a batch: the simulation runs one design at a time, so the rows go by distinct design
-    sub = design.take(idx)
-    keys = np.stack(list(sub.varying().values()), axis=1).astype(float)
-    _, first, inverse = np.unique(keys, axis=0, return_index=True, return_inverse=True)
-    thd_f = np.empty(idx.size)
-    peak = np.empty(idx.size)
-    for g, row in enumerate(first):
-        rows = np.flatnonzero(inverse.reshape(-1) == g)
-        sim = simulate(
-            stage.take(idx[rows]),
-            sub.row(int(row)),
-            steps_per_period=MARGINAL_STEPS,
-            n_warmup=1,
-            max_warmup=2,
-        )
-        thd_f[rows], peak[rows] = sim.thd_f, sim.residual_peak_v
-    return thd_f, peak
+    sim = simulate(
+        stage.take(idx), design.take(idx), steps_per_period=MARGINAL_STEPS, n_warmup=1,
+        max_warmup=2,
+    )  # fmt: skip
+    return sim.thd_f, sim.residual_peak_v
 
 
 def _window(a: int, b: int, n: int, pad: int = 3, most: int = 24) -> np.ndarray:
@@ -772,12 +756,13 @@ def _class_a_clip(design: Design, i_bias: np.ndarray) -> tuple[np.ndarray, np.nd
 
 def ideal_grid(design: Design, n: int = GRID) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """One period of the ideal waveform: times (s), output (V) and output current (A); shape
-    (n,), or (N, n) for a batch design (:attr:`Design.rows`)."""
+    (n,), or (N, n) for a batch design (:attr:`Design.rows`; the times (n,) while every row has
+    the same frequency)."""
     t = np.arange(n) / (n * col(design.signal.frequency_hz))
     v, i = design.v_ideal(t), ideal_current(design, t)
-    if design.rows is not None:
+    if design.rows is not None:  # (the times stay one axis while the frequency is shared)
         shape = (design.rows, n)
-        return np.broadcast_to(t, shape), np.broadcast_to(v, shape), np.broadcast_to(i, shape)
+        return t, np.broadcast_to(v, shape), np.broadcast_to(i, shape)
     return t, v, i
 
 
@@ -843,12 +828,17 @@ def _clip_levels(
     return depth_top, depth_bot
 
 
-def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
+def predict_closed_form(
+    stage: StageParams, design: Design, *, device_law: np.ndarray | None = None
+) -> ClosedForm:
     """Closed-form predictions of every part of ``stage`` in ``design``.
 
     ``design`` may be a batch (:attr:`partsel.physics.circuit.Design.rows`: one design per row
     of ``stage``, e.g. one sample of the circuit's tolerances per row): every formula is then
-    evaluated row by row, with the same rules."""
+    evaluated row by row, with the same rules. ``device_law``: the rows (a boolean mask) whose
+    marginal stages get their THD and glitch from the device-law simulation (default: all);
+    elsewhere a marginal stage's THD and glitch are NaN, not evaluated (for callers that know
+    those rows are rejected on other grounds)."""
     p = stage.n
     batch = design.rows is not None
     sup = design.supply
@@ -993,7 +983,11 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
         thd_est[one] = np.nan_to_num(one_mode_thd(stage.take(rows_one), design.take(rows_one)))
     thd_est = np.where(stage.biased, bound, thd_est)
     # Marginal: the device law in time (a short compiled simulation of these parts only).
-    marg_idx = np.flatnonzero(marginal)
+    marg_idx = np.flatnonzero(marginal if device_law is None else marginal & device_law)
+    if device_law is not None:
+        skipped = marginal & ~device_law
+        thd_est[skipped] = np.nan
+        glitch[skipped] = np.nan
     if marg_idx.size:
         thd_m, glitch_m = _device_law_thd(stage, design, marg_idx)
         thd_est[marg_idx] = thd_m

@@ -128,7 +128,12 @@ def ideal_current(
     y = admittance(design, w, r_to_neg_ohm=r_to_neg_ohm, r_to_pos_ohm=r_to_pos_ohm)
     i0 = dc_current(design, r_to_neg_ohm=r_to_neg_ohm, r_to_pos_ohm=r_to_pos_ohm)
     # v = V0 + a sin(wt) = V0 + Im(a e^{jwt}); i = I0 + Im(Y a e^{jwt})
-    return col(i0) + np.imag(col(y * a) * np.exp(1j * col(w) * np.asarray(t_s, dtype=float)))
+    t = np.asarray(t_s, dtype=float)
+    if np.ndim(y) == 0 and np.ndim(i0) == 0 and np.ndim(a) == 0:
+        return i0 + np.imag(y * a * np.exp(1j * w * t))
+    ya = y * a  # a batch: the same, as Re(ya) sin(wt) + Im(ya) cos(wt) (real arithmetic)
+    wt = col(w) * t
+    return col(i0) + col(np.real(ya)) * np.sin(wt) + col(np.imag(ya)) * np.cos(wt)
 
 
 def thevenin_level(
