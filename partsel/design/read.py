@@ -72,6 +72,17 @@ def _read_requirements(
         return None, []
     problems: list[Problem] = []
     out = copy.deepcopy(dict(raw))
+    if "fix_tolerance" in raw and raw["fix_tolerance"] is not None:
+        try:
+            out["fix_tolerance"] = parse_quantity(
+                raw["fix_tolerance"],
+                "dimensionless",
+                field=json_pointer("requirements", "fix_tolerance"),
+                file=file,
+                record=record,
+            )
+        except InputError as exc:
+            problems.extend(exc.problems)
     limits = raw.get("limits")
     if isinstance(limits, Mapping):
         parsed: dict[str, Any] = {}

@@ -213,6 +213,33 @@ def _requirements_schema() -> dict[str, Any]:
                 "enum": list(req_mod.FIX_SERIES),
                 "default": "E24",
             },
+            "fix_tolerance": {
+                "description": "Relative tolerance of the fix resistor (default: the usual "
+                "one of its series, E24 5 %, E96 1 %; IEC 60063 series, tolerances common "
+                "practice); the fix is rounded down for it and the spread analysis draws it. "
+                "Unit: 1; a number or a percentage such as '1 %', below 100 %.",
+                "x-unit": "1",
+                "type": ["number", "string"],
+                "examples": ["1 %"],
+            },
+            "yield_samples": {
+                "description": "Boards a Monte Carlo yield is estimated from (min_yield, the "
+                f"yield objective, partsel yield), {req_mod.YIELD_SAMPLES_RANGE[0]} to "
+                f"{req_mod.YIELD_SAMPLES_RANGE[1]:,}. Unit: 1 (a count).",
+                "x-unit": "1",
+                "type": "integer",
+                "minimum": req_mod.YIELD_SAMPLES_RANGE[0],
+                "maximum": req_mod.YIELD_SAMPLES_RANGE[1],
+                "default": req_mod.DEFAULT_YIELD_SAMPLES,
+            },
+            "yield_seed": {
+                "description": "Seed of the yield's random draws (the same seed, the same "
+                "boards and the same yield). Unit: 1 (a whole number).",
+                "x-unit": "1",
+                "type": "integer",
+                "minimum": 0,
+                "default": req_mod.DEFAULT_YIELD_SEED,
+            },
             "limits": {
                 "description": "Hard limits: a part failing one is rejected.",
                 "type": "object",

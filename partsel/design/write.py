@@ -28,7 +28,7 @@ from partsel.solver import requirements as req_mod
 from partsel.units import UNIT_LABEL, Toleranced, parse_quantity, parse_toleranced
 
 #: Dimensionless limits that engineers write as a percentage (THD, gain error).
-PERCENT_LIMITS = frozenset({"max_thd", "max_gain_error"})
+PERCENT_LIMITS = frozenset({"max_thd", "max_gain_error", "min_yield"})
 
 
 def format_quantity(value: float, dimension: str, unit: str | None = None) -> str | float:
@@ -180,6 +180,9 @@ def design_to_mapping(design: Design) -> dict[str, Any]:
 def _requirements_to_mapping(req: Mapping[str, Any]) -> dict[str, Any]:
     """The canonical requirements with limits as readable strings (a THD as "0.1 %")."""
     out = copy.deepcopy(dict(req))
+    tol = out.get("fix_tolerance")
+    if isinstance(tol, int | float) and not isinstance(tol, bool):
+        out["fix_tolerance"] = format_percent(float(tol))
     limits = out.get("limits")
     if isinstance(limits, dict):
         for key, value in limits.items():

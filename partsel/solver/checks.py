@@ -149,6 +149,9 @@ CHECKS: tuple[CheckDef, ...] = (
              "direct", ("noise_density",)),
     CheckDef("bias_current", "A", "max", "Input bias current <= max_bias_current",
              "max_bias_current", "direct", ("bias_current",)),
+    CheckDef("yield", "1", "min", "Monte Carlo yield (fraction of boards meeting every other "
+             "check, partsel.solver.spread) >= min_yield; evaluated for the parts feasible on "
+             "the basis", "min_yield", "direct", display="%"),
     CheckDef("lifecycle", "", "is", "Lifecycle state is one of those accepted", "lifecycle",
              "choice", has_ratio=False),
     CheckDef("package", "", "is", "The part offers one of the accepted packages", "packages",
@@ -246,7 +249,8 @@ class DesignLevels:
         t, v, _ = ideal_grid(design)
         vp = design.v_plus(t)
         if design.rows is not None:
-            return cls(v.max(axis=1), v.min(axis=1), vp.max(axis=1), vp.min(axis=1))
+            ends = (v.max(axis=-1), v.min(axis=-1), vp.max(axis=-1), vp.min(axis=-1))
+            return cls(*(np.broadcast_to(x, (design.rows,)) for x in ends))
         return cls(float(v.max()), float(v.min()), float(vp.max()), float(vp.min()))
 
 
@@ -316,9 +320,7 @@ def evaluate(
         (lim("max_cap_load_ratio") or 1.0) * stage.cap_load_limit_f,
     )
     put("junction_temp", cf.t_junction_c, stage.junction_max_c)
-    frac = lim("min_source_fraction")
-    frac = 0.0 if frac is None else frac
-    put("conduction", cf.min_source_a, frac * stage.stage_current_a)
+    put("conduction", cf.min_source_a, conduction_limit(stage, req))
     put("fix_resistor", np.nan, lim("min_fix_resistance") or 0.0)
     put("thd", cf.thd_estimate, np.nan if lim("max_thd") is None else lim("max_thd"))
     put("glitch", cf.glitch_v, np.nan if lim("max_glitch") is None else lim("max_glitch"))
@@ -334,6 +336,7 @@ def evaluate(
     put("offset", given("offset_voltage"), _opt(lim("max_offset")))
     put("noise", given("noise_density"), _opt(lim("max_noise")))
     put("bias_current", given("bias_current"), _opt(lim("max_bias_current")))
+    put("yield", np.nan, _opt(lim("min_yield")))  # a spread analysis, see partsel.solver.solve
 
     margin, ratio = margins_and_ratios(value, limit)
     # junction: ratio of allowed over predicted temperature rise
@@ -350,6 +353,7 @@ def evaluate(
     for j in np.flatnonzero(SENSE_MIN | SENSE_MAX):
         m = margin[:, j]
         status[:, j] = np.where(m >= 0, PASS, np.where(np.isnan(m), UNKNOWN, FAIL))
+    status[:, IDX["yield"]] = SKIPPED if lim("min_yield") is not None else IGNORED
     # optional limits not set: shown, not required
     for name, key in (
         ("gain_error", "max_gain_error"),
@@ -360,6 +364,7 @@ def evaluate(
         ("offset", "max_offset"),
         ("noise", "max_noise"),
         ("bias_current", "max_bias_current"),
+        ("yield", "min_yield"),
     ):
         if lim(key) is None:
             status[:, IDX[name]] = IGNORED
@@ -397,6 +402,35 @@ def evaluate(
             margin[na, j] = np.nan
             ratio[na, j] = np.nan
     return CheckArrays(value, limit, margin, ratio, status)
+
+
+def put_yield(chk: CheckArrays, rows: np.ndarray, fraction: np.ndarray, req: Requirements) -> None:
+    """The yield check of parts ``rows``: their Monte Carlo yields ``fraction`` against
+    ``min_yield`` (in place; shown, not required, without that limit)."""
+    j = IDX["yield"]
+    chk.value[rows, j] = fraction
+    m, r = _column_margin_ratio(chk.value[rows, j], chk.limit[rows, j], "min", True)
+    if req.limit("min_yield") is None:
+        chk.status[rows, j] = IGNORED
+        return
+    chk.margin[rows, j], chk.ratio[rows, j] = m, r
+    chk.status[rows, j] = np.where(m >= 0, PASS, np.where(np.isnan(m), UNKNOWN, FAIL))
+
+
+def conduction_limit(stage: StageParams, req: Requirements) -> np.ndarray:
+    """The least source-device current the conduction check asks of each part, A:
+    ``min_source_fraction`` of its stage current."""
+    frac = req.limit("min_source_fraction")
+    return (0.0 if frac is None else frac) * stage.stage_current_a
+
+
+def conduction_fails(stage: StageParams, min_source_a: np.ndarray, req: Requirements) -> np.ndarray:
+    """Where the conduction check rejects a class-A/B part whose least source-device current
+    is ``min_source_a`` (never with ``conduction = "allowed"``, nor for a biased stage)."""
+    if req.conduction == "allowed":
+        return np.zeros(stage.n, dtype=bool)
+    with np.errstate(invalid="ignore"):
+        return stage.has_pulldown & ~(min_source_a >= conduction_limit(stage, req))
 
 
 def _opt(x: float | None) -> float:
@@ -443,6 +477,20 @@ def fix_variant(
     )
     # recompute margins, ratios and statuses of the columns touched
     cols = [IDX[c] for c in ("fix_resistor", "thd", "glitch", "supply_current", "junction_temp")]
+    _recheck(out, base, cols, design, works)
+    return out
+
+
+def _recheck(
+    out: CheckArrays,
+    base: CheckArrays,
+    cols: list[int],
+    design: Design,
+    works: np.ndarray | None = None,
+) -> None:
+    """Margins, ratios and statuses of columns ``cols`` of ``out`` from its values and limits
+    (in place); a check ``base`` ignored stays ignored, and the fix resistor's check fails
+    where no resistor ``works``."""
     m, r = margins_and_ratios(out.value, out.limit)
     t_a = design.t_ambient_max_c
     jt = IDX["junction_temp"]
@@ -458,11 +506,30 @@ def fix_variant(
         st = np.where(m[:, c] >= 0, PASS, FAIL).astype(np.int8)
         st = np.where(np.isnan(m[:, c]), UNKNOWN, st)
         if CHECKS[c].name == "fix_resistor":
-            st = np.where(works, st, FAIL)
-            r[:, c] = np.where(works, r[:, c], 0.0)
+            ok = np.ones(st.shape, dtype=bool) if works is None else works
+            st = np.where(ok, st, FAIL)
+            r[:, c] = np.where(ok, r[:, c], 0.0)
         else:
             st = np.where(was_ignored, IGNORED, st)
         out.status[:, c] = st
         out.margin[:, c] = np.where(st == IGNORED, np.nan, m[:, c])
         out.ratio[:, c] = np.where(st == IGNORED, np.nan, r[:, c])
+
+
+def fitted_in_circuit(
+    chk: CheckArrays, fitted: np.ndarray, thd_bound: np.ndarray, design: Design
+) -> CheckArrays:
+    """The checks of rows evaluated with partsel's fix resistor already in the circuit (the
+    spread analysis fits the recommended resistor to the board): as in :func:`fix_variant`, a
+    stage the resistor keeps in one mode (or biased) is bounded, not quoted, so its THD figure
+    is ``thd_bound`` (:func:`partsel.physics.analysis.thd_bound`, with the resistor) and its
+    glitch 0; rows where the resistor does not keep it in one mode keep their estimate (their
+    conduction check fails). ``fitted``: (R,) rows with the resistor."""
+    rows = np.asarray(fitted, dtype=bool) & np.isfinite(thd_bound)
+    if not rows.any():
+        return chk
+    out = CheckArrays(*(a.copy(order="F") for a in chk.astuple()))
+    out.value[rows, IDX["thd"]] = thd_bound[rows]
+    out.value[rows, IDX["glitch"]] = 0.0
+    _recheck(out, chk, [IDX["thd"], IDX["glitch"]], design)
     return out

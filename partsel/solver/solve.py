@@ -206,6 +206,29 @@ class FixInfo:
 
 
 @dataclass(frozen=True)
+class YieldSummary:
+    """Yields of a ranking: boards passed per part (-1 where not evaluated), of ``samples``
+    boards drawn with ``seed`` (:mod:`partsel.solver.spread`)."""
+
+    passed: np.ndarray
+    samples: int
+    seed: int
+
+    @property
+    def evaluated(self) -> np.ndarray:
+        """(P,) True where a yield was computed."""
+        return self.passed >= 0
+
+    @property
+    def fraction(self) -> np.ndarray:
+        """(P,) the yield ``passed / samples`` (NaN where not evaluated)."""
+        return np.where(self.evaluated, self.passed / self.samples, np.nan)
+
+    def take(self, index: np.ndarray) -> YieldSummary:
+        return YieldSummary(self.passed[np.asarray(index)], self.samples, self.seed)
+
+
+@dataclass(frozen=True)
 class Ranking:
     """Result of :func:`rank` (arrays along the part axis of ``table``)."""
 
@@ -230,6 +253,9 @@ class Ranking:
     fix: FixInfo
     hints: tuple[Hint, ...]
     timing_s: dict[str, float] = field(default_factory=dict)
+    yields: YieldSummary | None = None
+    """The Monte Carlo yields of the parts feasible on the basis, when the requirements ask for
+    one (``min_yield`` or the ``yield`` objective)."""
 
     @property
     def n(self) -> int:
@@ -341,7 +367,7 @@ def rank(
     with np.errstate(invalid="ignore"):
         needed = stage.has_pulldown & (chk.margin[:, jc] < 0)
     fx_rows = np.flatnonzero(needed)
-    fix = _size_fixes(stage, design, fx_rows, n, req.fix_series, frac, needed)
+    fix = _size_fixes(stage, design, fx_rows, n, req.fix_series, frac, needed, req.fix_tolerance)
     fixed = C.fix_variant(
         chk.take(fx_rows),
         r_ohm=fix.r_ohm[fx_rows],
@@ -367,6 +393,22 @@ def rank(
         pos = np.searchsorted(fx_rows, apply_rows)
         chk.put(apply_rows, fixed.take(pos))
     fix = _replace(fix, applied=use_fix & fix.works)
+    t_y = time.perf_counter()
+    yields = None
+    if req.needs_yield:
+        # the Monte Carlo yield of the parts feasible so far, on boards built as the verdict
+        # says (with the fix fitted where it is applied): a rule of its own, after the others
+        from partsel.solver.spread.evaluate import yields_of
+
+        rows_y = np.flatnonzero(feasible)
+        passed = np.full(n, -1, dtype=np.int64)
+        passed[rows_y] = yields_of(table, rows_y, design, req, fix)
+        yields = YieldSummary(passed, req.yield_samples, req.yield_seed)
+        C.put_yield(chk, rows_y, yields.fraction[rows_y], req)
+        low_yield = chk.failing[:, C.IDX["yield"]]
+        feasible = feasible & ~low_yield
+        other_fail = other_fail | low_yield  # (for the hints: no other mode admits them)
+    t_y = time.perf_counter() - t_y
     verdict = np.full(n, "rejected", dtype=object)
     verdict[feasible] = "feasible"
     verdict[feasible & fix.applied] = "feasible-with-fix"
@@ -395,6 +437,7 @@ def rank(
             )
             + sw,
             "min_margin": min_ratio,
+            "yield": v[:, C.IDX["yield"]],
         }
     score, utility = scores(metrics, req.objectives, feasible)
     pnames = req.pareto_objectives
@@ -438,6 +481,7 @@ def rank(
         fix=fix,
         hints=(),
         timing_s={},
+        yields=yields,
     )
     hint_list = (
         make_hints(
@@ -454,7 +498,7 @@ def rank(
     object.__setattr__(result, "hints", tuple(hint_list))
     result.timing_s.update(
         closed_form=t1 - t0, corners=t2 - t1, fix=t3 - t2, verdict=t4 - t3, hints=t5 - t4,
-        total=t5 - t0,
+        yields=t_y, total=t5 - t0,
     )  # fmt: skip
     return result
 
@@ -496,6 +540,7 @@ def _size_fixes(
     series: str,
     margin: float,
     needed: np.ndarray,
+    tolerance: float | None = None,
 ) -> FixInfo:
     """Run size_fix for ``rows`` in chunks; scatter into arrays over all ``n`` parts, with the
     one-mode THD estimate of each part with its recommended resistor fitted."""
@@ -512,7 +557,10 @@ def _size_fixes(
     tol = None
     for start in range(0, rows.size, FIX_CHUNK):
         part = rows[start : start + FIX_CHUNK]
-        fr = size_fix(stage.take(part), design, series=series, margin=margin, n_grid=FIX_GRID)
+        fr = size_fix(
+            stage.take(part), design, series=series, tolerance=tolerance, margin=margin,
+            n_grid=FIX_GRID,
+        )  # fmt: skip
         tol = fr.tolerance
         rec = fr.recommended
         sized[part] = True
@@ -559,7 +607,7 @@ def _size_fixes(
     if tol is None:
         from partsel.physics.eseries import SERIES_TOLERANCE
 
-        tol = SERIES_TOLERANCE[series.upper()]
+        tol = SERIES_TOLERANCE[series.upper()] if tolerance is None else tolerance
     return FixInfo(
         needed=needed,
         sized=sized,
