@@ -25,11 +25,12 @@ safety is involved.
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
 import json
 import threading
 from collections import OrderedDict
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -212,6 +213,26 @@ class Prediction:
         return [self.part(k) for k in range(self.n)]
 
 
+@contextlib.contextmanager
+def beyond_arithmetic(design: Design) -> Iterator[None]:
+    """Turn a floating-point overflow of the physics into a message about the design: only a
+    value far outside its plausible range (a signal at 1e300 Hz) gets there, and the design's
+    plausibility warnings name it."""
+    try:
+        yield
+    except (OverflowError, FloatingPointError) as exc:
+        if design.warnings:
+            raise InputError(
+                "the design's values overflow double-precision arithmetic: "
+                + "; ".join(design.warnings)
+            ) from None
+        raise InputError(
+            f"the design's values overflow double-precision arithmetic ({exc}): check the "
+            "values and their units",
+            file=design.source,
+        ) from None
+
+
 #: Parts simulated per call when a caller follows the progress.
 SIM_CHUNK = 16
 
@@ -250,7 +271,7 @@ def _simulate_chunks(
 
 
 #: Fields of a SimResult common to every part (the time axis and the ideal waveform).
-_SHARED = frozenset({"t_s", "v_ideal", "n_record", "steps_per_period"})
+_SHARED = frozenset({"t_s", "v_ideal", "n_record", "steps_per_period", "frequency_hz"})
 
 
 def concat_results(parts: Sequence[SimResult]) -> SimResult:
@@ -440,17 +461,33 @@ class Session:
             rows = np.array([index[p.strip().casefold()] for p in parts], dtype=int)
         sim = sim_fixed = None
         if run_simulation and rows.size:
-            stage = simulation_stage(ranking, rows)
-            fix = ranking.fix.take(rows)
-            with_fix = simulate_fix and bool(
-                np.isfinite(fix.r_neg_ohm).any() or np.isfinite(fix.r_pos_ohm).any()
-            )
-            sim = _simulate_chunks(stage, ranking.design, None, None, n_harmonics, progress)
-            if with_fix:
-                sim_fixed = _simulate_chunks(
-                    stage, ranking.design, fix.r_neg_ohm, fix.r_pos_ohm, n_harmonics, progress
+            with beyond_arithmetic(ranking.design):
+                sim, sim_fixed = self._simulations(
+                    ranking, rows, simulate_fix, n_harmonics, progress
                 )
         return Prediction(ranking, rows, sim, sim_fixed)
+
+    @staticmethod
+    def _simulations(
+        ranking: Ranking,
+        rows: np.ndarray,
+        simulate_fix: bool,
+        n_harmonics: int,
+        progress: Callable[[int], None] | None,
+    ) -> tuple[SimResult, SimResult | None]:
+        """Simulations of parts ``rows`` as designed and (when asked and sized) with the fix."""
+        sim_fixed = None
+        stage = simulation_stage(ranking, rows)
+        fix = ranking.fix.take(rows)
+        with_fix = simulate_fix and bool(
+            np.isfinite(fix.r_neg_ohm).any() or np.isfinite(fix.r_pos_ohm).any()
+        )
+        sim = _simulate_chunks(stage, ranking.design, None, None, n_harmonics, progress)
+        if with_fix:
+            sim_fixed = _simulate_chunks(
+                stage, ranking.design, fix.r_neg_ohm, fix.r_pos_ohm, n_harmonics, progress
+            )
+        return sim, sim_fixed
 
     # ---- substitutes, comparison, BOM --------------------------------------------------------
     def vet(
@@ -530,7 +567,8 @@ class Session:
                 self._cache.move_to_end(key)
                 r = hit[1]
                 return r if r.design is design else dataclasses.replace(r, design=design)
-            r = solver_rank(table, design, req, hints=hints)
+            with beyond_arithmetic(design):
+                r = solver_rank(table, design, req, hints=hints)
             self._cache[key] = (design, r)
             while len(self._cache) > EVALUATION_CACHE:
                 self._cache.popitem(last=False)

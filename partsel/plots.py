@@ -16,7 +16,7 @@ from typing import TYPE_CHECKING
 import numpy as np
 
 from partsel.api import CAUTION, Prediction
-from partsel.physics.simulate import SimResult
+from partsel.physics.simulate import SimResult, abandoned_reason
 from partsel.physics.spectrum import spectrum_db
 from partsel.present import CONDUCTION_TEXT, quantity
 
@@ -65,6 +65,8 @@ def figure(pred: Prediction, k: int) -> Figure:
     sim = pred.sim
     if sim is None:
         raise ValueError("the prediction has no simulation to plot")
+    if sim.abandoned[k]:
+        raise ValueError(abandoned_reason(sim, k))
     pn = str(pred.frame["part_number"].iloc[k])
     t_ms = (sim.t_s - sim.t_s[0]) * 1e3
     fixed: SimResult | None = None

@@ -65,6 +65,8 @@ def si(value: Any, unit: str, digits: int = 3, *, symbols: bool = False) -> str:
     if v == 0:
         return f"0 {unit}".strip()
     mag = abs(v)
+    if not PREFIXES[-1][0] * 1e-3 <= mag < PREFIXES[0][0] * 1e3:  # beyond the prefixes
+        return f"{v:.{digits}g} {unit}".strip()
     scale, prefix = PREFIXES[-1]
     for s, p in PREFIXES:
         # 0.9995: a value that rounds up to the next prefix at `digits` digits takes it
@@ -85,7 +87,7 @@ def percent(ratio: Any, digits: int = 2) -> str:
 
 def thd(ratio: Any, *, bound: bool = False) -> str:
     """A THD (a ratio, IEC THD_F) for people: always a percentage; an upper bound (biased
-    stages, a stage kept in one mode by a resistor) reads "below 0.2 %"."""
+    stages) reads "below 0.2 %"."""
     text = percent(ratio, 2)
     return f"below {text}" if bound and finite(ratio) else text
 

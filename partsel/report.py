@@ -106,7 +106,9 @@ def prediction_text(d: dict[str, Any]) -> str:
             f"  Clipping    the output clips by {_q(depth, 'V')}: the THD figure includes the "
             "clipping"
         )
-    if sim:
+    if sim and not sim.get("converged", True):
+        lines.append(f"  Simulation  not quoted: {sim['note']}")
+    elif sim:
         if c["conduction"] == "biased":
             shown = "not quoted for a biased stage (see the bound above)"
         else:
@@ -129,7 +131,7 @@ def prediction_text(d: dict[str, Any]) -> str:
         sw_hi, sw_lo = _checks_line(rows, "swing_high"), _checks_line(rows, "swing_low")
         lines.append(
             f"  Swing       margin {_q(sw_hi['margin'], 'V')} to V+, {_q(sw_lo['margin'], 'V')}"
-            " to V− (at the current flowing)"
+            " to V− (at the current flowing" + (", with the fix)" if fx["applied"] else ")")
         )
         lo, hi = _checks_line(rows, "input_cm_low"), _checks_line(rows, "input_cm_high")
         lines.append(
@@ -177,8 +179,13 @@ def fix_lines(fx: dict[str, Any], simf: dict[str, Any] | None = None) -> list[st
     ]
     thd = fx.get("thd_estimate_with_fix")
     if thd is not None and math.isfinite(thd):
-        out.append(f"              with the fix: THD {P.thd(thd, bound=True)} (an upper bound)")
-    if simf:
+        out.append(
+            f"              with the fix: THD ≈ {P.thd(thd)} (estimate: the stage kept in one "
+            "mode, as for a design with this resistor)"
+        )
+    if simf and not simf.get("converged", True):
+        out.append(f"              with the fix, not simulated: {simf['note']}")
+    elif simf:
         out.append(
             f"              with the fix, simulated: handover {'yes' if simf['handover'] else 'no'}"
         )

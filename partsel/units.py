@@ -870,11 +870,6 @@ def format_si(value: float, unit: str, digits: int = 3) -> str:
         return f"{value:.{digits}g} {shown}".strip()
     if value == 0 or not math.isfinite(value):
         return f"{value:g} {unit}".strip()
-    from partsel.present import PREFIXES  # the one SI-prefix table
+    from partsel.present import si  # the one SI-prefix formatter
 
-    mag = abs(value)
-    for scale, prefix in PREFIXES:
-        if mag >= scale * 0.9995:
-            return f"{value / scale:.{digits}g} {prefix}{unit}".strip()
-    scale, prefix = PREFIXES[-1]
-    return f"{value / scale:.{digits}g} {prefix}{unit}".strip()
+    return si(value, unit, digits)

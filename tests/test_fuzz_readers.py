@@ -16,7 +16,7 @@ from typing import Any
 
 import yaml
 from conftest import CATALOGUE_DATA, DATA, PROJECT
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from partsel.catalogue import (
@@ -171,10 +171,16 @@ MAP_TEXT = (SHEET / "map.yaml").read_text(encoding="utf-8")
 CSV_TEXT = (SHEET / "parts.csv").read_text(encoding="utf-8")
 
 
+# A number beyond the float range in an integer cell (found by this fuzz test in CI)
+HUGE_CHANNELS = CSV_TEXT.replace("TWS-302,2,", "TWS-302," + "9" * 450 + ",")
+
+
 @SETTINGS
 @given(
     st.one_of(mutated(MAP_TEXT), st.just(MAP_TEXT)), st.one_of(mutated(CSV_TEXT), st.just(CSV_TEXT))
 )
+@example(MAP_TEXT, HUGE_CHANNELS)
+@example(MAP_TEXT, CSV_TEXT.replace(",45,1.4", ",1e999,1.4"))
 def test_sheets_and_mappings(tmp_path: Path, mapping: str, sheet: str) -> None:
     m, s = tmp_path / "map.yaml", tmp_path / "parts.csv"
     m.write_text(mapping, encoding="utf-8", errors="surrogatepass")

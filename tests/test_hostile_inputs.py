@@ -3,7 +3,7 @@ CPU-time and memory limit (tests/limited.py: 10 s CPU, 1 GiB address space), so 
 a blow-up fails the test instead of stalling CI. Each child asserts what it must (an InputError
 naming file and field, a warning, an inert CSV cell), prints PASS and exits 0; the database it
 uses is unchanged after every refusal. Class 10 (the first run) is in tests/test_first_run.py,
-under the same limits; class 7 (bounded computation) belongs to the physics, not the readers."""
+under the same limits; class 7 (bounded computation) in tests/test_bounded_computation.py."""
 
 from __future__ import annotations
 

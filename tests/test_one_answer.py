@@ -3,7 +3,9 @@
 For every sample design and every part of the sample catalogue, the answer of ``rank --json`` is
 compared with ``predict --json``, ``explain --json``, ``vet -d --json`` (every part as a
 candidate), ``bom-check --json`` (a BOM listing every part against the design) and the terminal
-UI's exported ranking. They must agree exactly: they are one evaluation
+UI's exported ranking. They must agree exactly on basis, verdict, fix rail, value and rule,
+and to 1e-12 on the THD figures (a batch of FFTs rounds the last bit differently for one part
+and for many: numpy's pocketfft works on several rows at once): they are one evaluation
 (:class:`partsel.api.Session`), so any difference is a second copy of a rule. Nothing here is
 a physics reference; the physics is checked elsewhere against ngspice and analytic results.
 """
@@ -27,6 +29,11 @@ DESIGNS = sorted(SAMPLE_DESIGNS.glob("*.toml"))
 Answer = dict[str, Any]
 
 
+def _figure(x: Any) -> Any:
+    """A THD figure to 12 significant digits (see the module docstring)."""
+    return x if x is None else float(f"{x:.12g}")
+
+
 def answer(basis: str, verdict: str, fix: dict[str, Any], thd: Any, thd_designed: Any) -> Answer:
     """The fields every door must agree on."""
     return {
@@ -35,8 +42,8 @@ def answer(basis: str, verdict: str, fix: dict[str, Any], thd: Any, thd_designed
         "fix_rail": fix["rail"],
         "fix_ohm": fix["resistance_ohm"],
         "fix_rule": fix.get("rule"),
-        "thd": thd,
-        "thd_as_designed": thd_designed,
+        "thd": _figure(thd),
+        "thd_as_designed": _figure(thd_designed),
     }
 
 

@@ -223,3 +223,22 @@ def test_class_a_ac_coupled_flat_level_follows_coupling_capacitor_charge(
     assert simulated == pytest.approx(expected, abs=tol)
     cf = predict_closed_form(stage, line_design())
     assert cf.flat_level_v[k] == pytest.approx(expected, abs=tol)
+
+
+@pytest.mark.parametrize("topology", [CLASS_B, "class-ab", "class-a"])
+def test_clipping_at_the_swing_limit_converges_at_every_step(topology: str) -> None:
+    """1.5 V peak around 2.5 V asks for 4.0 V at the top; the invented swing curve allows
+    5 V - 1.3 V at no current and 0.03 V more per mA (tests/physics_helpers.DEFAULT_SWING), so
+    the output flattens just below 3.7 V (at the 0.1..0.2 mA the 10 kohm load then draws).
+    The output-node solve converges at every step while the output sits on the limit, where a
+    plain Newton step cycled across the kink between the source device's law and the swing
+    limit (projected Newton on the bracketed base node)."""
+    stage = make_stage(topology)
+    design = line_design(out_amplitude_v=1.5)
+    sim = simulate(stage, design)
+    assert not sim.abandoned[0]
+    assert sim.bad_steps[0] == 0
+    top = float(sim.v_out[0].max())
+    low, high = 5.0 - float(stage.headroom_pos(np.array([1e-3]))[0]), 5.0 - 1.3
+    assert low <= top <= high + 1e-4, top
+    assert predict_closed_form(stage, design).limited_by[0] == "clipping"

@@ -169,7 +169,7 @@ def test_compare_and_replacement_views(tui_engine: Any, tmp_path: Path) -> None:
     """Mark two parts, open the compare view: the cheaper part's price is marked better (▲) and
     the dearer one's worse (▼), prices as in the catalogue files. Then the replacement view
     for the obsolete BRQ-622 lists BRQ-622A (its replacement by the catalogue's own note on
-    BRQ-622) for review: in the sample design it fails the swing to V+ like BRQ-622 itself."""
+    BRQ-622) first, as the drop-in: with the fix both need, it passes where BRQ-622 clips."""
     app = make_app(tui_engine, tmp_path)
 
     async def scenario(pilot: Any) -> None:
@@ -210,14 +210,16 @@ def test_compare_and_replacement_views(tui_engine: Any, tmp_path: Path) -> None:
         assert isinstance(rep, ReplacementScreen) and rep.vetting is not None
         assert "BRQ-622A" in sample_record("BRQ-622")["notes"]
         cand = {c.part_number: c for c in rep.vetting.candidates}
-        # In the sample design BRQ-622A fails the swing to V+ like the incumbent: a part that
-        # fails the circuit is never a drop-in, and the reason says it fails like BRQ-622.
+        # In the sample design BRQ-622 with its 2 kohm pull-up still clips at V+ (its 1.6 V
+        # guaranteed headroom, at the current flowing with the fix, against 1.5 V of room);
+        # BRQ-622A, with its better swing, passes the circuit with the same fix: the drop-in,
+        # listed first, with the tick the replacement view gives a drop-in.
         c = cand["BRQ-622A"]
-        assert c.verdict == "review"
-        assert any("like the incumbent" in r.message for r in c.reasons if r.severity == "review")
+        assert c.verdict == "drop-in" and rep.vetting.candidates[0] is c
+        assert not any(r.severity == "review" for r in c.reasons)
         rtable = rep.query_one("#candidates")
         row = [str(c) for c in rtable.get_row("BRQ-622A")]
-        assert "review" in row[2] and "✓" not in row[2]
+        assert "drop-in" in row[2] and "✓" in row[2]
         await pilot.press("escape")
 
     drive(app, scenario)

@@ -252,6 +252,14 @@ def _number_text(cell: Any) -> str | None:
     return text if re.fullmatch(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", text) else None
 
 
+def _finite(num: str, cell: Any) -> float:
+    """The number text as a finite float (ValueError beyond the float range)."""
+    value = float(num)
+    if not math.isfinite(value):
+        raise ValueError(f"number out of range, got {excerpt(cell)}")
+    return value
+
+
 def _convert(cell: Any, cm: ColumnMap) -> Any:
     """A cell as the value its field takes (raises ValueError with a message)."""
     leaf = cm.leaf
@@ -259,16 +267,17 @@ def _convert(cell: Any, cm: ColumnMap) -> Any:
     if leaf.get("x-dimension") is not None:
         if num is None:
             return str(cell).strip()
-        return f"{num} {cm.unit}" if cm.unit else float(num)
+        value = _finite(num, cell)
+        return f"{num} {cm.unit}" if cm.unit else value
     kind = leaf.get("type")
     if kind == "integer":
-        if num is None or float(num) != int(float(num)):
+        if num is None or _finite(num, cell) != int(float(num)):
             raise ValueError(f"expected a whole number, got {excerpt(cell)}")
         return int(float(num))
     if kind == "number":
         if num is None:
             raise ValueError(f"expected a number, got {excerpt(cell)}")
-        return float(num)
+        return _finite(num, cell)
     if kind == "boolean":
         text = str(cell).strip().casefold()
         if isinstance(cell, bool):

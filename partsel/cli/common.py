@@ -260,7 +260,9 @@ def _conflict_text(exc: ConflictError) -> None:
 
 
 #: Commands that change the stored catalogue (a refusal says that nothing was changed).
-CHANGING_COMMANDS = frozenset({"load", "edit", "restore", "import-sheet", "characterise"})
+CHANGING_COMMANDS = frozenset(
+    {"load", "edit", "restore", "import-sheet", "characterise", "fit-capture"}
+)
 
 
 #: The subcommand of the running invocation (set by the main callback).

@@ -122,6 +122,8 @@ def waveform(
         path = waveform_figure(pred, 0, out)
     except OSError as exc:
         fail_bad_input(InputError(f"cannot write: {exc.strerror or exc}", file=str(out)))
+    except ValueError as exc:  # nothing to plot: the simulation was stopped, and says why
+        fail_bad_input(InputError(f"no figure written: {exc}", file=str(design)))
     message(f"wrote {path} ({pred.ranking.requirements.basis} basis)")
 
 

@@ -1,7 +1,9 @@
 """One bounded reader for the structured text files partsel reads: YAML, JSON and TOML.
 
 Every catalogue file, design file, sheet mapping and BOM line's design goes through
-:func:`read_structured`, so that all of them share the same limits and the same errors::
+:func:`read_structured`, and every plain text file partsel parses itself (SPICE model files,
+scope captures) through :func:`read_text`, so that all of them share the same limits and the
+same errors::
 
     from partsel.io.textfile import read_structured
 
@@ -172,6 +174,45 @@ def read_structured(
         raise InputError(
             f"{exc.message}{_at(exc.line, exc.column)}", file=file, record=record
         ) from None
+
+
+def read_text(
+    path: str | os.PathLike[str],
+    *,
+    file: str | None = None,
+    record: str | None = None,
+    max_bytes: int = MAX_BYTES,
+    fallback: str | None = None,
+    what: str = "text",
+) -> str:
+    """Read a plain text file (a SPICE model, a scope capture) within ``max_bytes``.
+
+    The same limits and errors as :func:`read_structured` for the file itself: too large,
+    missing, a folder, unreadable, and text that is not UTF-8 (a leading byte-order mark is
+    dropped). ``fallback`` names an 8-bit encoding to decode with instead of refusing
+    non-UTF-8 bytes (e.g. ``"latin-1"`` for instrument software that writes ``µ`` as one
+    byte). A file holding NUL bytes is refused as not text (``what`` names what was expected
+    in that message, e.g. ``"a SPICE model"``).
+    """
+    p = Path(path)
+    label = file if file is not None else str(path)
+    data = _read_file(p, label, record, max_bytes)
+    nul = data.find(b"\x00")
+    if nul >= 0:
+        line = data.count(b"\n", 0, nul) + 1
+        raise InputError(
+            f"not {what}: the file holds NUL bytes (line {line}); is it a binary file?",
+            file=label,
+            record=record,
+        )
+    if data.startswith(b"\xef\xbb\xbf"):
+        data = data[3:]
+    if fallback is None:
+        return _decode(data, label, record)
+    try:
+        return data.decode("utf-8")
+    except UnicodeDecodeError:
+        return data.decode(fallback)
 
 
 def _read_file(path: Path, file: str, record: str | None, max_bytes: int) -> bytes:

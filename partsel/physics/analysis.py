@@ -87,6 +87,12 @@ class ClosedForm:
     i_out_min_a: np.ndarray
     i_out_max_a: np.ndarray
     min_source_a: np.ndarray  #: smallest source-device current over the period
+    held_current_a: np.ndarray
+    """Least current of the device that must stay on all period, A: the source device's, or
+    (class B held in sink mode, e.g. by a pull-up) the sink device's; negative when the stage
+    changes mode (by how much the other device takes over). The conduction check's value: it
+    passes where :func:`conduction_verdict` says one mode with the margin."""
+    held_sink: np.ndarray  #: the held device is the sink device (class B in sink mode)
     handover: np.ndarray  #: verdict "changes-mode" (class A/B)
     marginal: np.ndarray
     """verdict "marginal": the least source-device demand lies within the margin band around
@@ -125,7 +131,7 @@ class ClosedForm:
     source_limit_ok: np.ndarray
     sink_limit_ok: np.ndarray
     # power
-    supply_current_a: np.ndarray  #: whole package, mean, from the positive rail
+    supply_current_a: np.ndarray  #: whole package and any pull-up, mean, from the positive rail
     dissipation_w: np.ndarray  #: whole package
     t_junction_c: np.ndarray  #: at the highest ambient
     t_junction_margin_c: np.ndarray
@@ -828,6 +834,23 @@ def _clip_levels(
     return depth_top, depth_bot
 
 
+def held_current(
+    stage: StageParams,
+    dem_lo: np.ndarray,
+    dem_hi: np.ndarray,
+    min_source_a: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Least current of the device that must stay on all period, A, and whether that is the
+    sink device, from the source device's demand range ``dem_lo`` .. ``dem_hi`` (A): the source
+    device's least current ``min_source_a`` (default ``dem_lo``), or, for class B held in sink
+    mode (the demand stays below zero), the sink device's ``-dem_hi``; the side nearer to one
+    mode is the one held. The conduction check's value (:attr:`ClosedForm.held_current_a`)."""
+    lo = dem_lo if min_source_a is None else min_source_a
+    held_sink = (stage.topology == CLASS_B) & (-dem_hi > dem_lo)
+    return np.where(held_sink, -dem_hi, lo), held_sink
+
+
+@np.errstate(over="ignore", invalid="ignore")
 def predict_closed_form(
     stage: StageParams, design: Design, *, device_law: np.ndarray | None = None
 ) -> ClosedForm:
@@ -838,7 +861,11 @@ def predict_closed_form(
     evaluated row by row, with the same rules. ``device_law``: the rows (a boolean mask) whose
     marginal stages get their THD and glitch from the device-law simulation (default: all);
     elsewhere a marginal stage's THD and glitch are NaN, not evaluated (for callers that know
-    those rows are rejected on other grounds)."""
+    those rows are rejected on other grounds).
+
+    Overflow becomes infinity and NaN a missing figure, not a warning: only values far outside
+    their plausible range get there (a signal at 1e-300 Hz), and the checks read them as
+    failing or unknown."""
     p = stage.n
     batch = design.rows is not None
     sup = design.supply
@@ -868,6 +895,7 @@ def predict_closed_form(
     marginal = verdict == "marginal"
     with np.errstate(invalid="ignore"):
         min_src = np.where(pulldown, dem_lo, 0.5 * (i_min + np.sqrt(i_min**2 + 4.0 * i_stage**2)))
+    held, held_sink = held_current(stage, dem_lo, dem_hi, min_src)
     crossover_biased = ~pulldown & (i_min < 0) & (i_max > 0)
     level, g_th = thevenin_level(design)
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -927,6 +955,10 @@ def predict_closed_form(
         (s_fall, sr_f, theta_fall - phi, 1.0, v_src, v_snk),
         (s_rise, sr_r, theta_rise - phi, -1.0, v_snk, v_src),
     ):
+        if not handover.any():  # no crossing to model (e.g. every part kept in one mode)
+            zero = np.zeros(p)
+            edges_raw.append((zero, zero.copy(), np.zeros(p, dtype=bool), stage.dead_band_v))
+            continue
         # ideal output's steepening at the handover (falling edge: slope growing more negative)
         accel = np.maximum(sign * a * w * w * np.sin(psi_e), 0.0)
         # dead-zone crossing over the distance the exponential laws leave (two passes: the
@@ -1077,7 +1109,17 @@ def predict_closed_form(
     used = float(design.channels_used)
     src_load = np.maximum(i, 0.0)
     snk_load = np.maximum(-i, 0.0)
-    i_supply = stage.supply_current_a * chans + used * src_load.mean(axis=-1)
+    # from the positive rail: the quiescent current, what the source device delivers, and what
+    # a resistor from V+ to the output (a pull-up) draws straight from the rail (per row of a
+    # batch: NaN where a row has none)
+    r_up = design.load.r_to_pos_ohm
+    if r_up is None:
+        i_up = 0.0
+    else:
+        r_up_a = np.asarray(r_up, dtype=float)
+        i_up = np.where(np.isfinite(r_up_a), np.mean((col(vpos) - v) / col(r_up_a), axis=-1), 0.0)
+        i_up = float(i_up) if np.ndim(i_up) == 0 else i_up
+    i_supply = stage.supply_current_a * chans + used * (src_load.mean(axis=-1) + i_up)
     p_out_stage = used * np.mean(src_load * (col(vpos) - v) + snk_load * (v - col(vneg)), axis=-1)
     p_diss = stage.supply_current_a * chans * total + p_out_stage
     t_j = design.t_ambient_max_c + p_diss * stage.theta_ja_k_per_w
@@ -1087,6 +1129,8 @@ def predict_closed_form(
         i_out_min_a=np.broadcast_to(np.asarray(i_min, dtype=float), (p,)).copy(),
         i_out_max_a=np.broadcast_to(np.asarray(i_max, dtype=float), (p,)).copy(),
         min_source_a=min_src,
+        held_current_a=held,
+        held_sink=held_sink,
         handover=handover,
         marginal=marginal,
         crossover_biased=crossover_biased,

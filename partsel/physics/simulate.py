@@ -65,6 +65,8 @@ class SimResult:
     i_pulldown: np.ndarray  #: internal pull-down current, A (class AB / CMOS: 0)
     n_record: int
     steps_per_period: int
+    frequency_hz: float | np.ndarray
+    """signal frequency of the design simulated, Hz (one per part for a batch design)"""
     harmonics_v: np.ndarray  #: (P, H+1) peak amplitudes of harmonics 0..H, V
     thd_f: np.ndarray  #: (P,) THD_F over harmonics 2..H (IEC definition, ratio)
     residual_peak_v: np.ndarray  #: (P,) peak of v_out minus its DC and fundamental, V
@@ -76,12 +78,22 @@ class SimResult:
     handover_level_v: np.ndarray  #: (P,) output level at the first handover instant, V
     handover_time_s: np.ndarray  #: (P,) time of the first handover in the record, s
     unconverged: np.ndarray  #: (P,) bool: the output-node solve missed its tolerance somewhere
+    bad_steps: np.ndarray  #: (P,) steps whose output-node solve missed its tolerance (int)
+    abandoned: np.ndarray
+    """(P,) bool: the part was given up (``stepper_layout.MAX_BAD_SHARE`` and
+    ``ITERATION_BUDGET``): its waveforms and figures are NaN and the closed form stands; see
+    :func:`abandoned_reason`."""
+    abandoned_why: np.ndarray  #: (P,) 0, or stepper_layout.GIVE_UP_NON_FINITE / _UNCONVERGED
     handover_edges_s: np.ndarray
     """(P, 2) times of the hand-over (source device to sink device or to the load alone) and of
     the hand-back in the record, s; NaN where none (biased stages never hand over)."""
     handover_edge_levels_v: np.ndarray  #: (P, 2) output level at those instants, V
     crossover_biased: np.ndarray  #: (P,) bool: class AB / CMOS output current changes sign
     warmup_periods: np.ndarray  #: (P,) warm-up periods each part ran before the record
+
+
+#: Most steps per period a simulation takes (the step budget's other half).
+MAX_STEPS = 16384
 
 
 def default_steps(stage: StageParams, design: Design) -> int:
@@ -98,8 +110,34 @@ def default_steps(stage: StageParams, design: Design) -> int:
             periods = np.broadcast_to(1.0 / np.asarray(design.signal.frequency_hz), tau.shape)
             ratio = (periods / tau)[(db > 0) & np.isfinite(tau) & (tau > 0)]
         if ratio.size:
-            n = max(n, math.ceil(10.0 * float(ratio.max())))
-    return int(min(n, 16384))
+            want = 10.0 * float(ratio.max())
+            n = MAX_STEPS if not math.isfinite(want) else max(n, math.ceil(min(want, MAX_STEPS)))
+    return int(min(n, MAX_STEPS))
+
+
+def abandoned_reason(sim: SimResult, k: int) -> str:
+    """Why part ``k`` was given up (:attr:`SimResult.abandoned`), in words."""
+    dt = 1.0 / (
+        sim.steps_per_period
+        * float(np.asarray(sim.frequency_hz).reshape(-1)[k if np.ndim(sim.frequency_hz) else 0])
+    )
+    if sim.abandoned_why[k] == _st.GIVE_UP_NON_FINITE:
+        what = "its state left the finite numbers"
+    elif sim.abandoned_why[k] == _st.GIVE_UP_WORK:
+        what = (
+            f"one period needed more than {_st.ITERATION_BUDGET} Newton iterations per step "
+            "(its work budget)"
+        )
+    else:
+        what = (
+            f"the output-node solve failed at more than {100 * _st.MAX_BAD_SHARE:.0f} % of the "
+            f"{sim.steps_per_period} steps of a period"
+        )
+    return (
+        f"the time-domain simulation did not converge and was stopped: {what} (one step "
+        f"{dt:.3g} s; the signal period is far from the loop's time constants, or a parameter "
+        f"is far outside its plausible range); the closed-form figures stand"
+    )
 
 
 def _as_part_array(value: float | np.ndarray | None, n: int) -> np.ndarray:
@@ -236,6 +274,7 @@ def simulate(
     iterations: int = 4,
     max_iterations: int = 200,
     tol_v: float = 1e-7,
+    max_bad_share: float = _st.MAX_BAD_SHARE,
 ) -> SimResult:
     """Simulate all parts of ``stage`` in ``design`` and analyse the last periods.
 
@@ -245,8 +284,10 @@ def simulate(
     within ``settle_v`` from one period to the next), then ``n_record`` recorded periods.
     ``tol_v`` is the Newton tolerance of the output node (V) and ``max_iterations`` its
     iteration limit per step (a step that misses it is retried once from the last state and
-    counted in ``unconverged``); ``iterations`` is accepted for compatibility and unused (the
-    Newton solve stops at its tolerance).
+    counted in ``unconverged``; a part where more than ``max_bad_share`` of one period's steps
+    miss it, or whose state is no longer finite, is given up, see ``abandoned``);
+    ``iterations`` is accepted for compatibility and unused (the Newton solve stops at its
+    tolerance).
     """
     del iterations
     p = stage.n
@@ -283,7 +324,7 @@ def simulate(
     v_start = np.asarray(design.v_ideal(np.array([0.0])), dtype=float)[..., 0]
     rec_n = n * n_record
     out = np.empty((p, 6, rec_n))
-    flags = np.zeros((p, 3), dtype=np.int64)
+    flags = np.zeros((p, 4), dtype=np.int64)
     pos_h, pos_i, neg_h, neg_i = _curves(stage)
     grp = np.arange(p, dtype=np.int64) if batch else np.zeros(p, dtype=np.int64)
     from partsel.physics import stepper  # numba: loaded when a simulation runs, not before
@@ -294,7 +335,7 @@ def simulate(
         per_circuit(design.beta), per_circuit(dt), per_circuit(vpos), per_circuit(vneg),
         per_circuit(ld.c_load_f), ac, per_circuit(r_l), per_circuit(c_c),
         per_circuit(ld.reference_v), int(n_warmup), int(max_warmup), float(settle_v),
-        int(n_record), float(tol_v), int(max_iterations), out, flags,
+        int(n_record), float(tol_v), int(max_iterations), int(max_bad_share * n), out, flags,
     )  # fmt: skip
     unconverged = flags[:, 0] > 0
     n_warm_rec = int(flags[:, 1].max()) if p else n_warmup
@@ -344,6 +385,7 @@ def simulate(
         i_pulldown=rec["ipd"],
         n_record=n_record,
         steps_per_period=n,
+        frequency_hz=float(f) if np.ndim(f) == 0 else np.broadcast_to(f, (p,)).astype(float),
         harmonics_v=amps,
         thd_f=thd_f,
         residual_peak_v=residual,
@@ -353,6 +395,9 @@ def simulate(
         handover_level_v=level,
         handover_time_s=when,
         unconverged=unconverged,
+        bad_steps=flags[:, 0].copy(),
+        abandoned=flags[:, 3] > 0,
+        abandoned_why=flags[:, 3].copy(),
         handover_edges_s=edges_t,
         handover_edge_levels_v=edges_v,
         crossover_biased=crossover_biased,

@@ -50,6 +50,10 @@ if not numba.config.CACHE_DIR:  # numba was imported before this module with no 
 
 #: Largest increase of an exponent argument (units of its voltage scale) per Newton iteration.
 EXP_STEP = 3.0
+#: The retry of a failed step damps every Newton update by this factor: a plain Newton step
+#: can cycle across a kink of the output-node equation (the current available at a swing
+#: limit taking over from the source device's own law while the output clips).
+RETRY_DAMPING = 0.5
 #: Exponent arguments are capped here (exp(60) ~ 1e26: far beyond any current limit).
 EXP_CAP = 60.0
 #: LLVM fast-math flags of the step: contraction, reassociation, reciprocals and approximate
@@ -57,6 +61,10 @@ EXP_CAP = 60.0
 FAST = {"contract", "reassoc", "arcp", "afn", "nsz"}
 
 from partsel.physics.stepper_layout import (
+    GIVE_UP_NON_FINITE,
+    GIVE_UP_UNCONVERGED,
+    GIVE_UP_WORK,
+    ITERATION_BUDGET,
     N_PARAMS,
     P_A,
     P_B0,
@@ -140,6 +148,7 @@ def _step(
     vneg: float,
     tol_v: float,
     max_it: int,
+    damp: float,
 ) -> tuple[float, float, float, float, float, float, float, float, int]:
     """One backward-Euler step: returns (z, y, v_out, v_drive, i_src, i_snk, i_pd, i_1,
     converged). ``kp - sp v`` and ``kn + sn (v - V-)`` are the currents available at the
@@ -192,6 +201,7 @@ def _step(
     i_snk = 0.0
     i_pd = 0.0
     i_1 = 0.0
+    y_bound = 0
     for it in range(max_it):
         # input stage: fraction t = tanh(z) of the tail current, which the drive's own slope
         # and the common-mode slope modulate: rate = SR_cm t / (1 + gamma_d t), error
@@ -249,10 +259,13 @@ def _step(
             if it == 0 and ((x - y) * inv_vt > 40.0 or y * inv_vt > 40.0):
                 y = 0.5 * x  # an inconsistent start (e.g. after a shooting correction)
             y_ceil = max(y_old, 0.5 * x) + vt
+            y_bound = 0
             if y > y_ceil:
                 y = y_ceil
+                y_bound = 1
             elif y < y_floor:
                 y = y_floor
+                y_bound = -1
             i_pd = pd_c + pd_s * vo
             di_pd = pd_s
             if i_pd > av_n:
@@ -329,6 +342,12 @@ def _step(
                 break
             dz = -(f1 * f2y - f1y * f2) / det
             dy = -(f1z * f2 - f2z * f1) / det
+            # projected Newton: a base node held at its bracket by a step that points out of
+            # it stays there, and the drive alone solves the node (the output is then set by a
+            # swing or device limit, not by this node)
+            if ((y_bound > 0 and dy > 0.0) or (y_bound < 0 and dy < 0.0)) and f1z != 0.0:
+                dy = 0.0
+                dz = -f1 / f1z
         else:
             if f1z == 0.0:
                 break
@@ -359,12 +378,24 @@ def _step(
             scale = 4.0 / abs(dz)
         dz *= scale
         dy *= scale
-        z += dz
-        y += dy
+        z += damp * dz
+        y += damp * dy
         if abs(dvo * dz) < tol_v and abs(dy) < tol_v and scale == 1.0:
             ok = 1
             break
     return z, y, vo, vd, i_src, i_snk, i_pd, i_1, ok * (it + 1)
+
+
+@numba.njit(cache=True)
+def _give_up(
+    p: int, out: np.ndarray, flags: np.ndarray, bad: int, warm: int, iters: int, why: int
+) -> None:
+    """Part ``p`` is given up: its record is NaN and ``flags[p, 3]`` says why."""
+    out[p, :, :] = math.nan
+    flags[p, 0] = bad
+    flags[p, 1] = warm
+    flags[p, 2] = iters
+    flags[p, 3] = why
 
 
 @numba.njit(cache=True, fastmath=FAST, inline="always")
@@ -394,6 +425,7 @@ def _run_part(
     n_record: int,
     tol_v: float,
     max_it: int,
+    max_bad: int,
     out: np.ndarray,
     flags: np.ndarray,
 ) -> None:
@@ -419,6 +451,8 @@ def _run_part(
     v_cap = row[P_V_CAP0]
     i_cap_sum = 0.0
     bad = 0
+    bad_period = 0
+    work = 0  # Newton iterations of this period, failed attempts included
     iters = 0
     shoot_prev_start = 0.0
     shoot_prev_mean = 0.0
@@ -449,17 +483,20 @@ def _run_part(
             y_guess = 3.0 * (y - y_old) + y_old2
             zn, yn, vo, vdn, i_src, i_snk, i_pd, _i1, ok = _step(
                 row, inv_vt, c_in[k], cm_rate[k], inv_beta, dt, vd, y, z_guess, y_guess,
-                g_tot, i_const, kp, sp, kn, sn, vneg, tol_v, max_it,
+                g_tot, i_const, kp, sp, kn, sn, vneg, tol_v, max_it, 1.0,
             )  # fmt: skip
             iters += ok
+            work += ok if ok else max_it
             if ok == 0:
                 # retry from the last converged state (no extrapolation)
                 zn, yn, vo, vdn, i_src, i_snk, i_pd, _i1, ok = _step(
                     row, inv_vt, c_in[k], cm_rate[k], inv_beta, dt, vd, y, z, y, g_tot,
-                    i_const, kp, sp, kn, sn, vneg, tol_v, 4 * max_it,
+                    i_const, kp, sp, kn, sn, vneg, tol_v, 4 * max_it, RETRY_DAMPING,
                 )  # fmt: skip
+                work += ok if ok else 4 * max_it
                 if ok == 0:
                     bad += 1
+                    bad_period += 1
             z_old2 = z_old
             y_old2 = y_old
             z_old = z
@@ -469,6 +506,9 @@ def _run_part(
             v_old = v
             v = vo
             vd = vdn
+            if not (math.isfinite(v) and math.isfinite(vd)):
+                _give_up(p, out, flags, bad, warm, iters, GIVE_UP_NON_FINITE)
+                return
             if ac:
                 i_c = (v - v_cap - v_ref_l) * inv_rl
                 v_cap += dt_cc * i_c
@@ -481,6 +521,14 @@ def _run_part(
                 out[p, 4, j] = i_snk
                 out[p, 5, j] = i_pd
                 j += 1
+        if bad_period > max_bad:  # the step budget: give this part up, say so
+            _give_up(p, out, flags, bad, warm, iters, GIVE_UP_UNCONVERGED)
+            return
+        if work > ITERATION_BUDGET * n:  # the work budget, likewise
+            _give_up(p, out, flags, bad, warm, iters, GIVE_UP_WORK)
+            return
+        bad_period = 0
+        work = 0
         if recording:
             if j >= n * n_record:
                 break
@@ -544,6 +592,7 @@ def run(
     n_record: int,
     tol_v: float,
     max_it: int,
+    max_bad: int,
     out: np.ndarray,
     flags: np.ndarray,
 ) -> None:
@@ -551,7 +600,10 @@ def run(
 
     ``out`` has shape (P, 6, n_record * N): output, drive, output current, source, sink and
     pull-down current. ``flags[p]`` receives (unconverged steps, warm-up periods run, Newton
-    iterations of the steps that converged at the first attempt).
+    iterations of the steps that converged at the first attempt, why the part was given up:
+    0 it was not, or a GIVE_UP_* code). A part is given up when its state leaves the finite
+    numbers, when more than ``max_bad`` steps of one period fail, or when one period takes
+    more than ITERATION_BUDGET Newton iterations per step on average.
     Part ``p`` runs in the circuit ``g = grp[p]``: ``c_in[g]`` holds ``v_plus - v_md`` and
     ``cm_rate[g]`` the common-mode input's slope (V/s) at the end of every step of one period
     (shape (G, N)); ``v_start``, ``beta``, ``dt``, the rails, ``c_l``, ``r_l``, ``c_c`` and
@@ -563,7 +615,7 @@ def run(
         _run_part(
             p, prm, pos_h, pos_i, neg_h, neg_i, c_in[g], cm_rate[g], v_start[g], inv_vt,
             1.0 / beta[g], dt[g], vpos[g], vneg[g], c_l[g], ac, r_l[g], c_c[g], v_ref_l[g],
-            n_warmup, max_warmup, settle_v, n_record, tol_v, max_it, out, flags,
+            n_warmup, max_warmup, settle_v, n_record, tol_v, max_it, max_bad, out, flags,
         )  # fmt: skip
 
 
@@ -594,6 +646,7 @@ def run_parallel(
     n_record: int,
     tol_v: float,
     max_it: int,
+    max_bad: int,
     out: np.ndarray,
     flags: np.ndarray,
 ) -> None:
@@ -601,7 +654,10 @@ def run_parallel(
 
     ``out`` has shape (P, 6, n_record * N): output, drive, output current, source, sink and
     pull-down current. ``flags[p]`` receives (unconverged steps, warm-up periods run, Newton
-    iterations of the steps that converged at the first attempt).
+    iterations of the steps that converged at the first attempt, why the part was given up:
+    0 it was not, or a GIVE_UP_* code). A part is given up when its state leaves the finite
+    numbers, when more than ``max_bad`` steps of one period fail, or when one period takes
+    more than ITERATION_BUDGET Newton iterations per step on average.
     Part ``p`` runs in the circuit ``g = grp[p]``: ``c_in[g]`` holds ``v_plus - v_md`` and
     ``cm_rate[g]`` the common-mode input's slope (V/s) at the end of every step of one period
     (shape (G, N)); ``v_start``, ``beta``, ``dt``, the rails, ``c_l``, ``r_l``, ``c_c`` and
@@ -613,7 +669,7 @@ def run_parallel(
         _run_part(
             p, prm, pos_h, pos_i, neg_h, neg_i, c_in[g], cm_rate[g], v_start[g], inv_vt,
             1.0 / beta[g], dt[g], vpos[g], vneg[g], c_l[g], ac, r_l[g], c_c[g], v_ref_l[g],
-            n_warmup, max_warmup, settle_v, n_record, tol_v, max_it, out, flags,
+            n_warmup, max_warmup, settle_v, n_record, tol_v, max_it, max_bad, out, flags,
         )  # fmt: skip
 
 
@@ -634,11 +690,11 @@ def warm_up() -> float:
     prm[0, P_H_FAR_POS] = prm[0, P_H_FAR_NEG] = 1.0
     curve = np.array([[0.0, 1.0]])
     out = np.zeros((1, 6, 8))
-    flags = np.zeros((1, 3), dtype=np.int64)
+    flags = np.zeros((1, 4), dtype=np.int64)
     one = np.ones(1)
     run(
         prm, curve, curve * 1e-3, curve, curve * 1e-3, np.zeros(1, dtype=np.int64),
         np.zeros((1, 8)), np.zeros((1, 8)), 0.0 * one, 0.026, one, 1e-6 * one, 5.0 * one,
-        0.0 * one, 0.0 * one, False, one, one, 0.0 * one, 1, 1, 1.0, 1, 1e-9, 20, out, flags,
+        0.0 * one, 0.0 * one, False, one, one, 0.0 * one, 1, 1, 1.0, 1, 1e-9, 20, 4, out, flags,
     )  # fmt: skip
     return time.perf_counter() - t0

@@ -43,3 +43,20 @@ from __future__ import annotations
 #: Topology codes of the stepper: biased pair (class AB / CMOS), Darlington source with
 #: pull-down and sink device (class B), Darlington source with pull-down only (class A).
 T_BIASED, T_CLASS_B, T_CLASS_A = 0, 1, 2
+
+#: A part is given up (its record NaN, simulate() reports why; the closed form stands) when
+#: more than this share of one period's steps fail their output-node solve even after the
+#: retry, or as soon as its state is no longer finite. This bounds the work of the hopeless
+#: cases (a step far longer than the loop's time constants: a signal period of days against a
+#: MHz loop; a class-A stage with a GBW of 1e12 Hz) to about one period, while a part that
+#: misses the tolerance at part of its period (at a swing limit while it clips) keeps its
+#: waveform and is counted in ``SimResult.bad_steps``.
+MAX_BAD_SHARE = 0.5
+# (Passed to the stepper as an argument: numba's cache keys on stepper.py's source alone, so a
+# constant read from this module at compile time would survive a change here.)
+#: A part is also given up when one period costs more than this many Newton iterations per
+#: step on average, failed attempts included (a converging step takes 2 to 10): the work
+#: budget, about 0.3 s of one core per period at 16,384 steps.
+ITERATION_BUDGET = 40
+#: Why a part was given up (``flags[:, 3]`` of the stepper).
+GIVE_UP_NON_FINITE, GIVE_UP_UNCONVERGED, GIVE_UP_WORK = 1, 2, 3

@@ -24,7 +24,7 @@ from typing import Any, Literal
 
 import numpy as np
 
-from partsel.physics.analysis import ClosedForm, ideal_grid
+from partsel.physics.analysis import ClosedForm, held_current, ideal_grid
 from partsel.physics.circuit import Design
 from partsel.physics.stage import StageParams
 from partsel.solver.requirements import Requirements
@@ -320,7 +320,7 @@ def evaluate(
         (lim("max_cap_load_ratio") or 1.0) * stage.cap_load_limit_f,
     )
     put("junction_temp", cf.t_junction_c, stage.junction_max_c)
-    put("conduction", cf.min_source_a, conduction_limit(stage, req))
+    put("conduction", cf.held_current_a, conduction_limit(stage, req))
     put("fix_resistor", np.nan, lim("min_fix_resistance") or 0.0)
     put("thd", cf.thd_estimate, np.nan if lim("max_thd") is None else lim("max_thd"))
     put("glitch", cf.glitch_v, np.nan if lim("max_glitch") is None else lim("max_glitch"))
@@ -424,13 +424,18 @@ def conduction_limit(stage: StageParams, req: Requirements) -> np.ndarray:
     return (0.0 if frac is None else frac) * stage.stage_current_a
 
 
-def conduction_fails(stage: StageParams, min_source_a: np.ndarray, req: Requirements) -> np.ndarray:
-    """Where the conduction check rejects a class-A/B part whose least source-device current
-    is ``min_source_a`` (never with ``conduction = "allowed"``, nor for a biased stage)."""
+def conduction_fails(
+    stage: StageParams, dem_lo: np.ndarray, dem_hi: np.ndarray, req: Requirements
+) -> np.ndarray:
+    """Where the conduction check rejects a class-A/B part whose source device's demand spans
+    ``dem_lo`` .. ``dem_hi`` (A; the held device's least current by
+    :func:`partsel.physics.analysis.held_current`, as the closed form's); never with
+    ``conduction = "allowed"``, nor for a biased stage."""
     if req.conduction == "allowed":
         return np.zeros(stage.n, dtype=bool)
+    held, _ = held_current(stage, dem_lo, dem_hi)
     with np.errstate(invalid="ignore"):
-        return stage.has_pulldown & ~(min_source_a >= conduction_limit(stage, req))
+        return stage.has_pulldown & ~(held >= conduction_limit(stage, req))
 
 
 def _opt(x: float | None) -> float:
@@ -438,98 +443,41 @@ def _opt(x: float | None) -> float:
 
 
 def fix_variant(
-    base: CheckArrays,
-    *,
-    r_ohm: np.ndarray,
-    works: np.ndarray,
-    thd_fixed: np.ndarray,
-    extra_supply_a: np.ndarray,
-    extra_dissipation_w: np.ndarray,
-    theta_ja_k_per_w: np.ndarray,
-    design: Design,
-    req: Requirements,
+    base: CheckArrays, *, r_ohm: np.ndarray, works: np.ndarray, req: Requirements
 ) -> CheckArrays:
-    """The checks of parts that need the fix, with partsel's fix resistor fitted.
+    """The checks of parts that need the fix, before the circuit with it is evaluated.
 
-    ``base`` holds those parts as designed. With the resistor the stage stays in one mode, so
-    the conduction check is ``fixed``, the crossover glitch is 0 and the THD estimate is
-    ``thd_fixed``, the upper bound of the stage kept in one mode by the resistor
-    (:func:`partsel.physics.analysis.thd_bound`); the
-    supply current and the junction temperature rise by the resistor's share (per channel used);
-    the resistor must work (source / sink limit and swing at the new current, see
-    :func:`partsel.physics.fix.size_fix`) and be at least ``min_fix_resistance``.
+    ``base`` holds those parts as designed. Where no resistor works (or none was sized) the
+    conduction check fails (ignored under ``conduction = "allowed"``) and so does the
+    fix-resistor check; the other parts get their checks from the circuit with the resistor
+    fitted (:func:`with_fix_resistor`, by :func:`partsel.solver.solve.rank`).
     """
     out = CheckArrays(*(a.copy(order="F") for a in base.astuple()))
-    used = float(design.channels_used)
     works = works & np.isfinite(r_ohm)
     j = IDX["conduction"]
     unfixed = IGNORED if req.conduction == "allowed" else FAIL
-    out.status[:, j] = np.where(works, FIXED, unfixed)
+    out.status[:, j] = np.where(works, out.status[:, j], unfixed)
     j = IDX["fix_resistor"]
     out.value[:, j] = np.where(works, r_ohm, np.nan)
-    j = IDX["glitch"]
-    out.value[:, j] = np.where(works, 0.0, out.value[:, j])
-    j = IDX["thd"]
-    out.value[:, j] = np.where(works, np.nan_to_num(thd_fixed), out.value[:, j])
-    out.value[:, IDX["supply_current"]] += np.where(works, used * extra_supply_a, 0.0)
-    out.value[:, IDX["junction_temp"]] += np.where(
-        works, used * extra_dissipation_w * theta_ja_k_per_w, 0.0
-    )
-    # recompute margins, ratios and statuses of the columns touched
-    cols = [IDX[c] for c in ("fix_resistor", "thd", "glitch", "supply_current", "junction_temp")]
-    _recheck(out, base, cols, design, works)
+    out.status[:, j] = np.where(works, out.status[:, j], FAIL)
+    out.ratio[:, j] = np.where(works, out.ratio[:, j], 0.0)
     return out
 
 
-def _recheck(
-    out: CheckArrays,
-    base: CheckArrays,
-    cols: list[int],
-    design: Design,
-    works: np.ndarray | None = None,
-) -> None:
-    """Margins, ratios and statuses of columns ``cols`` of ``out`` from its values and limits
-    (in place); a check ``base`` ignored stays ignored, and the fix resistor's check fails
-    where no resistor ``works``."""
-    m, r = margins_and_ratios(out.value, out.limit)
-    t_a = design.t_ambient_max_c
-    jt = IDX["junction_temp"]
-    with np.errstate(invalid="ignore", divide="ignore"):
-        rise = out.value[:, jt] - t_a
-        r[:, jt] = np.where(
-            rise > 0,
-            np.maximum(out.limit[:, jt] - t_a, 0.0) / rise,
-            np.where(m[:, jt] >= 0, np.inf, 0.0),
-        )
-    for c in cols:
-        was_ignored = base.status[:, c] == IGNORED
-        st = np.where(m[:, c] >= 0, PASS, FAIL).astype(np.int8)
-        st = np.where(np.isnan(m[:, c]), UNKNOWN, st)
-        if CHECKS[c].name == "fix_resistor":
-            ok = np.ones(st.shape, dtype=bool) if works is None else works
-            st = np.where(ok, st, FAIL)
-            r[:, c] = np.where(ok, r[:, c], 0.0)
-        else:
-            st = np.where(was_ignored, IGNORED, st)
-        out.status[:, c] = st
-        out.margin[:, c] = np.where(st == IGNORED, np.nan, m[:, c])
-        out.ratio[:, c] = np.where(st == IGNORED, np.nan, r[:, c])
-
-
-def fitted_in_circuit(
-    chk: CheckArrays, fitted: np.ndarray, thd_bound: np.ndarray, design: Design
+def with_fix_resistor(
+    chk: CheckArrays, r_ohm: float | np.ndarray, req: Requirements
 ) -> CheckArrays:
-    """The checks of rows evaluated with partsel's fix resistor already in the circuit (the
-    spread analysis fits the recommended resistor to the board): as in :func:`fix_variant`, a
-    stage the resistor keeps in one mode (or biased) is bounded, not quoted, so its THD figure
-    is ``thd_bound`` (:func:`partsel.physics.analysis.thd_bound`, with the resistor) and its
-    glitch 0; rows where the resistor does not keep it in one mode keep their estimate (their
-    conduction check fails). ``fitted``: (R,) rows with the resistor."""
-    rows = np.asarray(fitted, dtype=bool) & np.isfinite(thd_bound)
-    if not rows.any():
-        return chk
+    """``chk``, the checks of parts on the circuit with their fix resistor ``r_ohm`` fitted
+    (:func:`evaluate` of that circuit), marked as such: the fix-resistor check holds the value
+    against ``min_fix_resistance``, and a conduction check that passes reads ``fixed``."""
     out = CheckArrays(*(a.copy(order="F") for a in chk.astuple()))
-    out.value[rows, IDX["thd"]] = thd_bound[rows]
-    out.value[rows, IDX["glitch"]] = 0.0
-    _recheck(out, chk, [IDX["thd"], IDX["glitch"]], design)
+    j = IDX["fix_resistor"]
+    out.value[:, j] = r_ohm
+    c = CHECKS[j]
+    m, r = _column_margin_ratio(out.value[:, j], out.limit[:, j], c.sense, c.has_ratio)
+    out.margin[:, j] = m
+    out.ratio[:, j] = r
+    out.status[:, j] = np.where(m >= 0, PASS, FAIL)
+    j = IDX["conduction"]
+    out.status[:, j] = np.where(out.status[:, j] == PASS, FIXED, out.status[:, j])
     return out

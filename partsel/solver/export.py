@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 
 from partsel import present as P
+from partsel.physics.simulate import abandoned_reason
 from partsel.solver import checks as C
 from partsel.solver.messages import check_message
 from partsel.solver.relax import Hint
@@ -27,9 +28,9 @@ FORMAT = "partsel.ranking/1"
 THD_LABEL = (
     "THD_F estimate of the output stage from partsel's closed-form macro-model (class A / B "
     "handing over: from the glitch or clipping shape; at the boundary: from the device law; "
-    "class A / B in one mode: from the follower's device law and the input stage; class AB / "
-    "CMOS, and a stage kept in one mode by the fix resistor: an upper bound; a clipping output "
-    "adds the clipped sine's THD; not a simulation or a measurement)"
+    "class A / B in one mode, by itself or with the fix resistor fitted: from the follower's "
+    "device law and the input stage; class AB / CMOS: an upper bound; a clipping output adds "
+    "the clipped sine's THD; not a simulation or a measurement)"
 )
 CAUTION = (
     "Estimates from partsel's behavioural macro-model: confirm on the bench or in a full "
@@ -149,9 +150,10 @@ def _int(x: Any) -> int | None:
 
 
 def thd_is_bound(r: Ranking, i: int) -> bool:
-    """The THD the verdict judges is an upper bound (a biased stage, or one kept in one mode by
-    the fix resistor), not an estimate: people read it as "below X %"."""
-    return str(r.prediction.conduction[i]) == "biased" or bool(r.fix.applied[i])
+    """The THD the verdict judges is an upper bound (a biased stage), not an estimate: people
+    read it as "below X %". A stage kept in one mode, by itself or by the fix resistor, has an
+    estimate (the closed form of the circuit as it is built)."""
+    return str(r.prediction.conduction[i]) == "biased"
 
 
 def rail_dict(rf: Any, i: int) -> dict[str, Any]:
@@ -577,7 +579,9 @@ def part_schema() -> dict[str, Any]:
                     "extra_supply_current_a": _n("Extra supply current per channel.", "A"),
                     "extra_dissipation_w": _n("Extra dissipation per channel.", "W"),
                     "thd_estimate_with_fix": _n(
-                        "Upper bound of THD_F with the resistor fitted (one mode).", "1"
+                        "THD_F estimate with the resistor fitted (the stage kept in one mode; "
+                        "the closed form of the circuit with it).",
+                        "1",
                     ),
                     "reason": {"type": "string"},
                     "rule": {
@@ -735,8 +739,11 @@ def options_dict(r: Ranking) -> dict[str, Any]:
 
 def simulation_dict(sim: Any, k: int) -> dict[str, Any]:
     """Part ``k`` of a :class:`partsel.physics.simulate.SimResult` as plain data."""
+    abandoned = bool(sim.abandoned[k])
     return {
         "steps_per_period": int(sim.steps_per_period),
+        "converged": not abandoned,
+        "note": abandoned_reason(sim, k) if abandoned else None,
         "thd_f": num(sim.thd_f[k]),
         "thd_definition": f"THD_F (IEC): RMS of harmonics 2..{sim.harmonics_v.shape[1] - 1}"
         " over the fundamental",
@@ -784,6 +791,12 @@ def prediction_schema() -> dict[str, Any]:
         "required": ["steps_per_period", "thd_f", "handover"],
         "properties": {
             "steps_per_period": {"type": "integer", "minimum": 1},
+            "converged": {
+                "type": "boolean",
+                "description": "False when the simulation was stopped (its figures are null; "
+                "the closed form stands); 'note' says why.",
+            },
+            "note": {"type": ["string", "null"]},
             "thd_f": _n("THD_F of the simulated output (IEC definition).", "1"),
             "thd_definition": {"type": "string"},
             "residual_peak_v": _n("Peak of the output minus its DC and fundamental.", "V"),

@@ -170,9 +170,12 @@ def check_message(r: Ranking, i: int, name: str) -> str:
                 f" but the stage current is {_q(stage_i, 'A')}"
             )
         else:
+            # the device held on: the source device, or the sink device where a pull-up (the
+            # fix fitted, or the design's own) keeps a class-B stage in sink mode
+            sink = fx.rail[i] == "positive" if fx.applied[i] else bool(p.held_sink[i])
             text = (
-                f"least source-device current {_q(value, 'A')} of a stage current of "
-                f"{_q(stage_i, 'A')} (at least {_q(limit, 'A')} required)"
+                f"least {'sink' if sink else 'source'}-device current {_q(value, 'A')} of a "
+                f"stage current of {_q(stage_i, 'A')} (at least {_q(limit, 'A')} required)"
             )
         if fx.needed[i]:
             text += "; fix: " + P.fix_summary(fx, i)

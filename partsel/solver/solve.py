@@ -12,8 +12,9 @@ part at once:
    (design notes section 7: "for each check, use the side of the range that is pessimistic"),
    and the crossover prediction the corner worst for it;
 3. :func:`partsel.physics.fix.size_fix` for every class-A/B part that changes mode or is
-   marginal (also when other checks reject it, so that the fix is always shown), and the checks
-   again with the fix resistor fitted (:func:`partsel.solver.checks.fix_variant`);
+   marginal (also when other checks reject it, so that the fix is always shown), and every
+   check again on the circuit with the fix resistor fitted (the same evaluation as a design
+   that has the resistor itself);
 4. the verdict under the requirement's conduction mode, the binding constraint of each rejected
    part, the score (:mod:`partsel.solver.score`) and the Pareto set
    (:mod:`partsel.solver.pareto`) of the feasible parts, and relaxation hints
@@ -26,12 +27,12 @@ the score, the rank and the Pareto set are relative to the parts ranked together
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Literal
 
 import numpy as np
 
-from partsel.physics.analysis import ClosedForm, predict_closed_form, thd_bound
+from partsel.physics.analysis import ClosedForm, predict_closed_form
 from partsel.physics.circuit import Design
 from partsel.physics.fix import RailFix, size_fix
 from partsel.solver import checks as C
@@ -81,6 +82,7 @@ class Prediction:
     handover_out_v: np.ndarray
     flat_level_v: np.ndarray
     min_source_a: np.ndarray
+    held_sink: np.ndarray  #: class B held in sink mode (a pull-up): the sink device stays on
     stage_current_a: np.ndarray
     i_out_min_a: np.ndarray
     i_out_max_a: np.ndarray
@@ -108,6 +110,7 @@ class Prediction:
             handover_out_v=cf.handover_out_v.copy(),
             flat_level_v=cf.flat_level_v.copy(),
             min_source_a=cf.min_source_a.copy(),
+            held_sink=np.asarray(cf.held_sink, dtype=bool).copy(),
             stage_current_a=np.asarray(stage_current_a, dtype=float).copy(),
             i_out_min_a=np.broadcast_to(cf.i_out_min_a, (n,)).astype(float),
             i_out_max_a=np.broadcast_to(cf.i_out_max_a, (n,)).astype(float),
@@ -172,7 +175,9 @@ class FixInfo:
     margin: float  #: fraction of its stage current the device kept on must still carry
     negative: RailFix  #: the pull-down remedy of every part (a resistor to V-)
     positive: RailFix  #: the pull-up remedy of every part (a resistor to V+)
-    thd_with_fix: np.ndarray  #: upper bound of THD_F with the recommended resistor fitted
+    thd_with_fix: np.ndarray
+    """THD_F estimate with the recommended resistor fitted: the closed form of the circuit with
+    it, as for a design that has that resistor itself (NaN where no resistor works)."""
 
     @property
     def recommended(self) -> np.ndarray:
@@ -275,6 +280,104 @@ class Ranking:
         return int(hit[0])
 
 
+def _evaluate(
+    table: PartTable,
+    rows: np.ndarray,
+    stage: Any,
+    design: Design,
+    req: Requirements,
+    levels: C.DesignLevels,
+    *,
+    inputs: dict[str, np.ndarray] | None = None,
+    device_law: np.ndarray | None = None,
+) -> tuple[C.CheckArrays, np.ndarray, Prediction, ClosedForm]:
+    """Every check of parts ``rows`` of ``table`` (``stage``: those parts, in that order) in
+    ``design``: the closed form on the requirement's basis and, on the worst-case basis, the
+    stage current swept over its corners, each check keeping its worst corner and the crossover
+    prediction the corner worst for it. Returns the checks, the corner of each check, the
+    prediction and the closed form of the basis's own values. The one evaluation of a circuit:
+    the parts as designed, the parts with the fix fitted and the boards of the spread analysis
+    (:mod:`partsel.solver.spread`: ``design`` a batch, ``inputs`` the drawn input parameters,
+    ``device_law`` the rows whose marginal stages are simulated, see
+    :func:`partsel.physics.analysis.predict_closed_form`) all go through it."""
+    worst = req.basis == "worst-case"
+    cf = predict_closed_form(stage, design, device_law=device_law)
+    chk = C.evaluate(table, rows, stage, cf, design, req, levels, inputs=inputs)
+    corner = np.full((rows.size, C.N_CHECKS), 0 if worst else -1, dtype=np.int8)
+    pred = Prediction.of(cf, stage.stage_current_a, 0 if worst else -1)
+    if worst:
+        lo = table.stage_current_corner("min")[rows]
+        for k, name in enumerate(CORNERS[1:], start=1):
+            alt = table.stage_current_corner(name)[rows]
+            sub = np.flatnonzero(stage.has_pulldown & (alt != lo) & np.isfinite(alt))
+            if sub.size == 0:
+                continue
+            st_c = stage.take(sub).replace(stage_current_a=alt[sub])
+            cf_c = predict_closed_form(st_c, design)
+            chk_c = C.evaluate(table, rows[sub], st_c, cf_c, design, req, levels)
+            _combine_corner(chk, chk_c, corner, sub, k)
+            pred.worse_of(sub, Prediction.of(cf_c, alt[sub], k))
+    return chk, corner, pred, cf
+
+
+def with_resistor(design: Design, rail: str, r_ohm: float | np.ndarray) -> Design:
+    """``design`` with a resistor ``r_ohm`` from the output to ``rail`` ("negative" /
+    "positive") added in parallel with any the design has there: the circuit of a fix.
+    ``r_ohm`` may hold one value per row (a batch design, :attr:`Design.rows`; NaN: no
+    resistor added on that row)."""
+    ld = design.load
+    key = "r_to_neg_ohm" if rail == "negative" else "r_to_pos_ohm"
+    have = getattr(ld, key)
+    if np.ndim(r_ohm) == 0 and np.ndim(have) == 0:
+        r = r_ohm if have is None or not np.isfinite(have) else 1.0 / (1.0 / have + 1.0 / r_ohm)
+        return replace(design, load=replace(ld, **{key: float(r)}))
+    new = np.asarray(r_ohm, dtype=float)
+    own = np.asarray(np.nan if have is None else have, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        both = 1.0 / (1.0 / own + 1.0 / new)
+    r = np.where(np.isfinite(new), np.where(np.isfinite(own), both, new), own)
+    return replace(design, load=replace(ld, **{key: r}))
+
+
+def _fixed_checks(
+    table: PartTable,
+    rows: np.ndarray,
+    stage: Any,
+    design: Design,
+    req: Requirements,
+    levels: C.DesignLevels,
+    fix: FixInfo,
+    base: C.CheckArrays,
+    base_corner: np.ndarray,
+) -> tuple[C.CheckArrays, np.ndarray, np.ndarray]:
+    """The checks of parts ``rows`` (those that need the fix) with their fix resistor fitted:
+    every check evaluated by :func:`_evaluate` on the circuit with the resistor (the same rule
+    as a design that has that resistor itself: swing and limits at the new currents, supply
+    current and junction temperature with the resistor's share, the THD estimate of the stage
+    kept in one mode), grouped by rail and value. The conduction check reads ``fixed`` where it
+    passes so; parts whose fix does not work keep their checks as designed, with the
+    conduction and fix-resistor checks failing (see :func:`partsel.solver.checks.fix_variant`).
+    Also returns the corner of each check and the package dissipation, W."""
+    out = C.fix_variant(base, r_ohm=fix.r_ohm[rows], works=fix.works[rows], req=req)
+    corner = base_corner.copy()
+    diss = np.full(rows.size, np.nan)
+    works = fix.works[rows] & np.isfinite(fix.r_ohm[rows])
+    rail = fix.rail[rows]
+    r = fix.r_ohm[rows]
+    for name in ("negative", "positive"):
+        on = works & (rail == name)
+        for value in np.unique(r[on]):
+            loc = np.flatnonzero(on & (r == value))
+            d_fix = with_resistor(design, name, float(value))
+            chk_f, corner_f, _, cf_f = _evaluate(
+                table, rows[loc], stage.take(rows[loc]), d_fix, req, levels
+            )
+            out.put(loc, C.with_fix_resistor(chk_f, float(value), req))
+            corner[loc] = corner_f
+            diss[loc] = cf_f.dissipation_w
+    return out, corner, diss
+
+
 def _combine_corner(
     base: C.CheckArrays, other: C.CheckArrays, corner: np.ndarray, rows: np.ndarray, k: int
 ) -> None:
@@ -341,25 +444,8 @@ def rank(
     every = np.arange(n)
     stage = table.stage(basis)
     levels = C.DesignLevels.of(design)
-    cf = predict_closed_form(stage, design)
-    chk = C.evaluate(table, every, stage, cf, design, req, levels)
-    corner = np.full((n, C.N_CHECKS), 0 if basis == "worst-case" else -1, dtype=np.int8)
-    pred = Prediction.of(cf, stage.stage_current_a, 0 if basis == "worst-case" else -1)
+    chk, corner, pred, cf = _evaluate(table, every, stage, design, req, levels)
     t1 = time.perf_counter()
-
-    if basis == "worst-case":
-        lo = table.stage_current_corner("min")
-        for k, name in enumerate(CORNERS[1:], start=1):
-            alt = table.stage_current_corner(name)
-            sub = np.flatnonzero(stage.has_pulldown & (alt != lo) & np.isfinite(alt))
-            if sub.size == 0:
-                continue
-            st_c = stage.take(sub).replace(stage_current_a=alt[sub])
-            cf_c = predict_closed_form(st_c, design)
-            chk_c = C.evaluate(table, sub, st_c, cf_c, design, req, levels)
-            _combine_corner(chk, chk_c, corner, sub, k)
-            pred.worse_of(sub, Prediction.of(cf_c, alt[sub], k))
-    t2 = time.perf_counter()
 
     # the fix: sized for every class-A/B part that needs it, whatever else it fails
     jc = C.IDX["conduction"]
@@ -368,17 +454,12 @@ def rank(
         needed = stage.has_pulldown & (chk.margin[:, jc] < 0)
     fx_rows = np.flatnonzero(needed)
     fix = _size_fixes(stage, design, fx_rows, n, req.fix_series, frac, needed, req.fix_tolerance)
-    fixed = C.fix_variant(
-        chk.take(fx_rows),
-        r_ohm=fix.r_ohm[fx_rows],
-        thd_fixed=fix.thd_with_fix[fx_rows],
-        works=fix.works[fx_rows],
-        extra_supply_a=fix.extra_supply_a[fx_rows],
-        extra_dissipation_w=fix.extra_dissipation_w[fx_rows],
-        theta_ja_k_per_w=stage.theta_ja_k_per_w[fx_rows],
-        design=design,
-        req=req,
+    fixed, fixed_corner, fixed_diss = _fixed_checks(
+        table, fx_rows, stage, design, req, levels, fix, chk.take(fx_rows), corner[fx_rows]
     )
+    thd_fix = fix.thd_with_fix.copy()
+    thd_fix[fx_rows] = np.where(fix.works[fx_rows], fixed.value[:, C.IDX["thd"]], np.nan)
+    fix = _replace(fix, thd_with_fix=thd_fix)
     t3 = time.perf_counter()
 
     # verdict
@@ -389,9 +470,12 @@ def rank(
     fix_pass[fx_rows] = ~fixed.failing.any(axis=1)
     feasible, use_fix = verdict_flags(req.conduction, other_fail, cond_fail, needed, fix_pass)
     apply_rows = np.flatnonzero(use_fix)
+    dissipation = cf.dissipation_w.copy()
     if apply_rows.size:
         pos = np.searchsorted(fx_rows, apply_rows)
         chk.put(apply_rows, fixed.take(pos))
+        corner[apply_rows] = fixed_corner[pos]
+        dissipation[apply_rows] = fixed_diss[pos]
     fix = _replace(fix, applied=use_fix & fix.works)
     t_y = time.perf_counter()
     yields = None
@@ -417,8 +501,7 @@ def rank(
 
     # objectives
     v = chk.value
-    used = float(design.channels_used)
-    diss = cf.dissipation_w + np.where(use_fix, used * np.nan_to_num(fix.extra_dissipation_w), 0)
+    diss = dissipation
     sw = req.limit("min_swing_margin") or 0.0
     with np.errstate(invalid="ignore", divide="ignore"):
         metrics = {
@@ -497,8 +580,8 @@ def rank(
     t5 = time.perf_counter()
     object.__setattr__(result, "hints", tuple(hint_list))
     result.timing_s.update(
-        closed_form=t1 - t0, corners=t2 - t1, fix=t3 - t2, verdict=t4 - t3, hints=t5 - t4,
-        yields=t_y, total=t5 - t0,
+        closed_form=t1 - t0, fix=t3 - t1, verdict=t4 - t3, hints=t5 - t4, yields=t_y,
+        total=t5 - t0,
     )  # fmt: skip
     return result
 
@@ -542,8 +625,8 @@ def _size_fixes(
     needed: np.ndarray,
     tolerance: float | None = None,
 ) -> FixInfo:
-    """Run size_fix for ``rows`` in chunks; scatter into arrays over all ``n`` parts, with the
-    one-mode THD estimate of each part with its recommended resistor fitted."""
+    """Run size_fix for ``rows`` in chunks; scatter into arrays over all ``n`` parts
+    (``thd_with_fix`` is filled by :func:`rank` from the checks with the fix fitted)."""
     rail = np.full(n, "", dtype=object)
     reason = np.full(n, "", dtype=object)
     r_ohm = np.full(n, np.nan)
@@ -588,22 +671,6 @@ def _size_fixes(
         edge = rec == "not-needed"
         rail[part[edge]] = "none"
         reason[part[edge]] = "at the boundary of its margin; no resistor sized"
-    if rows.size:
-        rr = rail[rows]
-        # With a pull-up the sink device carries the resistor's current less the pull-down's:
-        # there the pessimistic side of the stage current is the high one (see size_fix).
-        st = stage.take(rows)
-        st = st.replace(
-            stage_current_a=np.where(rr == "positive", st.stage_current_high_a, st.stage_current_a)
-        )
-        # A stage kept in one mode by a resistor is bounded, not quoted (the loop-reduced device
-        # law plus the input stage's slew-induced term: partsel.physics.analysis.thd_bound).
-        thd_fix[rows] = thd_bound(
-            st,
-            design,
-            r_to_neg_ohm=np.where(rr == "negative", r_ohm[rows], np.nan),
-            r_to_pos_ohm=np.where(rr == "positive", r_ohm[rows], np.nan),
-        )
     if tol is None:
         from partsel.physics.eseries import SERIES_TOLERANCE
 

@@ -1,19 +1,22 @@
 """Measure the transistor-level op-amps of this folder the way a datasheet would, and run them.
 
+Written independently of :mod:`partsel.characterise` (partsel's own characteriser, which
+tests/test_characterise.py checks against these measurements and the probes here).
+
 Each circuit is a ``.subckt`` with the pins ``IN+ IN- OUT V+ V-`` (see README.md here). The
 measurements use only those pins where a datasheet would, and internal probes (named in each
 file's header) where a datasheet could not:
 
 * GBW: open loop with a DC feedback inductor (1 GH, the inverting input AC-grounded through
   1 F), 10 kohm to mid-supply, ``|A(f)| f`` at 10 kHz on the -20 dB/decade slope;
-* slew rate: unity-gain follower, 10 kohm to V-, a 1.5 V to 3.5 V step, 20 % to 80 % of the
-  swing, rising and falling edge;
+* slew rate: unity-gain follower, 10 kohm to V-, a 1.5 V to 3.5 V step (or other levels),
+  20 % to 80 % of the swing, rising and falling edge;
 * stage current of a class-B stage: the follower at mid-supply with a DC current pulled into
   its output from a higher node: the V+ supply current falls one for one while the source
   device conducts and stops at the knee, ``I_x = I_pd`` (design notes section 11); checked
   against the pull-down transistor's own collector current (probe);
-* quiescent current of a class-AB stage: the source device's collector current at zero output
-  current (probe: a datasheet gives only the supply current);
+* quiescent current of a class-AB or CMOS stage: the source device's collector (drain)
+  current at zero output current (probe: a datasheet gives only the supply current);
 * dead band (class B, probe): the drive node exposed as a sixth pin and forced, the output held
   at mid-supply: the drive points where the source device and the sink device each carry the
   stage current;
@@ -57,6 +60,11 @@ class Circuit:
     sink: str  #: instance of the sink device
     pulldown: str | None = None  #: instance of the pull-down transistor (class B)
     drive: str = "nd"  #: drive node (the macro-model's integrator node)
+    kind: str = "q"  #: device letter of the probes: "q" bipolar, "m" MOS
+
+    def probe(self, device: str) -> str:
+        """ngspice's name of ``device``'s collector (drain) current in instance X1."""
+        return f"@{self.kind}.x1.{device}[{'ic' if self.kind == 'q' else 'id'}]"
 
     @property
     def path(self) -> Path:
@@ -73,6 +81,7 @@ class Circuit:
 
 CLASS_B = Circuit("opamp_class_b", "class-b-pulldown", "qs2", "qk", "qpd")
 CLASS_AB = Circuit("opamp_class_ab", "class-ab", "qs", "qk")
+CMOS = Circuit("opamp_cmos_rr", "cmos-rail-to-rail", "mp", "mn", drive="gn", kind="m")
 
 
 @dataclass(frozen=True)
@@ -138,9 +147,11 @@ def _gbw(c: Circuit, work: Path) -> float:
     return float(10 ** (cols["vdb(out)"][k] / 20) * f[k])
 
 
-def _slew(c: Circuit, work: Path) -> tuple[float, float]:
+def _slew(c: Circuit, work: Path, lo: float = 1.5, hi: float = 3.5) -> tuple[float, float]:
+    """Rising and falling slew rate of the follower stepped from ``lo`` to ``hi`` and back."""
     body = (
-        f"Vin inp 0 PULSE(1.5 3.5 2u 1n 1n 20u 40u)\nX1 inp out out vp 0 {c.name}\nRL out 0 10k\n"
+        f"Vin inp 0 PULSE({lo!r} {hi!r} 2u 1n 1n 20u 40u)\nX1 inp out out vp 0 {c.name}\n"
+        "RL out 0 10k\n"
     )
     cols = run_ngspice_columns(_deck(c, body, "tran 2n 44u 0 2n", "v(out)"), work)
     t, v = cols["time"], cols["v(out)"]
@@ -160,7 +171,7 @@ def _slew(c: Circuit, work: Path) -> tuple[float, float]:
 
 def _knee(c: Circuit, work: Path) -> tuple[float, float]:
     """(knee current, supply current at no load) of the follower at mid-supply, A."""
-    probe = f" @q.x1.{c.pulldown}[ic]" if c.pulldown else ""
+    probe = f" {c.probe(c.pulldown)}" if c.pulldown else ""
     body = (
         f"Vin inp 0 DC {MID_V}\nX1 inp out out vp 0 {c.name}\nVhi hi 0 {2 * SUPPLY_V}\n"
         "Ix hi out DC 0\n"
@@ -181,8 +192,8 @@ def _probe_current(c: Circuit, work: Path) -> float:
     follower at mid-supply with no load, A."""
     dev = c.pulldown or c.source
     body = f"Vin inp 0 DC {MID_V}\nX1 inp out out vp 0 {c.name}\n"
-    cols = run_ngspice_columns(_deck(c, body, "op", f"@q.x1.{dev}[ic]"), work)
-    return float(np.ravel(cols[f"@q.x1.{dev}[ic]"])[0])
+    cols = run_ngspice_columns(_deck(c, body, "op", c.probe(dev)), work)
+    return float(np.ravel(cols[c.probe(dev)])[0])
 
 
 def _dead_band(c: Circuit, work: Path, i_stage: float) -> float:
@@ -191,11 +202,11 @@ def _dead_band(c: Circuit, work: Path, i_stage: float) -> float:
         f"Vin inp 0 DC {MID_V}\nVinn inn 0 {MID_V}\nVo out 0 {MID_V}\nVnd nd 0 {MID_V}\n"
         f"X1 inp inn out vp 0 nd {c.name}\n"
     )
-    vec = f"@q.x1.{c.source}[ic] @q.x1.{c.sink}[ic]"
+    vec = f"{c.probe(c.source)} {c.probe(c.sink)}"
     cols = run_ngspice_columns(_deck(c, body, "dc Vnd 0.8 4.2 0.0005", vec, pins=(c.drive,)), work)
     nd = cols["v-sweep"]
-    x_src = float(np.interp(i_stage, cols[f"@q.x1.{c.source}[ic]"], nd))
-    x_snk = float(np.interp(i_stage, -cols[f"@q.x1.{c.sink}[ic]"][::-1], nd[::-1]))
+    x_src = float(np.interp(i_stage, cols[c.probe(c.source)], nd))
+    x_snk = float(np.interp(i_stage, -cols[c.probe(c.sink)][::-1], nd[::-1]))
     return x_src - x_snk
 
 
@@ -291,7 +302,7 @@ def transient(
         f"X1 inp inn out vp 0 {c.name}\nRL out ref {case.r_load_ohm!r}\n"
         + (f"Rneg out 0 {case.r_neg_ohm!r}\n" if case.r_neg_ohm else "")
     )
-    vec = f"v(out) v(x1.{c.drive}) @q.x1.{c.source}[ic] @q.x1.{c.sink}[ic]"
+    vec = f"v(out) v(x1.{c.drive}) {c.probe(c.source)} {c.probe(c.sink)}"
     step = period / steps
     cols = run_ngspice_columns(
         _deck(c, body, f"tran {step!r} {periods * period!r} 0 {step!r}", vec), work
@@ -299,8 +310,8 @@ def transient(
     t = (periods - 1) * period + np.arange(n) * period / n
     return Wave(
         v_out=np.interp(t, cols["time"], cols["v(out)"]),
-        i_source=np.interp(t, cols["time"], cols[f"@q.x1.{c.source}[ic]"]),
-        i_sink=np.interp(t, cols["time"], cols[f"@q.x1.{c.sink}[ic]"]),
+        i_source=np.interp(t, cols["time"], cols[c.probe(c.source)]),
+        i_sink=np.interp(t, cols["time"], cols[c.probe(c.sink)]),
         v_drive=np.interp(t, cols["time"], cols[f"v(x1.{c.drive})"]),
         v_static=float(cols["v(out)"][0]),
     )

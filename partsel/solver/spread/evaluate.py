@@ -5,11 +5,12 @@ The spread analysis adds no physics and no check of its own. Each row is one boa
 typical-basis stage parameters (:meth:`partsel.solver.table.PartTable.stage`) with its spread
 parameters replaced, the design as a batch (:attr:`partsel.physics.circuit.Design.rows`: one
 circuit per row) with its tolerances drawn and the recommended fix resistor fitted, then
-:func:`partsel.physics.analysis.predict_closed_form` and
-:func:`partsel.solver.checks.evaluate` exactly as the ranking runs them (and
-:func:`partsel.solver.checks.fitted_in_circuit`, the ranking's rule for a stage kept in one mode
-by its fix). Rows are evaluated in chunks of :data:`CHUNK_ROWS`, so that memory stays bounded
-whatever the number of samples.
+the ranking's own evaluation of a circuit (:func:`partsel.solver.solve._evaluate`: the closed
+form and every check, on the typical basis since every value is drawn), the fix resistor added
+in parallel by the ranking's :func:`partsel.solver.solve.with_resistor` and the checks marked by
+:func:`partsel.solver.checks.with_fix_resistor`, as the ranking judges a part with its fix.
+Rows are evaluated in chunks of :data:`CHUNK_ROWS`, so that memory stays bounded whatever the
+number of samples.
 """
 
 from __future__ import annotations
@@ -21,7 +22,7 @@ from typing import Any
 
 import numpy as np
 
-from partsel.physics.analysis import ClosedForm, predict_closed_form, source_demand
+from partsel.physics.analysis import ClosedForm, source_demand
 from partsel.physics.circuit import Design
 from partsel.physics.stage import CLASS_B, StageParams
 from partsel.solver import checks as C
@@ -184,29 +185,24 @@ def circuit_rows(
 ) -> Design:
     """The design of rows of parts ``pos``: the drawn tolerances ``values`` (``"section/key"``
     of the design file -> (R,): a tolerance, or ``environment/ambient_max`` for the ambient the
-    junction is judged at), and the fix resistor ``fix_r`` (R,) on each part's rail where it is
-    fitted; one design when nothing varies."""
-    changes: dict[tuple[str, str], np.ndarray] = {}
-    for name, v in values.items():  # "section/key" of the design file (a tolerance, the ambient)
-        section, key = name.split("/")
-        changes[(section, key)] = np.asarray(v, dtype=float)
-    rail = b.fix.rail[pos]
-    if fix_r is not None and b.fix.fitted[pos].any():
-        ld = b.design.load
-        for name, key, own in (
-            ("negative", "to_negative_rail", ld.r_to_neg_ohm),
-            ("positive", "to_positive_rail", ld.r_to_pos_ohm),
-        ):
+    junction is judged at), and the fix resistor ``fix_r`` (R,) added on each part's rail where
+    it is fitted (in parallel with the design's own, by the ranking's
+    :func:`partsel.solver.solve.with_resistor`); one design when nothing varies."""
+    from partsel.solver.solve import with_resistor
+
+    n = pos.size
+    changes = {
+        tuple(name.split("/")): np.broadcast_to(np.asarray(v, dtype=float), (n,)).astype(float)
+        for name, v in values.items()
+    }
+    d = b.design.with_values(changes) if changes else b.design
+    if fix_r is not None:
+        rail = b.fix.rail[pos]
+        for name in ("negative", "positive"):
             on = rail == name
             if on.any():
-                other = np.nan if own is None else own
-                changes[("load", key)] = np.where(on, fix_r, other)
-    if not changes:
-        return b.design
-    n = pos.size
-    return b.design.with_values(
-        {k: np.broadcast_to(v, (n,)).astype(float) for k, v in changes.items()}
-    )
+                d = with_resistor(d, name, np.where(on, np.asarray(fix_r, dtype=float), np.nan))
+    return d
 
 
 def evaluate_rows(
@@ -224,13 +220,14 @@ def evaluate_rows(
     ``verdict_only``: only whether each board passes counts, so a marginal stage whose
     conduction check fails anyway (:func:`partsel.solver.checks.conduction_fails`) is not
     simulated (its THD and glitch are then NaN, and the board fails as it would)."""
+    from partsel.solver.solve import _evaluate
+
     st = stage_rows(b, pos, part_values)
     d = circuit_rows(b, pos, circuit_values, fix_r)
     device_law = None
     if verdict_only:
         d0, swing = source_demand(st, d)
-        device_law = ~C.conduction_fails(st, d0 - swing, b.req)
-    cf = predict_closed_form(st, d, device_law=device_law)
+        device_law = ~C.conduction_fails(st, d0 - swing, d0 + swing, b.req)
     inputs = {}
     for key in INPUT_KEYS:  # the typical basis' value where nothing is drawn, as the stage's
         base = b.table.param(key, "typical")[0][b.rows[pos]]
@@ -239,9 +236,14 @@ def evaluate_rows(
             base if vals is None else np.where(b.spread(key).varies[pos], vals[:, 0], base)
         )
     idx = b.rows[pos]
-    chk = C.evaluate(b.table, idx, st, cf, d, b.req, C.DesignLevels.of(d), inputs=inputs)
+    req = b.req if b.req.basis == "typical" else b.req.replace(basis="typical")
+    chk, _, _, cf = _evaluate(
+        b.table, idx, st, d, req, C.DesignLevels.of(d), inputs=inputs, device_law=device_law
+    )
     fitted = b.fix.fitted[pos] if fix_r is not None else np.zeros(pos.size, dtype=bool)
-    chk = C.fitted_in_circuit(chk, fitted, cf.thd_bound, d)
+    on = np.flatnonzero(fitted)
+    if on.size:  # marked as the ranking marks a part with its fix fitted
+        chk.put(on, C.with_fix_resistor(chk.take(on), np.asarray(fix_r)[on], b.req))
     return Rows(chk, cf, fitted, ~chk.failing.any(axis=1))
 
 

@@ -17,7 +17,7 @@ coefficient).
 
 from __future__ import annotations
 
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -85,7 +85,7 @@ class PartYield:
     check_pass: dict[str, float]  #: fraction of boards meeting each check that some fail
     checks_always_met: int  #: checks every board meets (counted ones)
     thd_percentiles: dict[float, float]
-    thd_bound: bool  #: the THD figures are upper bounds (biased stages, stages kept by the fix)
+    thd_bound: bool  #: the THD figures are upper bounds (a biased stage), else estimates
     handover: float  #: fraction of boards that hand over
     handover_level_percentiles: dict[float, float]
     correlated: list[tuple[str, float]]  #: (parameter, correlation with failure), strongest first
@@ -196,10 +196,12 @@ def part_yields(
     seed: int = DEFAULT_SEED,
     *,
     detail: bool = True,
+    progress: Callable[[int], None] | None = None,
 ) -> tuple[np.ndarray, list[dict[str, np.ndarray]] | None]:
     """Passed boards of every part of ``b`` (shape (P,)), and with ``detail`` the per-board
     records of each part: ``pass``, ``fail_checks`` (n, C), ``one_mode``, ``thd``,
-    ``handover``, ``level`` and the drawn values of every spread parameter."""
+    ``handover``, ``level`` and the drawn values of every spread parameter. ``progress(k)``:
+    called with the boards of each chunk as they are judged."""
     draws = _Draws(b, n, seed)
     passed = np.zeros(b.n_parts, dtype=np.int64)
     records: list[dict[str, np.ndarray]] | None = None
@@ -220,6 +222,8 @@ def part_yields(
         values, circuit, fix_r, _ = draws.rows(pos, samples)
         res = evaluate_rows(b, pos, values, circuit, fix_r, verdict_only=not detail)
         np.add.at(passed, pos, res.passed.astype(np.int64))
+        if progress is not None:
+            progress(int(pos.size))
         if records is None:
             continue
         fail = res.checks.failing
@@ -298,10 +302,12 @@ def analyse(
     series: str = "E24",
     method: Interval = "wilson",
     confidence: float = 0.95,
+    progress: Callable[[int], None] | None = None,
 ) -> YieldAnalysis:
     """The yield of every part of ``b`` over ``n`` boards (see the module docstring);
-    ``target``: the yield the fix resistor's search must reach (e.g. 0.999)."""
-    passed, records = part_yields(b, n, seed, detail=True)
+    ``target``: the yield the fix resistor's search must reach (e.g. 0.999); ``progress(k)``:
+    as :func:`part_yields`."""
+    passed, records = part_yields(b, n, seed, detail=True, progress=progress)
     assert records is not None
     out = []
     checked = [j for j, c in enumerate(C.CHECKS) if c.sense != "is"]
@@ -315,7 +321,6 @@ def analyse(
         fix = None
         if b.fix.fitted[p]:
             fix = _fix_search(b, p, n, seed, series, target, k / n)
-        biased_or_fixed = (not pulldown) or bool(b.fix.fitted[p])
         out.append(
             PartYield(
                 part_number=b.part_numbers[p],
@@ -327,7 +332,7 @@ def analyse(
                 check_pass=check_pass,
                 checks_always_met=len(checked) - len(check_pass),
                 thd_percentiles=_percentiles(rec["thd"]),
-                thd_bound=biased_or_fixed,
+                thd_bound=not pulldown,
                 handover=float(rec["handover"].mean()),
                 handover_level_percentiles=_percentiles(rec["level"]),
                 correlated=_correlations(rec["params"], ~rec["pass"]),

@@ -18,6 +18,7 @@ from textual.widgets import Static, TabbedContent, TabPane
 
 from partsel import present as P
 from partsel.api import CAUTION, Prediction
+from partsel.physics.simulate import abandoned_reason
 from partsel.physics.spectrum import spectrum_db
 from partsel.solver import Ranking
 from partsel.solver import checks as C
@@ -162,6 +163,9 @@ class PartView(Vertical):
         sim = pred.sim
         if sim is None:
             self.show_plot_message("no simulation")
+            return
+        if sim.abandoned[k]:
+            self.show_plot_message(abandoned_reason(sim, k))
             return
         pn = str(pred.frame["part_number"].iloc[k])
         t_ms = (sim.t_s - sim.t_s[0]) * 1e3
