@@ -35,9 +35,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from partsel.params import PARAM_BY_KEY
 from partsel.solver import checks as C
 from partsel.solver.spread.evaluate import CHUNK_ROWS, Board, evaluate_rows
-from partsel.solver.spread.model import FIXED, Spread
+from partsel.solver.spread.model import FIXED, SWING_RAILS, Spread
+from partsel.units import SI_UNIT
 
 #: Relative size of a margin change taken as numerical noise (the closed form's iterative parts
 #: converge far below it).
@@ -117,7 +119,8 @@ def corner_params(b: Board, p: int) -> tuple[list[Param], list[Spread | None]]:
             lo, hi, c = float(s.low[p, k]), float(s.high[p, k]), float(s.centre[p, k])
         if not hi > lo:
             continue
-        params.append(Param(s.key, "catalogue", lo, hi, (c - lo) / (hi - lo)))
+        unit = "V" if s.key in SWING_RAILS else SI_UNIT[PARAM_BY_KEY[s.key].dimension]
+        params.append(Param(s.key, "catalogue", lo, hi, (c - lo) / (hi - lo), unit))
         spreads.append(s)
     for s in b.circuit:
         lo, hi, c = float(s.low[0, 0]), float(s.high[0, 0]), float(s.centre[0, 0])
@@ -126,7 +129,7 @@ def corner_params(b: Board, p: int) -> tuple[list[Param], list[Spread | None]]:
     if b.fix.fitted[p] and b.fix.tolerance > 0:
         s = b.fix.spread()
         lo, hi = float(s.low[p, 0]), float(s.high[p, 0])
-        params.append(Param("fix_resistor", "fix", lo, hi, 0.5))
+        params.append(Param("fix_resistor", "fix", lo, hi, 0.5, "ohm"))
         spreads.append(s)
     t_lo, t_hi = b.design.t_ambient_min_c, b.design.t_ambient_max_c
     if t_hi > t_lo:

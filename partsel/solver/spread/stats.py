@@ -172,8 +172,10 @@ def wilson(passed: int, samples: int, confidence: float = 0.95) -> YieldInterval
     den = 1.0 + z * z / n
     centre = (p + z * z / (2.0 * n)) / den
     half = z * math.sqrt(p * (1.0 - p) / n + z * z / (4.0 * n * n)) / den
-    return YieldInterval(k, n, max(0.0, centre - half), min(1.0, centre + half), "wilson",
-                         confidence)  # fmt: skip
+    # the ends are exactly 0 at k = 0 and 1 at k = n (rounding would leave 1e-19)
+    low = 0.0 if k == 0 else max(0.0, centre - half)
+    high = 1.0 if k == n else min(1.0, centre + half)
+    return YieldInterval(k, n, low, high, "wilson", confidence)
 
 
 def clopper_pearson(passed: int, samples: int, confidence: float = 0.95) -> YieldInterval:
