@@ -179,3 +179,178 @@ def yield_dict(y: YieldAnalysis, *, design_name: str = "") -> dict[str, Any]:
         "assumptions": list(ASSUMPTIONS),
         "caution": CAUTION,
     }
+
+
+# ---- schema -----------------------------------------------------------------------------------
+
+
+def _n(description: str) -> dict[str, Any]:
+    return {"type": ["number", "null"], "description": description}
+
+
+def _obj(props: dict[str, Any], required: list[str] | None = None) -> dict[str, Any]:
+    return {
+        "type": "object",
+        "additionalProperties": False,
+        "required": list(props) if required is None else required,
+        "properties": props,
+    }
+
+
+def spread_schema() -> dict[str, Any]:
+    """JSON Schema (draft 2020-12) of ``partsel corners --json`` and ``partsel yield --json``
+    (data-schema/spread.schema.json; a test keeps the two equal)."""
+    checks = [c.name for c in C.CHECKS]
+    text = {"type": "string"}
+    strings = {"type": "array", "items": text}
+    interval = _obj(
+        {
+            "method": {"enum": ["wilson", "clopper-pearson"]},
+            "confidence": {"type": "number", "exclusiveMinimum": 0, "exclusiveMaximum": 1},
+            "low": {**_n("Lower end, fraction of 1"), "minimum": 0, "maximum": 1},
+            "high": {**_n("Upper end, fraction of 1"), "minimum": 0, "maximum": 1},
+        }
+    )
+    percentiles = {
+        "type": "object",
+        "propertyNames": {"pattern": "^p[0-9.]+$"},
+        "additionalProperties": {"type": ["number", "null"]},
+        "description": "Percentiles by name: p1, p5, p50, p95, p99",
+    }
+    parameter = _obj(
+        {
+            "key": {
+                **text,
+                "description": "Catalogue parameter, 'section/key' of the design "
+                "file, 'fix_resistor' or 'environment/ambient_max'",
+            },
+            "origin": {"enum": ["catalogue", "design", "fix", "ambient"]},
+            "low": {"type": "number", "description": "Low end of the range, SI"},
+            "high": {"type": "number", "description": "High end of the range, SI"},
+            "nominal_fraction": _n("Where the nominal value lies in the range, 0 .. 1"),
+            "unit": {"type": ["string", "null"], "description": "SI unit of low and high"},
+        }
+    )
+    corner = _obj(
+        {
+            "check": {"enum": checks},
+            "unit": text,
+            "status": {"enum": list(C.STATUS_NAMES)},
+            "margin": _n("Margin at the worst corner, in the check's unit (negative: fails)"),
+            "value": _n("The check's value at the worst corner"),
+            "limit": _n("The check's limit at the worst corner"),
+            "method": {"enum": ["vertex", "sampled"]},
+            "corner": {
+                "type": "object",
+                "description": "Place of every parameter: 'low' / 'high' end, or a value",
+                "additionalProperties": {"type": ["string", "number", "null"]},
+            },
+            "set_by": {
+                "type": "array",
+                "items": _obj(
+                    {
+                        "parameter": text,
+                        "end": {"enum": ["low", "high"]},
+                        "effect": _n("How much the parameter moves the margin"),
+                    }
+                ),
+            },
+            "non_monotonic": strings,
+        }
+    )
+    corners_doc = _obj(
+        {
+            "format": {"const": CORNERS_FORMAT},
+            "design": text,
+            "part_number": text,
+            "passes": {"type": "boolean"},
+            "parameters": {"type": "array", "items": parameter},
+            "corners": {"type": "array", "items": corner},
+            "fails_whatever_the_spread": strings,
+            "evaluations": {"type": "integer", "minimum": 0},
+            "method": text,
+            "assumptions": strings,
+            "caution": text,
+        }
+    )
+    fix = _obj(
+        {
+            "rail": {"enum": ["negative", "positive"]},
+            "r_ohm": _n("Recommended resistor, ohm"),
+            "series": text,
+            "tolerance": {"type": "number", "minimum": 0, "exclusiveMaximum": 1},
+            "yield": _n("Yield with the recommended resistor"),
+            "target": _n("Target yield searched for"),
+            "largest_reaching_target_ohm": _n("Largest value of the series reaching the target"),
+            "largest_yield": _n("Its yield"),
+            "tried": {
+                "type": "array",
+                "items": _obj({"r_ohm": {"type": "number"}, "yield": _n("Yield")}),
+            },
+        }
+    )
+    part = _obj(
+        {
+            "part_number": text,
+            "samples": {"type": "integer", "minimum": 1},
+            "passed": {"type": "integer", "minimum": 0},
+            "yield": {**_n("Fraction of boards meeting every check"), "minimum": 0, "maximum": 1},
+            "interval": interval,
+            "exact_interval": interval,
+            "one_mode_fraction": _n(
+                "Boards whose class-A/B stage stays in one mode (null: a biased stage)"
+            ),
+            "check_pass_fraction": {
+                "type": "object",
+                "propertyNames": {"enum": checks},
+                "additionalProperties": {"type": ["number", "null"]},
+            },
+            "checks_always_met": {"type": "integer", "minimum": 0},
+            "thd_percentiles": percentiles,
+            "thd_is_bound": {"type": "boolean"},
+            "handover_fraction": _n("Boards that hand over"),
+            "handover_level_percentiles_v": percentiles,
+            "correlated_with_failure": {
+                "type": "array",
+                "items": _obj(
+                    {
+                        "parameter": text,
+                        "correlation": {**_n("Pearson"), "minimum": -1, "maximum": 1},
+                    }
+                ),
+            },
+            "no_spread_known": strings,
+            "fix": {"oneOf": [{"type": "null"}, fix]},
+        }
+    )
+    yield_doc = _obj(
+        {
+            "format": {"const": YIELD_FORMAT},
+            "design": text,
+            "samples": {"type": "integer", "minimum": 1},
+            "seed": {"type": "integer", "minimum": 0},
+            "interval": {"enum": ["wilson", "clopper-pearson"]},
+            "confidence": {"type": "number", "exclusiveMinimum": 0, "exclusiveMaximum": 1},
+            "distributions": {"type": "object", "additionalProperties": text},
+            "parts": {"type": "array", "items": part},
+            "assumptions": strings,
+            "caution": text,
+        }
+    )
+    return {
+        "$schema": "https://json-schema.org/draft/2020-12/schema",
+        "$id": "urn:partsel:schema:spread:1",
+        "title": "partsel spread analysis",
+        "description": f"Output of `partsel corners --json` (format {CORNERS_FORMAT}) and "
+        f"`partsel yield --json` (format {YIELD_FORMAT}). SI units, ratios as fractions of 1; "
+        "null for unknown values. Estimates: confirm on the bench or in simulation.",
+        "oneOf": [{"$ref": "#/$defs/corners"}, {"$ref": "#/$defs/yield"}],
+        "$defs": {"corners": corners_doc, "yield": yield_doc},
+    }
+
+
+def spread_schema_json() -> str:
+    """The schema as the committed file's text (indent 2, final newline)."""
+    import json
+
+    return json.dumps(spread_schema(), indent=2, ensure_ascii=False) + "\n"
