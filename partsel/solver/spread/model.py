@@ -19,8 +19,9 @@ README:
 
   Parameters that cannot be negative are folded at zero (their magnitude is taken), parameters
   are independent of each other, and a part's spec is taken to hold over the design's ambient
-  range (where a spec is stated at one temperature only, the spread over temperature is unknown
-  and not modelled; :mod:`partsel.solver.spread.temperature` says which).
+  range (the catalogue states each spec at one set of conditions, so its spread over temperature
+  is unknown and not modelled: no temperature coefficient is invented; the outputs say so,
+  :data:`partsel.solver.spread.export.ASSUMPTIONS`).
 * **design tolerances** (:attr:`partsel.physics.circuit.Design.tolerances`): uniform between
   the ends of the tolerance or range, or, when written with ``kσ``, a (split) normal with the
   ends at k standard deviations.
