@@ -49,12 +49,13 @@ from partsel.physics.stage import Basis, StageParams
 from partsel.solver import PartTable, Ranking, Requirements
 from partsel.solver import rank as solver_rank
 from partsel.solver.export import prediction_dict
-from partsel.solver.requirements import BASES, FIX_SERIES
+from partsel.solver.requirements import BASES, FIX_SERIES, YIELD_SAMPLES_RANGE
 from partsel.solver.solve import FixInfo
 from partsel.solver.solve import Prediction as ClosedPrediction
 
 if TYPE_CHECKING:
     from partsel.solver.bom import BomReport
+    from partsel.solver.spread import Board, CornerAnalysis, YieldAnalysis
     from partsel.solver.substitute import Comparison, Vetting
 
 __all__ = [
@@ -489,6 +490,78 @@ class Session:
             )
         return sim, sim_fixed
 
+    # ---- spread: corners and Monte Carlo yield ----------------------------------------------
+    def spread_board(
+        self, design: Design | str | Path, parts: Sequence[str] | None = None, **options: Any
+    ) -> tuple[Ranking, Board]:
+        """The evaluation of ``parts`` in ``design`` (None: the parts the ranking finds
+        feasible, in rank order) and their spread model: the boards the corners and the yield
+        are judged on, with the fix resistor fitted where the verdict applies it (the
+        ranking's own rule, :func:`partsel.solver.spread.fix_of`)."""
+        from partsel.solver.spread import board, fix_of
+
+        design = self.load_design(design)
+        ranking = self.evaluate(design, parts, **options)
+        if parts is None:
+            rows = ranking.order[np.isin(ranking.order, np.flatnonzero(ranking.feasible))]
+        else:
+            index = {k: i for i, k in enumerate(ranking.table.part_key)}
+            rows = np.array([index[p.strip().casefold()] for p in parts], dtype=int)
+        req = ranking.requirements
+        b = board(ranking.table, rows, ranking.design, req, fix_of(ranking.fix, rows, req))
+        return ranking, b
+
+    def corners(self, design: Design | str | Path, part: str, **options: Any) -> CornerAnalysis:
+        """The worst corner of every check of ``part`` in ``design``: every spread parameter
+        (catalogue ranges, design tolerances, the fix resistor's tolerance, the ambient range)
+        at the ends of its range (:func:`partsel.solver.spread.corners`; options as
+        :meth:`evaluate`)."""
+        from partsel.solver.spread import corners as _corners
+
+        _, b = self.spread_board(design, [part], **options)
+        with beyond_arithmetic(b.design):
+            return _corners(b, 0)
+
+    def spread_yield(
+        self,
+        design: Design | str | Path,
+        parts: Sequence[str] | None = None,
+        *,
+        samples: int | None = None,
+        seed: int | None = None,
+        target: float | None = None,
+        progress: Callable[[int], None] | None = None,
+        **options: Any,
+    ) -> YieldAnalysis:
+        """The Monte Carlo yield of ``parts`` (None: the feasible parts) in ``design``:
+        ``samples`` boards drawn with ``seed`` (default: the design's ``yield_samples`` and
+        ``yield_seed``), and for a part with the fix the largest value of its series reaching
+        ``target`` (:func:`partsel.solver.spread.analyse`; options as :meth:`evaluate`);
+        ``progress(k)``: called with the boards judged as they are."""
+        from partsel.solver.spread import analyse
+
+        ranking, b = self.spread_board(design, parts, **options)
+        req = ranking.requirements
+        n = req.yield_samples if samples is None else int(samples)
+        lo, hi = YIELD_SAMPLES_RANGE
+        if not lo <= n <= hi:
+            raise InputError(f"samples: from {lo} to {hi:,}, got {n}", pointer="/samples")
+        if seed is not None and not 0 <= int(seed) < 2**63:
+            raise InputError(f"seed: a whole number >= 0, got {seed}", pointer="/seed")
+        if target is not None and not 0.0 < float(target) < 1.0:
+            raise InputError(
+                f"target: a yield above 0 and below 100 %, got {target:g}", pointer="/target"
+            )
+        with beyond_arithmetic(b.design):
+            return analyse(
+                b,
+                n,
+                req.yield_seed if seed is None else int(seed),
+                target=target,
+                series=req.fix_series,
+                progress=progress,
+            )
+
     # ---- substitutes, comparison, BOM --------------------------------------------------------
     def vet(
         self,
@@ -549,6 +622,7 @@ class Session:
                 design.t_ambient_min_c,
                 design.t_ambient_max_c,
                 design.channels_used,
+                sorted(design.tolerances.items()),  # (the spread analysis draws them)
             )
         )
         return (content, json.dumps(req.to_mapping(), sort_keys=True, default=str), rows)

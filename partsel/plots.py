@@ -23,6 +23,8 @@ from partsel.present import CONDUCTION_TEXT, quantity
 if TYPE_CHECKING:
     from matplotlib.figure import Figure
 
+    from partsel.solver.spread import YieldAnalysis
+
 #: Lowest level of the spectrum plot, dBc.
 FLOOR_DBC = -160.0
 
@@ -128,3 +130,59 @@ def figure(pred: Prediction, k: int) -> Figure:
     fig.text(0.01, 0.005, CAUTION, fontsize=6, wrap=True)
     fig.tight_layout(rect=(0, 0.03, 1, 1))
     return fig
+
+
+def spread_figure(
+    y: YieldAnalysis, path: str | Path, *, design_name: str = "", limit: int = 6
+) -> Path:
+    """Write histograms of the THD figure and of the handover level over the boards of a
+    Monte Carlo yield (one row per part, at most ``limit`` parts) to ``path`` (.png or .svg):
+    the same figures as the terminal UI's Spread tab."""
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    path = Path(path)
+    if path.suffix.lower() not in (".png", ".svg"):
+        raise ValueError(f"{path}: use a .png or .svg file name")
+    parts = y.parts[:limit] or []
+    rows = max(len(parts), 1)
+    fig, axes = plt.subplots(rows, 2, figsize=(10, 2.6 * rows + 0.8), squeeze=False)
+    if not parts:
+        for ax in axes[0]:
+            ax.text(0.5, 0.5, "no part analysed", ha="center", va="center")
+            ax.set_axis_off()
+    for k, p in enumerate(parts):
+        ax_t, ax_h = axes[k]
+        thd = p.thd[np.isfinite(p.thd) & (p.thd > 0)]
+        if thd.size:
+            ax_t.hist(100.0 * thd, bins=60, color="tab:blue")
+        else:
+            ax_t.text(0.5, 0.5, "no THD figure", ha="center", va="center", transform=ax_t.transAxes)
+        kind = "bound" if p.thd_bound else "estimate"
+        ax_t.set_xlabel(f"THD {kind}, %")
+        ax_t.set_ylabel("boards")
+        ax_t.set_title(f"{p.part_number}: yield {100 * p.value:.3g} % of {p.samples:,}", fontsize=9)
+        lv = p.handover_level
+        if lv.size:
+            ax_h.hist(lv, bins=60, color="tab:orange")
+            ax_h.set_title(f"handover on {100 * p.handover:.3g} % of boards", fontsize=9)
+        else:
+            ax_h.text(
+                0.5, 0.5, "no board hands over", ha="center", va="center",
+                transform=ax_h.transAxes,
+            )  # fmt: skip
+            ax_h.set_xticks([])
+            ax_h.set_yticks([])
+        ax_h.set_xlabel("handover level, V")
+    fig.suptitle(
+        f"Spread over {y.samples:,} boards (seed {y.seed})"
+        + (f" — {design_name}" if design_name else ""),
+        fontsize=10,
+    )
+    fig.text(0.01, 0.005, CAUTION, fontsize=6, color="0.4")
+    fig.tight_layout(rect=(0, 0.02, 1, 0.97))
+    fig.savefig(path)
+    plt.close(fig)
+    return path

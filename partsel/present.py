@@ -194,6 +194,7 @@ CHECK_LABEL: dict[str, str] = {
     "offset": "offset voltage",
     "noise": "noise density",
     "bias_current": "input bias current",
+    "yield": "yield (Monte Carlo)",
     "lifecycle": "lifecycle",
     "package": "package",
     "channels": "channels",

@@ -382,6 +382,12 @@ def _parse_string(text: str, dimension: str) -> float:
         if letter in bare and (unit == "" or unit in names):
             number = f"{sign}{whole or '0'}.{frac}"
             return _with_exponent(number, bare[letter], text, dimension)
+    if _tolerance_form(s) is not None:
+        raise _Refused(
+            f"{excerpt(text)} has a tolerance or a range; only the circuit quantities of a "
+            "design take one (a catalogue spec gives min / typ / max instead); write the "
+            f"value alone, e.g. {_examples(dimension)}"
+        )
     if m:
         raise _Refused(_why_not(m.group(2), dimension, s, text))
     if _ARITHMETIC_RE.search(s) or "**" in s:
@@ -451,6 +457,250 @@ def parse_quantity(
         record=record,
         pointer=field,
     )
+
+
+# ---- tolerances and ranges (design quantities) -------------------------------------------------
+
+#: How a design quantity's spread is given: a plain value, a tolerance around a nominal value
+#: (symmetric or not, relative or absolute), or a range of two values.
+ToleranceForm = Literal["exact", "tolerance", "range"]
+
+#: Largest relative tolerance on either side (a tolerance of 100 % or more would take a value
+#: through zero: a range is the way to state such a spread).
+MAX_RELATIVE_TOLERANCE = 1.0
+
+_PLUS_MINUS = ("\u00b1", "+/-", "+-")  # the sign, then the two ASCII spellings
+_SIGMA_RE = re.compile(r"\(?\s*(?P<k>[0-9]+(?:\.[0-9]*)?)?\s*(?:\u03c3|sigma)\s*\)?$")
+_UNSIGNED = r"(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]{1,4})?"
+_ASYM_RE = re.compile(
+    rf"(?P<nom>.*?\S)\s*(?P<s1>[+-])\s*(?P<x1>{_UNSIGNED})\s*/\s*(?P<s2>[+-])\s*"
+    rf"(?P<x2>{_UNSIGNED})\s*(?P<unit>\S*)"
+)
+_RELATIVE_UNITS = ("%", "percent", "ppm")
+
+
+@dataclass(frozen=True)
+class Toleranced:
+    """A design quantity with its tolerance or range, SI (see :func:`parse_toleranced`).
+
+    ``nominal`` is the value the circuit is designed for (the middle of a range), ``low`` and
+    ``high`` the ends of its spread (equal for an exact value). ``sigmas``: the ends lie at
+    that many standard deviations of a normal distribution (``"±1 % 1σ"``; a split normal
+    when the two sides differ); None: the value is spread uniformly between them (the
+    assumption for a tolerance stated without σ). ``relative``: the (below, above) fractions
+    when the tolerance was given in percent. ``text``: the string as written (None for a
+    number).
+    """
+
+    nominal: float
+    low: float
+    high: float
+    form: ToleranceForm = "exact"
+    sigmas: float | None = None
+    relative: tuple[float, float] | None = None
+    text: str | None = None
+
+    @property
+    def spread(self) -> bool:
+        """True when the value may differ from its nominal (a range of non-zero width)."""
+        return self.high > self.low
+
+    @classmethod
+    def exact(cls, value: float) -> Toleranced:
+        """A value without tolerance."""
+        return cls(value, value, value)
+
+    def scaled(self, nominal: float) -> Toleranced:
+        """The same tolerance around another nominal value (a relative tolerance keeps its
+        fractions, an absolute one its widths; a range moves with the nominal)."""
+        if self.relative is not None:
+            below, above = self.relative
+            lo = _offset(nominal, -abs(nominal), below)
+            hi = _offset(nominal, abs(nominal), above)
+            return Toleranced(nominal, lo, hi, self.form, self.sigmas, self.relative, None)
+        lo = _offset(nominal, -1.0, self.nominal - self.low)
+        hi = _offset(nominal, 1.0, self.high - self.nominal)
+        return Toleranced(nominal, lo, hi, self.form, self.sigmas, None, None)
+
+
+def _tolerance_form(s: str) -> str | None:
+    """Which tolerance form the (spelling-normalised) text ``s`` has, if any (a trailing
+    ``kσ`` is left out of the look)."""
+    sm = _SIGMA_RE.search(s)
+    if sm is not None:
+        s = s[: sm.start()].rstrip()
+    if any(pm in s for pm in _PLUS_MINUS):
+        return "tolerance"
+    if ".." in s:
+        return "range"
+    if _ASYM_RE.fullmatch(s.strip()):
+        return "asymmetric"
+    return None
+
+
+def has_tolerance(text: str) -> bool:
+    """True when ``text`` is written with a tolerance or as a range (``"±5 %"``,
+    ``"-20/+80 %"``, ``"1 .. 2"``), whether or not the rest of it reads."""
+    s = text.replace("\u2026", "..")
+    for old, new in _SPELLINGS:
+        s = s.replace(old, new)
+    return _tolerance_form(s) is not None
+
+
+def _tol_refusal(text: str, why: str) -> _Refused:
+    return _Refused(f"{excerpt(text)}: {why}")
+
+
+def _tolerance_width(amount: str, unit: str, dimension: str, text: str) -> tuple[float, bool]:
+    """One side of a tolerance: (width, relative?) from a number and its unit (``%`` and
+    ``ppm`` relative; a unit of ``dimension``, or none, absolute SI)."""
+    if unit in _RELATIVE_UNITS:
+        frac = _parse_string(f"{amount} {unit}", "dimensionless")
+        if not 0 <= frac < MAX_RELATIVE_TOLERANCE:
+            raise _tol_refusal(
+                text,
+                f"a tolerance of {100 * frac:g} % is not possible (a relative tolerance lies "
+                "from 0 up to below 100 %; give a range 'LOW .. HIGH' for a wider spread)",
+            )
+        return frac, True
+    try:
+        width = _parse_string(f"{amount} {unit}".strip(), dimension)
+    except _Refused:
+        raise _tol_refusal(
+            text,
+            f"the tolerance {excerpt(f'{amount} {unit}'.strip())} is neither a percentage "
+            f"nor {NOUN[dimension]}; write e.g. '±5 %', or a width in the value's unit",
+        ) from None
+    if width < 0:
+        raise _tol_refusal(text, "a tolerance is a width, >= 0")
+    return width, False
+
+
+@lru_cache(maxsize=1024)
+def _parse_toleranced(text: str, dimension: str) -> Toleranced:
+    if len(text) > 2 * MAX_QUANTITY_CHARS:
+        raise _Refused(
+            f"{excerpt(text)} is too long for a quantity with its tolerance ({len(text)} "
+            f"characters, at most {2 * MAX_QUANTITY_CHARS})"
+        )
+    s = text.strip().replace("\u2026", "..")
+    for old, new in _SPELLINGS:
+        s = s.replace(old, new)
+    for pm in _PLUS_MINUS[1:]:
+        s = s.replace(pm, _PLUS_MINUS[0])
+    form = _tolerance_form(s)
+    if form is None:
+        v = _parse_string(text, dimension)
+        return Toleranced(v, v, v, "exact", None, None, text)
+    if dimension == "temperature":
+        raise _tol_refusal(
+            text,
+            "a temperature takes no tolerance here (the ambient range is given by "
+            "ambient_min and ambient_max)",
+        )
+    sigmas: float | None = None
+    sm = _SIGMA_RE.search(s)
+    if sm is not None:
+        k = float(sm.group("k")) if sm.group("k") else 1.0
+        if not 0 < k <= 10:
+            raise _tol_refusal(text, "the ends of a spread lie at 1 to 10 σ (e.g. '±3 % 3σ')")
+        sigmas = k
+        s = s[: sm.start()].rstrip()
+    form = _tolerance_form(s)  # again, without the σ
+    if form is None:
+        raise _tol_refusal(text, "σ belongs after a tolerance or a range ('±3 % 3σ')")
+    if form == "range":
+        lo_text, _, hi_text = s.partition("..")
+        lo_text, hi_text = lo_text.strip(), hi_text.strip()
+        if not lo_text or not hi_text or ".." in hi_text:
+            raise _tol_refusal(text, "a range is 'LOW .. HIGH', e.g. '1.8 kohm .. 2.2 kohm'")
+        bare = [bool(_NUMBER_RE.fullmatch(t)) for t in (lo_text, hi_text)]
+        if bare[0] != bare[1]:
+            raise _tol_refusal(
+                text, "write the unit at both ends of a range (e.g. '1.8 kohm .. 2.2 kohm')"
+            )
+        lo = _parse_string(lo_text, dimension)
+        hi = _parse_string(hi_text, dimension)
+        if lo > hi:
+            raise _tol_refusal(
+                text, f"the range's low end {lo_text} is above its high end {hi_text}"
+            )
+        return Toleranced(0.5 * (lo + hi), lo, hi, "range", sigmas, None, text)
+    if form == "tolerance":
+        nom_text, _, tol_text = s.partition(_PLUS_MINUS[0])
+        nom_text, tol_text = nom_text.strip(), tol_text.strip()
+        tm = re.fullmatch(rf"({_UNSIGNED})\s*(\S*)", tol_text)
+        if not nom_text or tm is None or _PLUS_MINUS[0] in tol_text:
+            raise _tol_refusal(text, "a tolerance is 'VALUE ±WIDTH', e.g. '2 kohm ±10 %'")
+        below, relative = _tolerance_width(tm.group(1), tm.group(2), dimension, text)
+        above = below
+    else:
+        am = _ASYM_RE.fullmatch(s)
+        assert am is not None
+        if am.group("s1") == am.group("s2"):
+            raise _tol_refusal(
+                text, "an uneven tolerance has one side below and one above, e.g. '-20/+80 %'"
+            )
+        nom_text = am.group("nom").strip()
+        unit = am.group("unit")
+        a, rel_a = _tolerance_width(am.group("x1"), unit, dimension, text)
+        b, _ = _tolerance_width(am.group("x2"), unit, dimension, text)
+        below, above = (a, b) if am.group("s1") == "-" else (b, a)
+        relative = rel_a
+    nominal = _parse_string(nom_text, dimension)
+    if relative:
+        if nominal == 0:
+            raise _tol_refusal(
+                text,
+                f"a tolerance in percent of 0 is 0; give it as {NOUN[dimension]} "
+                f"(e.g. '0 V ±10 mV')",
+            )
+        lo, hi = _offset(nominal, -abs(nominal), below), _offset(nominal, abs(nominal), above)
+        return Toleranced(nominal, lo, hi, "tolerance", sigmas, (below, above), text)
+    lo, hi = _offset(nominal, -1.0, below), _offset(nominal, 1.0, above)
+    return Toleranced(nominal, lo, hi, "tolerance", sigmas, None, text)
+
+
+def _offset(nominal: float, scale: float, width: float) -> float:
+    """``nominal + scale * width`` in decimal arithmetic, rounded once (so that "10 uF -20 %"
+    ends at 8 uF exactly, not 8.000000000000001 uF)."""
+    with localcontext() as ctx:
+        ctx.prec = 34
+        return float(Decimal(repr(nominal)) + Decimal(repr(scale)) * Decimal(repr(width)))
+
+
+def parse_toleranced(
+    value: object,
+    dimension: str,
+    *,
+    field: str = "",
+    file: str | None = None,
+    record: str | None = None,
+) -> Toleranced:
+    """Parse a design quantity that may carry a tolerance or a range.
+
+    Accepted, besides every form of :func:`parse_quantity` (an exact value):
+
+    - ``"2 kohm ±10 %"`` (also ``+-`` and ``+/-``): a symmetric tolerance, relative (``%``,
+      ``ppm``) or absolute in a unit of the dimension (``"1.65 V ±20 mV"``);
+    - ``"10 uF -20/+80 %"`` (either side first): an uneven tolerance;
+    - ``"1.8 kohm .. 2.2 kohm"``: a range (the nominal value is its middle), the unit written
+      at both ends;
+    - any of these followed by ``kσ`` (``sigma``, ``σ`` alone is 1σ): the ends lie at ``k``
+      standard deviations of a normal distribution (``"2 kohm ±3 % 3σ"``); without it the
+      value is spread uniformly between the ends.
+
+    A relative tolerance lies from 0 to below 100 % (a wider spread is a range), a range's
+    low end may not lie above its high end, a percentage of 0 is refused, and a temperature
+    takes none. Raises :class:`~partsel.errors.InputError` naming ``field``; the value's own
+    grammar is :func:`parse_quantity`'s (one parser: each number and unit goes through it).
+    """
+    if isinstance(value, str):
+        try:
+            return _parse_toleranced(value, dimension)
+        except _Refused as exc:
+            raise InputError(str(exc), file=file, record=record, pointer=field) from None
+    return Toleranced.exact(parse_quantity(value, dimension, field=field, file=file, record=record))
 
 
 def check_unit(

@@ -218,3 +218,24 @@ def need_ngspice() -> None:
         if _ngspice_required():
             pytest.fail(msg + ", but CI / PARTSEL_REQUIRE_NGSPICE=1 requires it")
         pytest.skip(msg)
+
+
+@pytest.fixture(scope="session")
+def sample_frame(tmp_path_factory: pytest.TempPathFactory) -> object:
+    """The bundled sample catalogue as the parts frame, read back from a temporary SQLite file
+    (once per run; tests that change parts take a fresh database instead)."""
+    from partsel.catalogue import load_paths, open_catalogue, parts_frame
+
+    eng = open_catalogue(f"sqlite:///{tmp_path_factory.mktemp('sample') / 'c.sqlite'}")
+    load_paths(eng, [SAMPLE_PARTS])
+    frame = parts_frame(eng)
+    eng.dispose()
+    return frame
+
+
+@pytest.fixture
+def sample_table(sample_frame: object) -> object:
+    """A fresh :class:`partsel.solver.PartTable` over :func:`sample_frame`."""
+    from partsel.solver import PartTable
+
+    return PartTable(sample_frame)  # type: ignore[arg-type]

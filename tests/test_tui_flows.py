@@ -527,3 +527,41 @@ def test_edit_part_refused_when_changed_meanwhile(tui_engine: Any, tmp_path: Pat
         assert stored.version == before.version + 1
 
     drive(app, scenario)
+
+
+def test_part_view_spread_tab(tui_engine: Any, tmp_path: Path) -> None:
+    """The Spread tab of the full part view (key y) draws the highlighted part's boards: the
+    yield and its Wilson interval, the worst corners and the THD histogram, the same figures as
+    the API's spread_yield and corners with the same boards (seed of the design, 2,000 boards:
+    partsel.tui.widgets.part_view.SPREAD_SAMPLES). HKE-262 is fitted with its fix resistor in
+    the line driver, so its boards carry the resistor within its E24 tolerance."""
+    from partsel.present import percent
+    from partsel.tui.widgets.part_view import SPREAD_SAMPLES
+
+    app = make_app(tui_engine, tmp_path)
+    pn = "HKE-262"
+
+    async def scenario(pilot: Any) -> None:
+        await _show_part(pilot, pn)
+        await pilot.press("f4")
+        await settle(pilot)
+        view = app.screen.view
+        assert view.part_number == pn
+        await pilot.press("y")
+        await settle(pilot, rounds=6)
+        text = str(view.query_one(".spread-text").render())
+        y = app.session.spread_yield(app.ranking.design, [pn], samples=SPREAD_SAMPLES)
+        c = app.session.corners(app.ranking.design, pn)
+        p = y.parts[0]
+        assert f"yield {percent(p.value, 4)}" in text
+        assert f"({percent(p.interval.low, 4)} .. {percent(p.interval.high, 4)})" in text
+        assert f"Worst corners of {pn}" in text
+        assert "fix resistor" in text  # a corner parameter: the fix within its tolerance
+        worst_thd = next(k for k in c.corners if k.check == "thd")
+        # the worst corner's THD is at least the 95th percentile of the random boards (the
+        # normal draws may pass the corner box by their tails, so not always the largest)
+        assert worst_thd.value >= p.thd_percentiles[95.0]
+        hist = view.query_one(".plot-thd-hist")
+        assert f"over {SPREAD_SAMPLES:,} boards" in hist.title_text
+
+    drive(app, scenario)

@@ -14,7 +14,14 @@ from typing import Annotated
 
 import typer
 
-from partsel.cli import catalogue_cmds, characterise_cmds, predict_cmds, rank_cmds, vet_cmds
+from partsel.cli import (
+    catalogue_cmds,
+    characterise_cmds,
+    predict_cmds,
+    rank_cmds,
+    spread_cmds,
+    vet_cmds,
+)
 from partsel.cli.common import RUNNING, AppState, ExitCode
 
 app = typer.Typer(
@@ -25,7 +32,14 @@ app = typer.Typer(
 )
 
 #: Command modules; each has ``register(app: typer.Typer) -> None``.
-COMMAND_MODULES = (catalogue_cmds, predict_cmds, rank_cmds, vet_cmds, characterise_cmds)
+COMMAND_MODULES = (
+    catalogue_cmds,
+    predict_cmds,
+    rank_cmds,
+    vet_cmds,
+    spread_cmds,
+    characterise_cmds,
+)
 
 
 @app.callback(invoke_without_command=True)

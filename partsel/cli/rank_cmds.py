@@ -199,6 +199,9 @@ def hint_lines(r: Ranking, limit: int = 6) -> list[str]:
         if last is not first:
             line += f"; to {_hint_value(h.requirement, h.unit, last.value)}: +{last.admits}"
         out.append(line)
+    if out and r.requirements.limit("min_yield") is not None:
+        # the parts a hint admits are then judged on their boards, which it cannot foresee
+        out.append("(counted before the yield: a part admitted must still reach min_yield)")
     return out
 
 

@@ -4,7 +4,10 @@ A design file is TOML, YAML or JSON (chosen by the extension ``.toml``, ``.yaml`
 ``.json``) holding the sections ``supply``, ``signal``, ``amplifier``, ``load``, ``environment``
 and ``requirements``; its JSON Schema is built by :func:`design_schema` and committed as
 ``data-schema/design.schema.json``. Values are SI numbers or quantity strings (``"3.3 V"``,
-``"10 kohm"``, ``"-40 degC"``), converted with :func:`partsel.units.parse_quantity`.
+``"10 kohm"``, ``"-40 degC"``), converted with :func:`partsel.units.parse_quantity`. A circuit
+quantity may carry a tolerance or be a range (``"2 kohm ±10 %"``, ``"10 uF -20/+80 %"``,
+``"1.8 kohm .. 2.2 kohm"``, :func:`partsel.units.parse_toleranced`): the design holds its
+nominal value, and the tolerance in ``Design.tolerances`` (the spread analysis reads it).
 
 Reading (:mod:`.read`) runs three stages, each collecting every problem it finds before raising
 one :class:`~partsel.errors.InputError` (file, record = design name or file stem, JSON pointer):
@@ -36,6 +39,7 @@ from partsel.design.write import (
     design_to_mapping,
     format_percent,
     format_quantity,
+    format_toleranced,
     save_design,
 )
 
@@ -50,6 +54,7 @@ __all__ = [
     "design_to_mapping",
     "format_percent",
     "format_quantity",
+    "format_toleranced",
     "load_design",
     "parse_structured",
     "save_design",

@@ -25,7 +25,13 @@ from partsel.io.textfile import read_structured
 from partsel.physics.circuit import ClosedLoop, Design, Load, Signal, Supply
 from partsel.present import si as format_si
 from partsel.solver import requirements as req_mod
-from partsel.units import parse_quantity, plausibility
+from partsel.units import (
+    Toleranced,
+    has_tolerance,
+    parse_quantity,
+    parse_toleranced,
+    plausibility,
+)
 
 
 def _requirements_key_problems(
@@ -66,6 +72,17 @@ def _read_requirements(
         return None, []
     problems: list[Problem] = []
     out = copy.deepcopy(dict(raw))
+    if "fix_tolerance" in raw and raw["fix_tolerance"] is not None:
+        try:
+            out["fix_tolerance"] = parse_quantity(
+                raw["fix_tolerance"],
+                "dimensionless",
+                field=json_pointer("requirements", "fix_tolerance"),
+                file=file,
+                record=record,
+            )
+        except InputError as exc:
+            problems.extend(exc.problems)
     limits = raw.get("limits")
     if isinstance(limits, Mapping):
         parsed: dict[str, Any] = {}
@@ -169,6 +186,17 @@ def _schema_problems(data: Any, file: str | None, record: str | None) -> list[Pr
                     json_pointer(*path),
                 )
             )
+        elif kind == "enum" and isinstance(err.instance, str) and has_tolerance(err.instance):
+            allowed = ", ".join(repr(v) for v in err.validator_value)
+            problems.append(
+                Problem(
+                    f"{err.instance!r} carries a tolerance, but this field is a keyword "
+                    f"({allowed}): only quantities take a tolerance or a range",
+                    file,
+                    record,
+                    json_pointer(*path),
+                )
+            )
         elif kind == "const":
             problems.append(
                 Problem(
@@ -202,6 +230,7 @@ class _Reader:
         self.record = record
         self.problems: list[Problem] = []
         self.warnings: list[str] = []
+        self.tolerances: dict[tuple[str, str], Toleranced] = {}
 
     def has(self, section: str, key: str) -> bool:
         return key in self.data.get(section, {})
@@ -214,7 +243,7 @@ class _Reader:
         if raw is None:
             return None
         try:
-            value = parse_quantity(
+            tol = parse_toleranced(
                 raw,
                 q.dimension,
                 field=json_pointer(section, key),
@@ -224,12 +253,32 @@ class _Reader:
         except InputError as exc:
             self.problems.extend(exc.problems)
             return None
-        warn = plausibility(
-            value, q.dimension, field=json_pointer(section, key), file=self.file, record=self.record
-        )
-        if warn is not None:
-            self.warnings.append(str(warn))
+        value = tol.nominal
+        if tol.form != "exact":
+            self.tolerances[(section, key)] = tol
+        for v in (tol.low, tol.high) if tol.spread else (value,):
+            warn = plausibility(
+                v, q.dimension, field=json_pointer(section, key), file=self.file, record=self.record
+            )
+            if warn is not None:
+                self.warnings.append(str(warn))
+                break
         return value
+
+    def ends(self, section: str, key: str, value: float | None) -> tuple[float, ...]:
+        """The values a quantity field takes: its value, and the ends of its tolerance."""
+        if value is None:
+            return ()
+        tol = self.tolerances.get((section, key))
+        return (value,) if tol is None else (tol.low, value, tol.high)
+
+    def lowest(self, section: str, key: str, value: float) -> float:
+        """The lowest value a quantity field takes (its tolerance's low end)."""
+        return min(self.ends(section, key, value))
+
+    def highest(self, section: str, key: str, value: float) -> float:
+        """The highest value a quantity field takes (its tolerance's high end)."""
+        return max(self.ends(section, key, value))
 
     def problem(self, message: str, section: str, key: str) -> None:
         self.problems.append(Problem(message, self.file, self.record, json_pointer(section, key)))
@@ -298,48 +347,88 @@ def design_from_mapping(data: Mapping[str, Any], source: str | None = None) -> D
     assert load_ref is not None and c_load is not None and t_min is not None
     assert t_max is not None
 
-    # ---- physical sense -----------------------------------------------------------------
-    if not v_pos > v_neg:
+    # ---- physical sense (at both ends of a tolerance) ------------------------------------
+    def end_word(section: str, key: str, value: float, bad: float) -> str:
+        if bad == value or (section, key) not in r.tolerances:
+            return ""
+        return (
+            " at the low end of its tolerance"
+            if bad < value
+            else (" at the high end of its tolerance")
+        )
+
+    v_pos_lo = r.lowest("supply", "positive", v_pos)
+    v_neg_hi = r.highest("supply", "negative", v_neg)
+    if not v_pos_lo > v_neg_hi:
+        spread = " (with their tolerances)" if (v_pos_lo, v_neg_hi) != (v_pos, v_neg) else ""
         r.problem(
-            f"positive rail {_v(v_pos)} must be above the negative rail {_v(v_neg)}",
+            f"positive rail {_v(v_pos_lo)} must be above the negative rail {_v(v_neg_hi)}" + spread,
             "supply",
             "positive",
         )
-    if not freq > 0:
-        r.problem(f"frequency must be > 0, got {format_si(freq, 'Hz')}", "signal", "frequency")
-    if not amplitude >= 0:
+    f_lo = r.lowest("signal", "frequency", freq)
+    if not f_lo > 0:
         r.problem(
-            f"amplitude is a peak value and must be >= 0, got {_v(amplitude)}",
+            f"frequency must be > 0, got {format_si(f_lo, 'Hz')}"
+            + end_word("signal", "frequency", freq, f_lo),
+            "signal",
+            "frequency",
+        )
+    a_lo = r.lowest("signal", "amplitude", amplitude)
+    if not a_lo >= 0:
+        r.problem(
+            f"amplitude is a peak value and must be >= 0, got {_v(a_lo)}"
+            + end_word("signal", "amplitude", amplitude, a_lo),
             "signal",
             "amplitude",
         )
-    if not gain > 0:
-        r.problem(f"gain is a magnitude and must be > 0, got {gain:g} V/V", "amplifier", "gain")
-    elif configuration == "non-inverting" and gain < 1:
+    g_lo = r.lowest("amplifier", "gain", gain)
+    if not g_lo > 0:
         r.problem(
-            f"a non-inverting stage has gain 1 + R_f/R_g >= 1, got {gain:g} V/V; use the "
-            "inverting configuration or an input divider for attenuation",
+            f"gain is a magnitude and must be > 0, got {g_lo:g} V/V"
+            + end_word("amplifier", "gain", gain, g_lo),
             "amplifier",
             "gain",
         )
-    for key, value in (("feedback_resistor", r_f),):
-        if value is not None and not value > 0:
-            r.problem(f"resistance must be > 0, got {format_si(value, 'ohm')}", "amplifier", key)
-    for key, value in (
-        ("resistance", r_load),
-        ("to_negative_rail", r_neg),
-        ("to_positive_rail", r_pos),
+    elif configuration == "non-inverting" and g_lo < 1:
+        r.problem(
+            f"a non-inverting stage has gain 1 + R_f/R_g >= 1, got {g_lo:g} V/V"
+            + end_word("amplifier", "gain", gain, g_lo)
+            + "; use the inverting configuration or an input divider for attenuation",
+            "amplifier",
+            "gain",
+        )
+    for section, key, value in (
+        ("amplifier", "feedback_resistor", r_f),
+        ("load", "resistance", r_load),
+        ("load", "to_negative_rail", r_neg),
+        ("load", "to_positive_rail", r_pos),
     ):
-        if value is not None and not value > 0:
-            r.problem(f"resistance must be > 0, got {format_si(value, 'ohm')}", "load", key)
-    if not c_load >= 0:
-        r.problem(f"capacitance must be >= 0, got {format_si(c_load, 'F')}", "load", "capacitance")
+        if value is None:
+            continue
+        lo = r.lowest(section, key, value)
+        if not lo > 0:
+            r.problem(
+                f"resistance must be > 0, got {format_si(lo, 'ohm')}"
+                + end_word(section, key, value, lo),
+                section,
+                key,
+            )
+    c_lo = r.lowest("load", "capacitance", c_load)
+    if not c_lo >= 0:
+        r.problem(
+            f"capacitance must be >= 0, got {format_si(c_lo, 'F')}"
+            + end_word("load", "capacitance", c_load, c_lo),
+            "load",
+            "capacitance",
+        )
     if coupling == "ac":
         if c_couple is None:
             r.problem("coupling = 'ac' needs coupling_capacitor", "load", "coupling_capacitor")
-        elif not c_couple > 0:
+        elif not (cc_lo := r.lowest("load", "coupling_capacitor", c_couple)) > 0:
             r.problem(
-                f"coupling capacitor must be > 0, got {format_si(c_couple, 'F')}",
+                f"coupling capacitor must be > 0, got {format_si(cc_lo, 'F')}"
+                + end_word("load", "coupling_capacitor", c_couple, cc_lo),
                 "load",
                 "coupling_capacitor",
             )
@@ -394,6 +483,7 @@ def design_from_mapping(data: Mapping[str, Any], source: str | None = None) -> D
         requirements=requirements,
         source=source,
         warnings=tuple(r.warnings),
+        tolerances=dict(r.tolerances),
     )
 
     # ---- levels against the rails (only when the values they depend on are sane) -----------

@@ -32,6 +32,7 @@ class _Quantity:
     example: str
     unit: str | None = None  # unit label when not UNIT_LABEL[dimension]
     default: str | None = None
+    tolerance: bool = True  #: may carry a tolerance or be a range (partsel.units.Toleranced)
 
     @property
     def unit_label(self) -> str:
@@ -101,12 +102,14 @@ QUANTITY_FIELDS: dict[tuple[str, str], _Quantity] = {
         "Lowest ambient temperature (numbers are degC)",
         "-40 degC",
         default="25 degC",
+        tolerance=False,
     ),
     ("environment", "ambient_max"): _Quantity(
         "temperature",
         "Highest ambient temperature (numbers are degC)",
         "85 degC",
         default="25 degC",
+        tolerance=False,
     ),
 }
 
@@ -125,12 +128,23 @@ _REQUIRED: dict[str, list[str]] = {
 }
 
 
+#: What the schema says of a quantity that may carry a tolerance.
+TOLERANCE_TEXT = (
+    " It may carry a tolerance ('±5 %', '+-5 %', '-20/+80 %', or a width in its unit such as "
+    "'±20 mV') or be a range ('LOW .. HIGH', the unit at both ends); spread uniformly between "
+    "the ends, or as a normal distribution with the ends at k standard deviations when "
+    "followed by 'kσ' ('±3 % 3σ'). A relative tolerance lies below 100 %."
+)
+
+
 def _quantity_schema(q: _Quantity) -> dict[str, Any]:
     unit = q.unit_label
     text = (
         f"{q.description}. Unit: {unit}; a number in {unit} or a quantity string"
         f" such as '{q.example}'."
     )
+    if q.tolerance:
+        text += TOLERANCE_TEXT
     out: dict[str, Any] = {"description": text, "x-unit": unit, "type": ["number", "string"]}
     if q.default is not None:
         out["default"] = q.default
@@ -143,7 +157,7 @@ def _requirements_schema() -> dict[str, Any]:
     (:mod:`partsel.solver.requirements`)."""
     limits: dict[str, Any] = {}
     for d in req_mod.LIMITS:
-        q = _Quantity(d.dimension, d.description, d.example)
+        q = _Quantity(d.dimension, d.description, d.example, tolerance=False)
         node = _quantity_schema(q)
         if d.default is not None:
             node["default"] = d.default
@@ -198,6 +212,33 @@ def _requirements_schema() -> dict[str, Any]:
                 "x-unit": "",
                 "enum": list(req_mod.FIX_SERIES),
                 "default": "E24",
+            },
+            "fix_tolerance": {
+                "description": "Relative tolerance of the fix resistor (default: the usual "
+                "one of its series, E24 5 %, E96 1 %; IEC 60063 series, tolerances common "
+                "practice); the fix is rounded down for it and the spread analysis draws it. "
+                "Unit: 1; a number or a percentage such as '1 %', below 100 %.",
+                "x-unit": "1",
+                "type": ["number", "string"],
+                "examples": ["1 %"],
+            },
+            "yield_samples": {
+                "description": "Boards a Monte Carlo yield is estimated from (min_yield, the "
+                f"yield objective, partsel yield), {req_mod.YIELD_SAMPLES_RANGE[0]} to "
+                f"{req_mod.YIELD_SAMPLES_RANGE[1]:,}. Unit: 1 (a count).",
+                "x-unit": "1",
+                "type": "integer",
+                "minimum": req_mod.YIELD_SAMPLES_RANGE[0],
+                "maximum": req_mod.YIELD_SAMPLES_RANGE[1],
+                "default": req_mod.DEFAULT_YIELD_SAMPLES,
+            },
+            "yield_seed": {
+                "description": "Seed of the yield's random draws (the same seed, the same "
+                "boards and the same yield). Unit: 1 (a whole number).",
+                "x-unit": "1",
+                "type": "integer",
+                "minimum": 0,
+                "default": req_mod.DEFAULT_YIELD_SEED,
             },
             "limits": {
                 "description": "Hard limits: a part failing one is rejected.",

@@ -25,10 +25,10 @@ from partsel.design.schema import EXTENSIONS, FORMAT, QUANTITY_FIELDS
 from partsel.errors import InputError
 from partsel.physics.circuit import Design
 from partsel.solver import requirements as req_mod
-from partsel.units import UNIT_LABEL, parse_quantity
+from partsel.units import UNIT_LABEL, Toleranced, parse_quantity, parse_toleranced
 
 #: Dimensionless limits that engineers write as a percentage (THD, gain error).
-PERCENT_LIMITS = frozenset({"max_thd", "max_gain_error"})
+PERCENT_LIMITS = frozenset({"max_thd", "max_gain_error", "min_yield"})
 
 
 def format_quantity(value: float, dimension: str, unit: str | None = None) -> str | float:
@@ -59,9 +59,11 @@ def format_quantity(value: float, dimension: str, unit: str | None = None) -> st
 
 
 def format_percent(value: float) -> str | float:
-    """A ratio as the percentage string that reads back to exactly ``value`` ("0.1 %")."""
-    for d in range(1, 18):
-        text = f"{100.0 * value:.{d}g} %"
+    """A ratio as the percentage string that reads back to exactly ``value`` ("0.1 %",
+    "10 %": plain decimals before exponents)."""
+    candidates = [f"{100.0 * value:.{d}g} %" for d in range(1, 18)]
+    candidates.sort(key=lambda text: "e" in text)
+    for text in candidates:
         try:
             if parse_quantity(text, "dimensionless") == value:
                 return text
@@ -70,18 +72,67 @@ def format_percent(value: float) -> str | float:
     return float(value)
 
 
+def format_toleranced(tol: Toleranced, dimension: str) -> str | float:
+    """A quantity with its tolerance as design-file text: the text it was read from, else
+    ``"2 kohm ±10 %"``, ``"10 uF -20/+80 %"``, ``"1.65 V ±20 mV"`` or ``"1.8 kohm .. 2.2
+    kohm"``, with ``" 3σ"`` when the ends lie at 3 standard deviations (an exact value: its
+    quantity string)."""
+    if tol.text is not None:
+        return tol.text
+    if tol.form == "exact":
+        return format_quantity(tol.nominal, dimension)
+
+    def fq(v: float) -> str:
+        text = format_quantity(v, dimension)
+        return text if isinstance(text, str) else repr(text)
+
+    def pct(frac: float) -> str:
+        text = format_percent(frac)
+        return text if isinstance(text, str) else f"{100 * frac!r} %"
+
+    if tol.form == "range":
+        out = f"{fq(tol.low)} .. {fq(tol.high)}"
+    elif tol.relative is not None:
+        below, above = tol.relative
+        out = (
+            f"{fq(tol.nominal)} ±{pct(below)}"
+            if below == above
+            else f"{fq(tol.nominal)} -{pct(below)[:-2]}/+{pct(above)}"
+        )
+    else:
+        below, above = tol.nominal - tol.low, tol.high - tol.nominal
+        unit = UNIT_LABEL[dimension]
+        out = (
+            f"{fq(tol.nominal)} ±{fq(below)}"
+            if below == above
+            else f"{fq(tol.nominal)} -{below!r}/+{above!r} {unit}"
+        )
+    if tol.sigmas is not None:
+        out += f" {tol.sigmas:g}σ"
+    return out
+
+
 def design_to_mapping(design: Design) -> dict[str, Any]:
     """The design as a mapping in the file format (quantity strings), for saving.
 
     ``design_from_mapping(design_to_mapping(d), d.source) == d`` for every valid design.
+    Quantities with a tolerance or a range are written with it (as they were read, while the
+    value is the same).
     """
 
     def q(section: str, key: str, value: float) -> str | float:
         spec = QUANTITY_FIELDS[(section, key)]
+        tol = design.tolerances.get((section, key))
+        if tol is not None:
+            if tol.nominal != value:
+                tol = tol.scaled(value)
+            return format_toleranced(tol, spec.dimension)
         return format_quantity(value, spec.dimension)
 
     cl, ld = design.closed_loop, design.load
-    gain: float | int = int(cl.gain) if float(cl.gain).is_integer() else cl.gain
+    gain: float | int | str = int(cl.gain) if float(cl.gain).is_integer() else cl.gain
+    if ("amplifier", "gain") in design.tolerances:
+        gain = q("amplifier", "gain", cl.gain)
     amplifier: dict[str, Any] = {"configuration": cl.configuration, "gain": gain}
     if cl.reference_v is not None:
         amplifier["reference"] = q("amplifier", "reference", cl.reference_v)
@@ -129,6 +180,9 @@ def design_to_mapping(design: Design) -> dict[str, Any]:
 def _requirements_to_mapping(req: Mapping[str, Any]) -> dict[str, Any]:
     """The canonical requirements with limits as readable strings (a THD as "0.1 %")."""
     out = copy.deepcopy(dict(req))
+    tol = out.get("fix_tolerance")
+    if isinstance(tol, int | float) and not isinstance(tol, bool):
+        out["fix_tolerance"] = format_percent(float(tol))
     limits = out.get("limits")
     if isinstance(limits, dict):
         for key, value in limits.items():
@@ -160,6 +214,15 @@ def _same(old: Any, new: Any, path: tuple[str, ...]) -> bool:
     dim = _dimension(path)
     if dim is not None:
         try:
+            if len(path) == 2:  # a design quantity: the same value and the same tolerance
+                a, b = parse_toleranced(_plain(old), dim), parse_toleranced(_plain(new), dim)
+                return (a.nominal, a.low, a.high, a.sigmas, a.form) == (
+                    b.nominal,
+                    b.low,
+                    b.high,
+                    b.sigmas,
+                    b.form,
+                )
             return parse_quantity(_plain(old), dim) == parse_quantity(_plain(new), dim)
         except InputError:
             return False
@@ -283,5 +346,6 @@ __all__ = [
     "design_to_mapping",
     "format_percent",
     "format_quantity",
+    "format_toleranced",
     "save_design",
 ]

@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from partsel.physics.circuit import Design
+from partsel.physics.circuit import Design, col, pick
 from partsel.physics.distortion import (
     clipped_sine_harmonics,
     device_law_harmonics,
@@ -227,7 +227,7 @@ def _crossing(
     tau_load: np.ndarray,
     wt_beta: np.ndarray,
     slew: np.ndarray,
-    t_max: float,
+    t_max: float | np.ndarray,
 ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Dead-band crossing of a class-B stage whose output the load keeps moving.
 
@@ -240,7 +240,8 @@ def _crossing(
     (omega_t beta s))`` this reduces to), the drive moves at ``min(omega_t beta D, SR)`` (design
     notes section 4) and the crossing ends when it has moved ``dV``.
     Returns ``(tau, glitch, capped)``: crossing time (s), deviation at its end (V), and where
-    the crossing would last longer than ``t_max`` (s; it is then cut there).
+    the crossing would last longer than ``t_max`` (s, one value or one per part; it is then cut
+    there).
     """
     n = dead_band_v.shape[0]
     s = np.broadcast_to(slope, (n,)).astype(float)
@@ -253,8 +254,8 @@ def _crossing(
     if ok.any():
         i = np.flatnonzero(ok)
         dv, si, ci, tli, ki, sr = dead_band_v[i], s[i], c[i], tl[i], k[i], slew[i]
-        hi = np.full(i.size, t_max)
-        lo = np.full(i.size, t_max * 1e-9)
+        hi = np.broadcast_to(np.asarray(t_max, dtype=float), (n,))[i].copy()
+        lo = hi * 1e-9
         reach = ki * _displacement(hi, si, ci, tli)  # drive moved by t_max, no slew limit
         if np.all(tli == 0):
             # resistive load: D = s t + c t^2 / 2. Newton on the cubic from the stuck-output
@@ -283,8 +284,8 @@ def _crossing(
         with np.errstate(invalid="ignore"):
             t_slew = t1 + (dv - ki * _displacement(t1, si, ci, tli)) / sr
         t_all = np.where(fast, t_slew, t_lin)
-        cap = (reach < dv) | (t_all >= t_max)
-        tau[i] = np.where(cap, t_max, t_all)
+        cap = (reach < dv) | (t_all >= hi)
+        tau[i] = np.where(cap, hi, t_all)
         capped[i] = cap
     glitch = np.where(ok, _deviation(tau, s, c, tl), 0.0)
     return tau, glitch, capped
@@ -352,16 +353,17 @@ def _pulse_table(n_harmonics: int) -> np.ndarray:
 
 
 def _glitch_thd(
-    omega: float,
-    amp: float,
+    omega: float | np.ndarray,
+    amp: float | np.ndarray,
     edges: list[tuple[np.ndarray, np.ndarray, np.ndarray]],
     n_harmonics: int = DEFAULT_HARMONICS,
 ) -> np.ndarray:
     """:func:`_glitch_thd_exact` through a precomputed table (bilinear in ``log omega tau``
     and ``t_rec / tau``; the power sum is a smooth function of both): within 0.5 % of it, at
-    a small fraction of the cost for large catalogues."""
+    a small fraction of the cost for large catalogues. ``omega`` and ``amp``: one value, or
+    one per part of the edges."""
     n = edges[0][0].size if edges else 0
-    if amp <= 0 or n == 0:
+    if n == 0 or np.all(np.asarray(amp) <= 0):
         return np.zeros(n)
     table = _pulse_table(n_harmonics)
     lu_lo, lu_hi = np.log(_U_LO), np.log(_U_HI)
@@ -387,7 +389,10 @@ def _glitch_thd(
             log_s = log_s + 4.0 * np.minimum(np.log(np.maximum(u_raw, 1e-300)) - np.log(u), 0.0)
         p = (slope / (np.pi * omega)) ** 2 * np.exp(log_s)
         power += np.where(tau > 0, p, 0.0)
-    return np.sqrt(power) / amp
+    if np.ndim(amp) == 0:
+        return np.sqrt(power) / amp
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(np.asarray(amp) > 0, np.sqrt(power) / amp, 0.0)
 
 
 def source_demand(
@@ -401,16 +406,26 @@ def source_demand(
     carry over the ideal period, ``d(t) = D0 + B sin(omega t + psi)``: the output current plus,
     for class A / B, the pull-down current with its Early effect (``i_pd = c + g v_out``, see
     :func:`partsel.physics.stage.pulldown_law`). Per-part resistors to either rail (NaN: none)
-    are added to the design's load, as a fix would be. Biased stages: the output current."""
+    are added to the design's load, as a fix would be. Biased stages: the output current.
+    A batch design (one design per part, :attr:`Design.rows`) is evaluated row by row."""
     n = stage.n
     a = design.signal_gain * design.signal.amplitude_v
     w = design.omega
     v0 = design.out_bias_v
     sup = design.supply
-    rn = np.full(n, np.nan) if r_to_neg_ohm is None else np.asarray(r_to_neg_ohm, dtype=float)
-    rp = np.full(n, np.nan) if r_to_pos_ohm is None else np.asarray(r_to_pos_ohm, dtype=float)
     i_pd = np.where(stage.has_pulldown, np.nan_to_num(stage.stage_current_a), 0.0)
     pd_c, pd_s = pulldown_law(i_pd, sup.v_pos_v, sup.v_neg_v)
+    if design.rows is not None:  # per-row resistors need no grouping: each row its own network
+        ld = design.load
+        rn_b, rp_b = (
+            None if r is None else np.where(np.isnan(r), np.nan if own is None else own, r)
+            for r, own in ((r_to_neg_ohm, ld.r_to_neg_ohm), (r_to_pos_ohm, ld.r_to_pos_ohm))
+        )
+        y = admittance(design, w, r_to_neg_ohm=rn_b, r_to_pos_ohm=rp_b)
+        i0 = dc_current(design, r_to_neg_ohm=rn_b, r_to_pos_ohm=rp_b)
+        return i0 + pd_c + pd_s * v0, np.abs(y + pd_s) * np.abs(a)
+    rn = np.full(n, np.nan) if r_to_neg_ohm is None else np.asarray(r_to_neg_ohm, dtype=float)
+    rp = np.full(n, np.nan) if r_to_pos_ohm is None else np.asarray(r_to_pos_ohm, dtype=float)
     d0 = np.empty(n)
     b = np.empty(n)
     if r_to_neg_ohm is None and r_to_pos_ohm is None:
@@ -500,11 +515,14 @@ def one_mode_thd(
     amp = design.out_amplitude_v
     w = design.omega
     pulldown = stage.has_pulldown
-    if not pulldown.any() or amp <= 0:
+    if np.ndim(amp) == 0 and (not pulldown.any() or amp <= 0):
         return np.where(pulldown, 0.0, np.nan) if amp <= 0 else out
+    if not pulldown.any():
+        return out
     d0, b = source_demand(stage, design, r_to_neg_ohm=r_to_neg_ohm, r_to_pos_ohm=r_to_pos_ohm)
     k = 2.0 * np.pi * stage.gbw_hz * design.beta
     sel = np.flatnonzero(pulldown)
+    w, amp_s = pick(w, sel), pick(amp, sel)
     src = d0[sel]
     snk = -d0[sel]
     can_sink = stage.topology[sel] != CLASS_A
@@ -521,7 +539,9 @@ def one_mode_thd(
         for order in range(2, n_harmonics + 1):
             acc += rn2 / ((order * w) ** 2 + k2)
             rn2 = rn2 * r2
-        thd_sel = 2.0 * scale * w * np.sqrt(acc) / amp
+        thd_sel = 2.0 * scale * w * np.sqrt(acc) / amp_s
+        if np.ndim(amp_s) > 0:  # a batch: no signal, no distortion
+            thd_sel = np.where(amp_s > 0, thd_sel, 0.0)
     out[sel] = np.where(np.isfinite(m), thd_sel, np.nan)
     if input_stage:
         with np.errstate(over="ignore"):
@@ -557,11 +577,12 @@ def _input_stage_series(
 def _input_stage_thd(stage: StageParams, design: Design, n_harmonics: int) -> np.ndarray:
     """THD_F (ratio) of the input stage's slew-induced distortion alone (inf: slew-limited)."""
     amp = design.out_amplitude_v
-    if amp <= 0 or stage.n == 0:
+    if stage.n == 0 or np.all(np.asarray(amp) <= 0):
         return np.zeros(stage.n)
     es = _input_stage_series(stage, design, n_harmonics)
-    with np.errstate(invalid="ignore"):
-        return np.where(np.isfinite(es).all(axis=1), np.sqrt(np.sum(es * es, axis=1)) / amp, np.inf)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        out = np.where(np.isfinite(es).all(axis=1), np.sqrt(np.sum(es * es, axis=1)) / amp, np.inf)
+    return out if np.ndim(amp) == 0 else np.where(np.asarray(amp) > 0, out, 0.0)
 
 
 def thd_bound(
@@ -598,7 +619,7 @@ def thd_bound(
     out = np.full(n, np.nan)
     if n == 0:
         return out
-    if amp <= 0:
+    if np.all(np.asarray(amp) <= 0):
         return np.zeros(n)
     w = design.omega
     k = 2.0 * np.pi * stage.gbw_hz * design.beta
@@ -609,6 +630,7 @@ def thd_bound(
     if keep.size == 0:
         return out
     st = stage.take(keep)
+    ds = design.take(keep)
     h = n_harmonics - 1
     xs = np.zeros((keep.size, h))
     biased = st.biased
@@ -624,13 +646,16 @@ def thd_bound(
         mean = np.where(src_mode, d0[keep][fol], -d0[keep][fol])
         scale = np.where(src_mode, st.device_scale_v[fol], st.sink_scale_v[fol])
         xs[fol] = device_law_harmonics(scale, mean, b[keep][fol], n_harmonics)
-    xs = np.nan_to_num(xs) * loop_residue(w, k[keep], n_harmonics)
-    es = _input_stage_series(st, design, n_harmonics, bound=True)
+    xs = np.nan_to_num(xs) * loop_residue(pick(w, keep), k[keep], n_harmonics)
+    es = _input_stage_series(st, ds, n_harmonics, bound=True)
     slewed = ~np.isfinite(es).all(axis=1)
     tot = xs + np.nan_to_num(es, posinf=0.0)
-    with np.errstate(over="ignore", invalid="ignore"):
-        bound = BOUND_FACTOR * np.sqrt(np.sum(tot * tot, axis=1)) / amp
+    amp_k = pick(amp, keep)
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        bound = BOUND_FACTOR * np.sqrt(np.sum(tot * tot, axis=1)) / amp_k
     out[keep] = np.where(slewed, BOUND_CAP, np.minimum(bound, BOUND_CAP))
+    if np.ndim(amp_k) > 0:  # a batch: rows without a signal have no distortion
+        out[keep] = np.where(amp_k > 0, out[keep], 0.0)
     return out
 
 
@@ -639,12 +664,14 @@ def _device_law_thd(
 ) -> tuple[np.ndarray, np.ndarray]:
     """THD_F and glitch (peak residual, V) of parts ``idx`` from the device law in time: the
     compiled simulation of :mod:`partsel.physics.simulate` at MARGINAL_STEPS steps per period
+    (a batch design: each row in its own circuit)
     (marginal stages: no formula holds where a device nearly cuts off)."""
     from partsel.physics.simulate import simulate
 
     sim = simulate(
-        stage.take(idx), design, steps_per_period=MARGINAL_STEPS, n_warmup=1, max_warmup=2
-    )
+        stage.take(idx), design.take(idx), steps_per_period=MARGINAL_STEPS, n_warmup=1,
+        max_warmup=2,
+    )  # fmt: skip
     return sim.thd_f, sim.residual_peak_v
 
 
@@ -657,6 +684,18 @@ def _window(a: int, b: int, n: int, pad: int = 3, most: int = 24) -> np.ndarray:
     if idx.size > most:
         idx = idx[np.linspace(0, idx.size - 1, most).round().astype(int)]
     return idx
+
+
+def _windows(a: np.ndarray, b: np.ndarray, n: int, pad: int = 3, most: int = 24) -> np.ndarray:
+    """:func:`_window` of every row of a batch, shape (N, most): the same indices, repeated
+    where a window is shorter (a repeat changes no minimum over it)."""
+    d = (b - a) % n
+    flip = d > n // 2
+    start = np.where(flip, b, a) - pad
+    length = np.where(flip, n - d, d) + 2 * pad + 1
+    frac = np.linspace(0.0, 1.0, most)[None, :]
+    offs = np.round(frac * (np.minimum(length, n) - 1)[:, None]).astype(int)
+    return (start[:, None] + offs) % n
 
 
 def _class_a_clip(design: Design, i_bias: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -683,7 +722,7 @@ def _class_a_clip(design: Design, i_bias: np.ndarray) -> tuple[np.ndarray, np.nd
         b = np.arccos(np.clip(-u, -1.0, 1.0))
         return (np.sin(b) - b * np.cos(b)) / np.pi, b / np.pi  # mean, clipped fraction
 
-    if amp <= 0:
+    if np.all(np.asarray(amp) <= 0):
         nan = np.full(i_bias.shape, np.nan)
         return nan, np.zeros(i_bias.shape), np.zeros(i_bias.shape)
     if ac:
@@ -699,9 +738,13 @@ def _class_a_clip(design: Design, i_bias: np.ndarray) -> tuple[np.ndarray, np.nd
             if float(np.max(np.abs(step))) < 1e-9:
                 break
         flat = (rb.i_s + g_ac * level - i_bias) / (rb.g_s + g_ac)
-    else:
+    elif np.ndim(rb.g_s) == 0:
         flat = (rb.i_s - i_bias) / rb.g_s if rb.g_s > 0 else np.full(i_bias.shape, -np.inf)
-    u = np.clip((flat - v0) / amp, -1.0, 1.0)
+    else:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            flat = np.where(rb.g_s > 0, (rb.i_s - i_bias) / rb.g_s, -np.inf)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        u = np.clip((flat - v0) / amp, -1.0, 1.0)
     depth = np.maximum(flat - (v0 - amp), 0.0)
     b = np.arccos(-u)[:, None]
     n = np.arange(2, DEFAULT_HARMONICS + 1)[None, :]
@@ -718,9 +761,15 @@ def _class_a_clip(design: Design, i_bias: np.ndarray) -> tuple[np.ndarray, np.nd
 
 
 def ideal_grid(design: Design, n: int = GRID) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """One period of the ideal waveform: times (s), output (V) and output current (A)."""
-    t = np.arange(n) / (n * design.signal.frequency_hz)
-    return t, design.v_ideal(t), ideal_current(design, t)
+    """One period of the ideal waveform: times (s), output (V) and output current (A); shape
+    (n,), or (N, n) for a batch design (:attr:`Design.rows`; the times (n,) while every row has
+    the same frequency)."""
+    t = np.arange(n) / (n * col(design.signal.frequency_hz))
+    v, i = design.v_ideal(t), ideal_current(design, t)
+    if design.rows is not None:  # (the times stay one axis while the frequency is shared)
+        shape = (design.rows, n)
+        return t, np.broadcast_to(v, shape), np.broadcast_to(i, shape)
+    return t, v, i
 
 
 def _effective_dead_band(
@@ -769,11 +818,12 @@ def _clip_levels(
     v0, amp = design.out_bias_v, design.out_amplitude_v
     rb = resistive_branches(design)
     ld = design.load
-    g = rb.g_s + (1.0 / ld.r_load_ohm if (ld.r_load_ohm and ld.coupling == "ac") else 0.0)
-    i_s = rb.i_s + (v0 / ld.r_load_ohm if (ld.r_load_ohm and ld.coupling == "ac") else 0.0)
+    ac = ld.r_load_ohm is not None and ld.coupling == "ac"
+    g = rb.g_s + (1.0 / ld.r_load_ohm if ac else 0.0)
+    i_s = rb.i_s + (v0 / ld.r_load_ohm if ac else 0.0)
     i_hi = np.where(pulldown, stage.stage_current_high_a, 0.0)
-    top = np.full(stage.n, v0 + amp)
-    bot = np.full(stage.n, v0 - amp)
+    top = np.broadcast_to(np.asarray(v0 + amp, dtype=float), (stage.n,)).copy()
+    bot = np.broadcast_to(np.asarray(v0 - amp, dtype=float), (stage.n,)).copy()
     for _ in range(4):
         src = np.maximum(g * top - i_s + i_hi, 0.0)
         top = np.minimum(v0 + amp, sup.v_pos_v - stage.headroom_pos(src))
@@ -784,14 +834,40 @@ def _clip_levels(
     return depth_top, depth_bot
 
 
+def held_current(
+    stage: StageParams,
+    dem_lo: np.ndarray,
+    dem_hi: np.ndarray,
+    min_source_a: np.ndarray | None = None,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Least current of the device that must stay on all period, A, and whether that is the
+    sink device, from the source device's demand range ``dem_lo`` .. ``dem_hi`` (A): the source
+    device's least current ``min_source_a`` (default ``dem_lo``), or, for class B held in sink
+    mode (the demand stays below zero), the sink device's ``-dem_hi``; the side nearer to one
+    mode is the one held. The conduction check's value (:attr:`ClosedForm.held_current_a`)."""
+    lo = dem_lo if min_source_a is None else min_source_a
+    held_sink = (stage.topology == CLASS_B) & (-dem_hi > dem_lo)
+    return np.where(held_sink, -dem_hi, lo), held_sink
+
+
 @np.errstate(over="ignore", invalid="ignore")
-def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
+def predict_closed_form(
+    stage: StageParams, design: Design, *, device_law: np.ndarray | None = None
+) -> ClosedForm:
     """Closed-form predictions of every part of ``stage`` in ``design``.
+
+    ``design`` may be a batch (:attr:`partsel.physics.circuit.Design.rows`: one design per row
+    of ``stage``, e.g. one sample of the circuit's tolerances per row): every formula is then
+    evaluated row by row, with the same rules. ``device_law``: the rows (a boolean mask) whose
+    marginal stages get their THD and glitch from the device-law simulation (default: all);
+    elsewhere a marginal stage's THD and glitch are NaN, not evaluated (for callers that know
+    those rows are rejected on other grounds).
 
     Overflow becomes infinity and NaN a missing figure, not a warning: only values far outside
     their plausible range get there (a signal at 1e-300 Hz), and the checks read them as
     failing or unknown."""
     p = stage.n
+    batch = design.rows is not None
     sup = design.supply
     vpos, vneg = sup.v_pos_v, sup.v_neg_v
     w = design.omega
@@ -807,7 +883,10 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     y = admittance(design, w)
     i0 = dc_current(design)
     b = abs(y) * amp
-    phi = math.atan2(y.imag, y.real) + (math.pi if a < 0 else 0.0)
+    if batch:
+        phi = np.arctan2(np.imag(y), np.real(y)) + np.where(np.asarray(a) < 0, np.pi, 0.0)
+    else:
+        phi = math.atan2(y.imag, y.real) + (math.pi if a < 0 else 0.0)
     i_min, i_max = i0 - b, i0 + b
     d0, bd = source_demand(stage, design)
     dem_lo, dem_hi = d0 - bd, d0 + bd
@@ -816,17 +895,18 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     marginal = verdict == "marginal"
     with np.errstate(invalid="ignore"):
         min_src = np.where(pulldown, dem_lo, 0.5 * (i_min + np.sqrt(i_min**2 + 4.0 * i_stage**2)))
-    # class B may instead be held in sink mode (the demand stays below zero): the sink device
-    # then carries at least -dem_hi; the side nearer to one mode is the one held
-    held_sink = (stage.topology == CLASS_B) & (-dem_hi > dem_lo)
-    held = np.where(held_sink, -dem_hi, min_src)
+    held, held_sink = held_current(stage, dem_lo, dem_hi, min_src)
     crossover_biased = ~pulldown & (i_min < 0) & (i_max > 0)
     level, g_th = thevenin_level(design)
     with np.errstate(divide="ignore", invalid="ignore"):
-        flat = level - i_stage / g_th if g_th > 0 else np.full(p, np.nan)
         # Handover where B sin(theta) = -I_stage - I0 (class A/B) or = -I0 (biased).
         thr = np.where(pulldown, -i_stage - i0, -i0)
-        k = np.clip(thr / b, -1.0, 1.0) if b > 0 else np.full(p, np.nan)
+        if batch:
+            flat = np.where(g_th > 0, level - i_stage / g_th, np.nan)
+            k = np.where(b > 0, np.clip(thr / b, -1.0, 1.0), np.nan)
+        else:
+            flat = level - i_stage / g_th if g_th > 0 else np.full(p, np.nan)
+            k = np.clip(thr / b, -1.0, 1.0) if b > 0 else np.full(p, np.nan)
     theta_fall = np.pi - np.arcsin(k)
     theta_rise = 2.0 * np.pi + np.arcsin(k)
     s_fall = np.abs(a * w * np.cos(theta_fall - phi))
@@ -856,13 +936,18 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     quarter = 0.25 / design.signal.frequency_hz
     g_cap = amp * np.pi / 2.0
     c_load = design.load.c_load_f
-    if c_load <= 0:
-        tau_load = 0.0
-    elif g_th > 0:
-        tau_load = c_load / g_th
+    if batch:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            tau_load = np.where(c_load <= 0, 0.0, np.where(g_th > 0, c_load / g_th, np.inf))
+            r_eff = np.where(g_th > 0, 1.0 / g_th, np.inf)
     else:
-        tau_load = np.inf
-    r_eff = 1.0 / g_th if g_th > 0 else np.inf
+        if c_load <= 0:
+            tau_load = 0.0
+        elif g_th > 0:
+            tau_load = c_load / g_th
+        else:
+            tau_load = np.inf
+        r_eff = 1.0 / g_th if g_th > 0 else np.inf
     v_src = stage.device_scale_v
     v_snk = stage.sink_scale_v
     edges_raw = []
@@ -919,17 +1004,22 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
             with np.errstate(divide="ignore", invalid="ignore"):
                 slope_sel = np.where(tau_sel > 0, g_sel / tau_sel, 0.0)
             edges.append((slope_sel, tau_sel, t_rec))
-        thd_est[sel] = _glitch_thd(w, amp, edges)
+        thd_est[sel] = _glitch_thd(pick(w, sel), pick(amp, sel), edges)
     # Biased stages and class A/B in one mode: an upper bound (design notes section 10); the
     # ranking of biased stages uses the bound itself, one-mode followers their device-law
     # estimate (the Fourier series of the log law).
     bound = thd_bound(stage, design)
     one = pulldown & (verdict == "one-mode")
     if one.any():
-        thd_est[one] = np.nan_to_num(one_mode_thd(stage.take(np.flatnonzero(one)), design))
+        rows_one = np.flatnonzero(one)
+        thd_est[one] = np.nan_to_num(one_mode_thd(stage.take(rows_one), design.take(rows_one)))
     thd_est = np.where(stage.biased, bound, thd_est)
     # Marginal: the device law in time (a short compiled simulation of these parts only).
-    marg_idx = np.flatnonzero(marginal)
+    marg_idx = np.flatnonzero(marginal if device_law is None else marginal & device_law)
+    if device_law is not None:
+        skipped = marginal & ~device_law
+        thd_est[skipped] = np.nan
+        glitch[skipped] = np.nan
     if marg_idx.size:
         thd_m, glitch_m = _device_law_thd(stage, design, marg_idx)
         thd_est[marg_idx] = thd_m
@@ -937,7 +1027,7 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     # Class A: the output flattens at the flat level instead of crossing a dead band.
     clipped = np.flatnonzero(is_a & handover)
     if clipped.size:
-        level_a, depth_a, thd_a = _class_a_clip(design, i_stage[clipped])
+        level_a, depth_a, thd_a = _class_a_clip(design.take(clipped), i_stage[clipped])
         flat = np.array(flat, dtype=float, copy=True)
         flat[clipped] = level_a
         glitch[clipped] = depth_a
@@ -945,30 +1035,41 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
 
     # --- currents and swing over the ideal waveform ----------------------------------------
     t, v, i = ideal_grid(design)
-    head_pos = vpos - v
-    head_neg = v - vneg
+    head_pos = col(vpos) - v
+    head_neg = v - col(vneg)
     # The tightest instant lies between the output peak and the current peak: evaluate the
     # headroom curves only there (keeps the cost O(P) for large catalogues).
-    ip = _window(np.argmin(head_pos), np.argmax(i), t.size)
-    ineg = _window(np.argmin(head_neg), np.argmin(i), t.size)
+    n_grid = v.shape[-1]
+    if batch:
+        ip = _windows(np.argmin(head_pos, axis=1), np.argmax(i, axis=1), n_grid)
+        ineg = _windows(np.argmin(head_neg, axis=1), np.argmin(i, axis=1), n_grid)
+        i_p, h_p = np.take_along_axis(i, ip, axis=1), np.take_along_axis(head_pos, ip, axis=1)
+        i_n, h_n = np.take_along_axis(i, ineg, axis=1), np.take_along_axis(head_neg, ineg, axis=1)
+    else:
+        ip = _window(np.argmin(head_pos), np.argmax(i), n_grid)
+        ineg = _window(np.argmin(head_neg), np.argmin(i), n_grid)
+        i_p, h_p = i[ip][None, :], head_pos[ip][None, :]
+        i_n, h_n = i[ineg][None, :], head_neg[ineg][None, :]
     # The pull-down current adds to the source current: its pessimistic side here is the high one.
     i_hi = stage.stage_current_high_a
-    src_p = np.maximum(i[ip][None, :] + np.where(pulldown, i_hi, 0.0)[:, None], 0.0)
-    swing_pos = np.min(head_pos[ip][None, :] - stage.headroom_pos(src_p), axis=1)
-    snk_n = np.broadcast_to(np.maximum(-i[ineg], 0.0), (p, ineg.size))
-    swing_neg = np.min(head_neg[ineg][None, :] - stage.headroom_neg(snk_n), axis=1)
+    src_p = np.maximum(i_p + np.where(pulldown, i_hi, 0.0)[:, None], 0.0)
+    swing_pos = np.min(h_p - stage.headroom_pos(src_p), axis=1)
+    snk_n = np.broadcast_to(np.maximum(-i_n, 0.0), (p, i_n.shape[1]))
+    swing_neg = np.min(h_n - stage.headroom_neg(snk_n), axis=1)
     src_peak = np.maximum(i_max + np.where(pulldown, i_hi, 0.0), 0.0)
-    snk_peak = np.full(p, max(-i_min, 0.0))
+    snk_peak = np.broadcast_to(np.maximum(-np.asarray(i_min, dtype=float), 0.0), (p,)).copy()
 
     # --- clipping at the swing limits (the current flowing there) ------------------------------
     clip_top, clip_bot = _clip_levels(stage, design, pulldown)
     clip_depth = np.maximum(clip_top, clip_bot)
     thd_clip = np.zeros(p)
     clipping = clip_depth > 0
-    if clipping.any() and amp > 0:
-        a1, an = clipped_sine_harmonics(
-            1.0 - clip_top[clipping] / amp, 1.0 - clip_bot[clipping] / amp
-        )
+    if clipping.any() and np.any(np.asarray(amp) > 0):
+        amp_c = pick(amp, clipping)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            a1, an = clipped_sine_harmonics(
+                1.0 - clip_top[clipping] / amp_c, 1.0 - clip_bot[clipping] / amp_c
+            )
         with np.errstate(divide="ignore", invalid="ignore"):
             thd_clip[clipping] = np.sqrt(np.sum(an * an, axis=1)) / np.abs(a1)
         # the clipped part's THD adds to the crossover's (different instants: in power)
@@ -978,8 +1079,8 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
 
     # --- input common mode -------------------------------------------------------------------
     vplus = design.v_plus(t)
-    cm_low = float(vplus.min()) - (vneg + stage.cm_headroom_neg_v)
-    cm_high = (vpos - stage.cm_headroom_pos_v) - float(vplus.max())
+    cm_low = vplus.min(axis=-1) - (vneg + stage.cm_headroom_neg_v)
+    cm_high = (vpos - stage.cm_headroom_pos_v) - vplus.max(axis=-1)
 
     # --- dynamics ---------------------------------------------------------------------------
     slew_req = amp * w
@@ -1009,18 +1110,24 @@ def predict_closed_form(stage: StageParams, design: Design) -> ClosedForm:
     src_load = np.maximum(i, 0.0)
     snk_load = np.maximum(-i, 0.0)
     # from the positive rail: the quiescent current, what the source device delivers, and what
-    # a resistor from V+ to the output (a pull-up) draws straight from the rail
+    # a resistor from V+ to the output (a pull-up) draws straight from the rail (per row of a
+    # batch: NaN where a row has none)
     r_up = design.load.r_to_pos_ohm
-    i_up = float(np.mean((vpos - v) / r_up)) if r_up is not None and np.isfinite(r_up) else 0.0
-    i_supply = stage.supply_current_a * chans + used * (float(src_load.mean()) + i_up)
-    p_out_stage = used * float(np.mean(src_load * (vpos - v) + snk_load * (v - vneg)))
+    if r_up is None:
+        i_up = 0.0
+    else:
+        r_up_a = np.asarray(r_up, dtype=float)
+        i_up = np.where(np.isfinite(r_up_a), np.mean((col(vpos) - v) / col(r_up_a), axis=-1), 0.0)
+        i_up = float(i_up) if np.ndim(i_up) == 0 else i_up
+    i_supply = stage.supply_current_a * chans + used * (src_load.mean(axis=-1) + i_up)
+    p_out_stage = used * np.mean(src_load * (col(vpos) - v) + snk_load * (v - col(vneg)), axis=-1)
     p_diss = stage.supply_current_a * chans * total + p_out_stage
     t_j = design.t_ambient_max_c + p_diss * stage.theta_ja_k_per_w
 
     return ClosedForm(
         basis=stage.basis,
-        i_out_min_a=np.full(p, i_min),
-        i_out_max_a=np.full(p, i_max),
+        i_out_min_a=np.broadcast_to(np.asarray(i_min, dtype=float), (p,)).copy(),
+        i_out_max_a=np.broadcast_to(np.asarray(i_max, dtype=float), (p,)).copy(),
         min_source_a=min_src,
         held_current_a=held,
         held_sink=held_sink,

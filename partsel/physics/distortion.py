@@ -44,11 +44,12 @@ def log_cos_coefficients(c: np.ndarray, n_harmonics: int = DEFAULT_HARMONICS) ->
 
 
 def loop_residue(
-    omega: float, k_loop: np.ndarray, n_harmonics: int = DEFAULT_HARMONICS
+    omega: float | np.ndarray, k_loop: np.ndarray, n_harmonics: int = DEFAULT_HARMONICS
 ) -> np.ndarray:
     """Fraction ``n omega / sqrt((n omega)^2 + K^2)`` of an output-stage drop at harmonic ``n``
-    that a single-pole loop (integrator at ``K = omega_t beta``) leaves at the output."""
-    wn = _orders(n_harmonics) * omega
+    that a single-pole loop (integrator at ``K = omega_t beta``) leaves at the output
+    (``omega`` one value, or one per part)."""
+    wn = _orders(n_harmonics) * np.asarray(omega, dtype=float)[..., None]
     k = np.asarray(k_loop, dtype=float)[:, None]
     return wn / np.sqrt(wn * wn + k * k)
 
@@ -90,8 +91,8 @@ def input_stage_harmonics(
     a_v: np.ndarray,
     gamma: np.ndarray,
     sr0_v_per_s: np.ndarray,
-    rate_amp_v_per_s: float,
-    noise_gain: float,
+    rate_amp_v_per_s: float | np.ndarray,
+    noise_gain: float | np.ndarray,
     n_harmonics: int = DEFAULT_HARMONICS,
 ) -> np.ndarray:
     """Slew-induced distortion of the input stage: harmonic amplitudes (V) at the output.
@@ -111,7 +112,7 @@ def input_stage_harmonics(
     b1 = log_cos_coefficients((1.0 - g) * k, n_harmonics)
     b2 = log_cos_coefficients(-(1.0 + g) * k, n_harmonics)
     e = 0.5 * np.asarray(a_v)[:, None] * np.abs(b1 - b2)
-    return e * noise_gain
+    return e * np.asarray(noise_gain, dtype=float)[..., None]
 
 
 def clipped_sine_harmonics(

@@ -30,7 +30,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from partsel.physics import stepper_layout as _st
-from partsel.physics.circuit import Design
+from partsel.physics.circuit import Design, col
 from partsel.physics.loading import ideal_current, resistive_branches
 from partsel.physics.spectrum import DEFAULT_HARMONICS, harmonic_amplitudes, thd
 from partsel.physics.stage import (
@@ -55,8 +55,8 @@ PARALLEL_PARTS = 64
 class SimResult:
     """Waveforms of the recorded periods and their analysis. Shapes: (N,) or (P, N)."""
 
-    t_s: np.ndarray
-    v_ideal: np.ndarray
+    t_s: np.ndarray  #: (N,), or (P, N) for a batch design (one circuit per part)
+    v_ideal: np.ndarray  #: (N,), or (P, N) for a batch design
     v_out: np.ndarray
     v_drive: np.ndarray
     i_out: np.ndarray  #: current out of the output pin into the network, A
@@ -65,7 +65,8 @@ class SimResult:
     i_pulldown: np.ndarray  #: internal pull-down current, A (class AB / CMOS: 0)
     n_record: int
     steps_per_period: int
-    frequency_hz: float  #: signal frequency of the design simulated, Hz
+    frequency_hz: float | np.ndarray
+    """signal frequency of the design simulated, Hz (one per part for a batch design)"""
     harmonics_v: np.ndarray  #: (P, H+1) peak amplitudes of harmonics 0..H, V
     thd_f: np.ndarray  #: (P,) THD_F over harmonics 2..H (IEC definition, ratio)
     residual_peak_v: np.ndarray  #: (P,) peak of v_out minus its DC and fundamental, V
@@ -100,23 +101,26 @@ def default_steps(stage: StageParams, design: Design) -> int:
     a = design.out_amplitude_v
     w = design.omega
     n = 1024
-    if a > 0:
+    if np.any(np.asarray(a) > 0):
         s = w * a
         wt = 2 * np.pi * np.nan_to_num(stage.gbw_hz, nan=1e6)
         db = np.nan_to_num(stage.dead_band_v, nan=0.0)
         with np.errstate(divide="ignore", invalid="ignore"):
             tau = np.sqrt(2 * db * design.noise_gain / (wt * s))
-        tau = tau[(db > 0) & np.isfinite(tau)]
-        if tau.size:
-            period = 1.0 / design.signal.frequency_hz
-            want = 10.0 * period / float(tau.min())
+            periods = np.broadcast_to(1.0 / np.asarray(design.signal.frequency_hz), tau.shape)
+            ratio = (periods / tau)[(db > 0) & np.isfinite(tau) & (tau > 0)]
+        if ratio.size:
+            want = 10.0 * float(ratio.max())
             n = MAX_STEPS if not math.isfinite(want) else max(n, math.ceil(min(want, MAX_STEPS)))
     return int(min(n, MAX_STEPS))
 
 
 def abandoned_reason(sim: SimResult, k: int) -> str:
     """Why part ``k`` was given up (:attr:`SimResult.abandoned`), in words."""
-    dt = 1.0 / (sim.steps_per_period * sim.frequency_hz)
+    dt = 1.0 / (
+        sim.steps_per_period
+        * float(np.asarray(sim.frequency_hz).reshape(-1)[k if np.ndim(sim.frequency_hz) else 0])
+    )
     if sim.abandoned_why[k] == _st.GIVE_UP_NON_FINITE:
         what = "its state left the finite numbers"
     elif sim.abandoned_why[k] == _st.GIVE_UP_WORK:
@@ -199,8 +203,11 @@ def part_matrix(
     m[:, _st.P_V_CAP0] = coupling_start(design)
     # Start in the DC state of the device laws for the current the load draws at t = 0 (the
     # output on its ideal value): drive x0 and Darlington base node y0 (its DC point x0 / 2).
-    v0 = float(design.v_ideal(np.array([0.0]))[0])
-    i_out0 = float(ideal_current(design, np.array([0.0]))[0])
+    zero = np.array([0.0])
+    v0 = np.asarray(design.v_ideal(zero), dtype=float)[..., 0]
+    i_out0 = np.asarray(ideal_current(design, zero), dtype=float)[..., 0]
+    if v0.ndim == 0 and i_out0.ndim == 0:
+        v0, i_out0 = float(v0), float(i_out0)
     i_out0 = i_out0 + (v0 - vneg) / rn + (v0 - vpos) / rp
     demand = i_out0 + pd_const + pd_slope * v0
     with np.errstate(divide="ignore", invalid="ignore"):
@@ -225,15 +232,19 @@ def part_matrix(
     return m
 
 
-def coupling_start(design: Design) -> float:
+def coupling_start(design: Design) -> float | np.ndarray:
     """Start voltage of the coupling capacitor (output side minus load side): the linear
-    periodic steady state, V (0 without an AC-coupled load)."""
+    periodic steady state, V (0 without an AC-coupled load; one per row of a batch design)."""
     ld = design.load
     if not (ld.r_load_ohm is not None and ld.coupling == "ac"):
         return 0.0
+    a_sig = design.signal_gain * design.signal.amplitude_v
+    if design.rows is not None:
+        c_c = np.inf if ld.c_couple_f is None else np.asarray(ld.c_couple_f, dtype=float)
+        h = 1.0 / (1.0 + 1j * design.omega * ld.r_load_ohm * c_c)
+        return np.asarray(design.out_bias_v - ld.reference_v + np.imag(a_sig * h), dtype=float)
     r_l = float(ld.r_load_ohm)
     c_c = float(ld.c_couple_f or np.inf)
-    a_sig = design.signal_gain * design.signal.amplitude_v
     h = 1.0 / (1.0 + 1j * design.omega * r_l * c_c)
     return float(design.out_bias_v - ld.reference_v + float(np.imag(a_sig * h)))
 
@@ -280,6 +291,8 @@ def simulate(
     """
     del iterations
     p = stage.n
+    batch = design.rows is not None
+    g_n = p if batch else 1  # circuits: one per part for a batch design, else one for all
     sup = design.supply
     vpos, vneg = sup.v_pos_v, sup.v_neg_v
     f = design.signal.frequency_hz
@@ -288,6 +301,10 @@ def simulate(
     n_harm = min(n_harmonics, n // 2 - 1)
     dt = period / n
     max_warmup = max(max_warmup, n_warmup)
+
+    def per_circuit(value: float | np.ndarray) -> np.ndarray:  # writable: one compiled kernel
+        return np.broadcast_to(np.asarray(value, dtype=float), (g_n,)).copy()
+
     prm = part_matrix(
         stage,
         design,
@@ -296,25 +313,29 @@ def simulate(
     )
     ld = design.load
     ac = ld.r_load_ohm is not None and ld.coupling == "ac"
-    r_l = float(ld.r_load_ohm) if ac else np.inf
-    c_c = float(ld.c_couple_f or np.inf) if ac else np.inf
+    r_l = ld.r_load_ohm if ac else np.inf
+    c_c = (np.inf if ld.c_couple_f is None else ld.c_couple_f) if ac else np.inf
     # Input drive at the end of every step of a period (the drive is periodic and steps align).
-    t_all = (np.arange(n) + 1) * dt
-    c_in = np.ascontiguousarray(design.v_plus(t_all) - design.v_minus_drive(t_all), dtype=float)
-    cm_rate = np.ascontiguousarray(design.v_plus_slope(t_all), dtype=float)
-    v_start = float(design.v_ideal(np.array([0.0]))[0])
+    t_all = (np.arange(n) + 1) * col(dt)
+    c_in = design.v_plus(t_all) - design.v_minus_drive(t_all)
+    cm_rate = design.v_plus_slope(t_all)
+    c_in = np.broadcast_to(np.asarray(c_in, dtype=float), (g_n, n)).copy()
+    cm_rate = np.broadcast_to(np.asarray(cm_rate, dtype=float), (g_n, n)).copy()
+    v_start = np.asarray(design.v_ideal(np.array([0.0])), dtype=float)[..., 0]
     rec_n = n * n_record
     out = np.empty((p, 6, rec_n))
     flags = np.zeros((p, 4), dtype=np.int64)
     pos_h, pos_i, neg_h, neg_i = _curves(stage)
+    grp = np.arange(p, dtype=np.int64) if batch else np.zeros(p, dtype=np.int64)
     from partsel.physics import stepper  # numba: loaded when a simulation runs, not before
 
     runner = stepper.run_parallel if p >= PARALLEL_PARTS else stepper.run
     runner(
-        prm, pos_h, pos_i, neg_h, neg_i, c_in, cm_rate, v_start, V_T, design.beta, dt, vpos, vneg,
-        float(ld.c_load_f), ac, r_l, c_c, float(ld.reference_v), int(n_warmup),
-        int(max_warmup), float(settle_v), int(n_record), float(tol_v), int(max_iterations),
-        int(max_bad_share * n), out, flags,
+        prm, pos_h, pos_i, neg_h, neg_i, grp, c_in, cm_rate, per_circuit(v_start), V_T,
+        per_circuit(design.beta), per_circuit(dt), per_circuit(vpos), per_circuit(vneg),
+        per_circuit(ld.c_load_f), ac, per_circuit(r_l), per_circuit(c_c),
+        per_circuit(ld.reference_v), int(n_warmup), int(max_warmup), float(settle_v),
+        int(n_record), float(tol_v), int(max_iterations), int(max_bad_share * n), out, flags,
     )  # fmt: skip
     unconverged = flags[:, 0] > 0
     n_warm_rec = int(flags[:, 1].max()) if p else n_warmup
@@ -328,7 +349,7 @@ def simulate(
     }
     pulldown = stage.has_pulldown
 
-    t_rec = (np.arange(rec_n) + 1) * dt + n * n_warm_rec * dt
+    t_rec = (np.arange(rec_n) + 1) * col(dt) + n * n_warm_rec * col(dt)
     v_id = design.v_ideal(t_rec)
     v_out = rec["v"]
     amps = harmonic_amplitudes(v_out, n_record, n_harm)
@@ -340,7 +361,7 @@ def simulate(
     keep[:, n_record] = ph[:, n_record]
     lin = np.fft.irfft(keep, n=rec_n, axis=1)
     residual = np.max(np.abs(v_out - lin), axis=1)
-    deviation = np.max(np.abs(v_out - v_id[None, :]), axis=1)
+    deviation = np.max(np.abs(v_out - (v_id if v_id.ndim == 2 else v_id[None, :])), axis=1)
 
     i_src_rec = rec["isrc"]
     i_snk_rec = rec["isnk"]
@@ -364,7 +385,7 @@ def simulate(
         i_pulldown=rec["ipd"],
         n_record=n_record,
         steps_per_period=n,
-        frequency_hz=float(f),
+        frequency_hz=float(f) if np.ndim(f) == 0 else np.broadcast_to(f, (p,)).astype(float),
         harmonics_v=amps,
         thd_f=thd_f,
         residual_peak_v=residual,
@@ -406,13 +427,13 @@ def _handover_edges(
         away = np.where((topo == CLASS_B)[:, None], i_snk >= thr, ~src_on)
     # a mode change needs both states within the period; edges are the up-steps of each
     # state on the periodic record (wrapping round from the last sample to the first)
-    for col, state in ((0, away), (1, src_on)):
+    for column, state in ((0, away), (1, src_on)):
         prev = np.roll(state, 1, axis=1)
         up = state & ~prev
         has = up.any(axis=1) & (~state).any(axis=1) & stage.has_pulldown
         has &= away.any(axis=1) & src_on.any(axis=1)
         k = np.argmax(up, axis=1)
         rows = np.flatnonzero(has)
-        t_out[rows, col] = t_rec[k[rows]]
-        v_at[rows, col] = v_out[rows, k[rows]]
+        t_out[rows, column] = t_rec[rows, k[rows]] if t_rec.ndim == 2 else t_rec[k[rows]]
+        v_at[rows, column] = v_out[rows, k[rows]]
     return t_out, v_at

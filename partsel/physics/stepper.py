@@ -3,7 +3,8 @@
 :func:`run` integrates the macro-model of :mod:`partsel.physics.simulate` for every part. Parts
 are independent, so the loop over parts is the outer loop and the loop over time steps the inner
 one, each step a scalar Newton solve: far cheaper than one vectorised numpy expression per
-residual evaluation for all parts at once.
+residual evaluation for all parts at once. Each part runs in its own circuit of a table of
+circuits (one for every part of a design, or one per part for a batch of designs).
 
 Unknowns per step (backward Euler; SI units):
 
@@ -593,19 +594,20 @@ def run(
     pos_i: np.ndarray,
     neg_h: np.ndarray,
     neg_i: np.ndarray,
+    grp: np.ndarray,
     c_in: np.ndarray,
     cm_rate: np.ndarray,
-    v_start: float,
+    v_start: np.ndarray,
     vt: float,
-    beta: float,
-    dt: float,
-    vpos: float,
-    vneg: float,
-    c_l: float,
+    beta: np.ndarray,
+    dt: np.ndarray,
+    vpos: np.ndarray,
+    vneg: np.ndarray,
+    c_l: np.ndarray,
     ac: bool,
-    r_l: float,
-    c_c: float,
-    v_ref_l: float,
+    r_l: np.ndarray,
+    c_c: np.ndarray,
+    v_ref_l: np.ndarray,
     n_warmup: int,
     max_warmup: int,
     settle_v: float,
@@ -624,16 +626,18 @@ def run(
     0 it was not, or a GIVE_UP_* code). A part is given up when its state leaves the finite
     numbers, when more than ``max_bad`` steps of one period fail, or when one period takes
     more than ITERATION_BUDGET Newton iterations per step on average.
-    ``c_in`` holds ``v_plus - v_md`` and ``cm_rate`` the common-mode input's slope (V/s) at the
-    end of every step of one period (length N).
+    Part ``p`` runs in the circuit ``g = grp[p]``: ``c_in[g]`` holds ``v_plus - v_md`` and
+    ``cm_rate[g]`` the common-mode input's slope (V/s) at the end of every step of one period
+    (shape (G, N)); ``v_start``, ``beta``, ``dt``, the rails, ``c_l``, ``r_l``, ``c_c`` and
+    ``v_ref_l`` hold one value per circuit (shape (G,)).
     """
     inv_vt = 1.0 / vt
-    inv_beta = 1.0 / beta
     for p in range(prm.shape[0]):
+        g = grp[p]
         _run_part(
-            p, prm, pos_h, pos_i, neg_h, neg_i, c_in, cm_rate, v_start, inv_vt, inv_beta, dt, vpos,
-            vneg, c_l, ac, r_l, c_c, v_ref_l, n_warmup, max_warmup, settle_v, n_record, tol_v,
-            max_it, max_bad, out, flags,
+            p, prm, pos_h, pos_i, neg_h, neg_i, c_in[g], cm_rate[g], v_start[g], inv_vt,
+            1.0 / beta[g], dt[g], vpos[g], vneg[g], c_l[g], ac, r_l[g], c_c[g], v_ref_l[g],
+            n_warmup, max_warmup, settle_v, n_record, tol_v, max_it, max_bad, out, flags,
         )  # fmt: skip
 
 
@@ -644,19 +648,20 @@ def run_parallel(
     pos_i: np.ndarray,
     neg_h: np.ndarray,
     neg_i: np.ndarray,
+    grp: np.ndarray,
     c_in: np.ndarray,
     cm_rate: np.ndarray,
-    v_start: float,
+    v_start: np.ndarray,
     vt: float,
-    beta: float,
-    dt: float,
-    vpos: float,
-    vneg: float,
-    c_l: float,
+    beta: np.ndarray,
+    dt: np.ndarray,
+    vpos: np.ndarray,
+    vneg: np.ndarray,
+    c_l: np.ndarray,
     ac: bool,
-    r_l: float,
-    c_c: float,
-    v_ref_l: float,
+    r_l: np.ndarray,
+    c_c: np.ndarray,
+    v_ref_l: np.ndarray,
     n_warmup: int,
     max_warmup: int,
     settle_v: float,
@@ -675,16 +680,18 @@ def run_parallel(
     0 it was not, or a GIVE_UP_* code). A part is given up when its state leaves the finite
     numbers, when more than ``max_bad`` steps of one period fail, or when one period takes
     more than ITERATION_BUDGET Newton iterations per step on average.
-    ``c_in`` holds ``v_plus - v_md`` and ``cm_rate`` the common-mode input's slope (V/s) at the
-    end of every step of one period (length N).
+    Part ``p`` runs in the circuit ``g = grp[p]``: ``c_in[g]`` holds ``v_plus - v_md`` and
+    ``cm_rate[g]`` the common-mode input's slope (V/s) at the end of every step of one period
+    (shape (G, N)); ``v_start``, ``beta``, ``dt``, the rails, ``c_l``, ``r_l``, ``c_c`` and
+    ``v_ref_l`` hold one value per circuit (shape (G,)).
     """
     inv_vt = 1.0 / vt
-    inv_beta = 1.0 / beta
     for p in numba.prange(prm.shape[0]):
+        g = grp[p]
         _run_part(
-            p, prm, pos_h, pos_i, neg_h, neg_i, c_in, cm_rate, v_start, inv_vt, inv_beta, dt, vpos,
-            vneg, c_l, ac, r_l, c_c, v_ref_l, n_warmup, max_warmup, settle_v, n_record, tol_v,
-            max_it, max_bad, out, flags,
+            p, prm, pos_h, pos_i, neg_h, neg_i, c_in[g], cm_rate[g], v_start[g], inv_vt,
+            1.0 / beta[g], dt[g], vpos[g], vneg[g], c_l[g], ac, r_l[g], c_c[g], v_ref_l[g],
+            n_warmup, max_warmup, settle_v, n_record, tol_v, max_it, max_bad, out, flags,
         )  # fmt: skip
 
 
@@ -706,9 +713,10 @@ def warm_up() -> float:
     curve = np.array([[0.0, 1.0]])
     out = np.zeros((1, 6, 8))
     flags = np.zeros((1, 4), dtype=np.int64)
+    one = np.ones(1)
     run(
-        prm, curve, curve * 1e-3, curve, curve * 1e-3, np.zeros(8), np.zeros(8), 0.0, 0.026,
-        1.0, 1e-6,
-        5.0, 0.0, 0.0, False, 1.0, 1.0, 0.0, 1, 1, 1.0, 1, 1e-9, 20, 4, out, flags,
+        prm, curve, curve * 1e-3, curve, curve * 1e-3, np.zeros(1, dtype=np.int64),
+        np.zeros((1, 8)), np.zeros((1, 8)), 0.0 * one, 0.026, one, 1e-6 * one, 5.0 * one,
+        0.0 * one, 0.0 * one, False, one, one, 0.0 * one, 1, 1, 1.0, 1, 1e-9, 20, 4, out, flags,
     )  # fmt: skip
     return time.perf_counter() - t0

@@ -18,12 +18,13 @@ parts) and :func:`partsel.physics.fix.size_fix`; see :mod:`partsel.solver.solve`
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 import numpy as np
 
-from partsel.physics.analysis import ClosedForm, ideal_grid
+from partsel.physics.analysis import ClosedForm, held_current, ideal_grid
 from partsel.physics.circuit import Design
 from partsel.physics.stage import StageParams
 from partsel.solver.requirements import Requirements
@@ -148,6 +149,9 @@ CHECKS: tuple[CheckDef, ...] = (
              "direct", ("noise_density",)),
     CheckDef("bias_current", "A", "max", "Input bias current <= max_bias_current",
              "max_bias_current", "direct", ("bias_current",)),
+    CheckDef("yield", "1", "min", "Monte Carlo yield (fraction of boards meeting every other "
+             "check, partsel.solver.spread) >= min_yield; evaluated for the parts feasible on "
+             "the basis", "min_yield", "direct", display="%"),
     CheckDef("lifecycle", "", "is", "Lifecycle state is one of those accepted", "lifecycle",
              "choice", has_ratio=False),
     CheckDef("package", "", "is", "The part offers one of the accepted packages", "packages",
@@ -232,17 +236,21 @@ def _empty(p: int, fill: float | int, dtype: type = float) -> np.ndarray:
 
 @dataclass(frozen=True)
 class DesignLevels:
-    """Part-independent levels of the ideal waveform, V."""
+    """Part-independent levels of the ideal waveform, V (arrays of shape (N,) for a batch
+    design, one per row)."""
 
-    out_max_v: float
-    out_min_v: float
-    in_max_v: float
-    in_min_v: float
+    out_max_v: Any
+    out_min_v: Any
+    in_max_v: Any
+    in_min_v: Any
 
     @classmethod
     def of(cls, design: Design) -> DesignLevels:
         t, v, _ = ideal_grid(design)
         vp = design.v_plus(t)
+        if design.rows is not None:
+            ends = (v.max(axis=-1), v.min(axis=-1), vp.max(axis=-1), vp.min(axis=-1))
+            return cls(*(np.broadcast_to(x, (design.rows,)) for x in ends))
         return cls(float(v.max()), float(v.min()), float(vp.max()), float(vp.min()))
 
 
@@ -260,10 +268,16 @@ def evaluate(
     design: Design,
     req: Requirements,
     levels: DesignLevels,
+    *,
+    inputs: Mapping[str, np.ndarray] | None = None,
 ) -> CheckArrays:
     """Every check, as designed (no fix fitted), for the parts ``idx`` of ``table``.
 
-    ``stage`` and ``cf`` hold the same parts, in the same order, as ``idx``.
+    ``stage`` and ``cf`` hold the same parts, in the same order, as ``idx`` (a part may appear
+    in several rows: the spread analysis evaluates samples of a part as rows, with a batch
+    ``design`` of one circuit per row). ``inputs``: the input parameters of the rows that the
+    stage model does not hold (``offset_voltage``, ``noise_density``, ``bias_current``); by
+    default the table's on the requirements' basis.
     """
     p = idx.size
     basis = req.basis
@@ -306,18 +320,23 @@ def evaluate(
         (lim("max_cap_load_ratio") or 1.0) * stage.cap_load_limit_f,
     )
     put("junction_temp", cf.t_junction_c, stage.junction_max_c)
-    frac = lim("min_source_fraction")
-    frac = 0.0 if frac is None else frac
-    put("conduction", cf.held_current_a, frac * stage.stage_current_a)
+    put("conduction", cf.held_current_a, conduction_limit(stage, req))
     put("fix_resistor", np.nan, lim("min_fix_resistance") or 0.0)
     put("thd", cf.thd_estimate, np.nan if lim("max_thd") is None else lim("max_thd"))
     put("glitch", cf.glitch_v, np.nan if lim("max_glitch") is None else lim("max_glitch"))
     put("supply_current", cf.supply_current_a, _opt(lim("max_supply_current")))
     n_pack = packages_needed(table.channels[idx], design.channels_used)
     put("price", table.number("price")[idx] * n_pack, _opt(lim("max_price")))
-    put("offset", table.param("offset_voltage", basis)[0][idx], _opt(lim("max_offset")))
-    put("noise", table.param("noise_density", basis)[0][idx], _opt(lim("max_noise")))
-    put("bias_current", table.param("bias_current", basis)[0][idx], _opt(lim("max_bias_current")))
+
+    def given(key: str) -> np.ndarray:
+        if inputs is not None and key in inputs:
+            return np.asarray(inputs[key], dtype=float)
+        return table.param(key, basis)[0][idx]
+
+    put("offset", given("offset_voltage"), _opt(lim("max_offset")))
+    put("noise", given("noise_density"), _opt(lim("max_noise")))
+    put("bias_current", given("bias_current"), _opt(lim("max_bias_current")))
+    put("yield", np.nan, _opt(lim("min_yield")))  # a spread analysis, see partsel.solver.solve
 
     margin, ratio = margins_and_ratios(value, limit)
     # junction: ratio of allowed over predicted temperature rise
@@ -334,6 +353,7 @@ def evaluate(
     for j in np.flatnonzero(SENSE_MIN | SENSE_MAX):
         m = margin[:, j]
         status[:, j] = np.where(m >= 0, PASS, np.where(np.isnan(m), UNKNOWN, FAIL))
+    status[:, IDX["yield"]] = SKIPPED if lim("min_yield") is not None else IGNORED
     # optional limits not set: shown, not required
     for name, key in (
         ("gain_error", "max_gain_error"),
@@ -344,17 +364,18 @@ def evaluate(
         ("offset", "max_offset"),
         ("noise", "max_noise"),
         ("bias_current", "max_bias_current"),
+        ("yield", "min_yield"),
     ):
         if lim(key) is None:
             status[:, IDX[name]] = IGNORED
             margin[:, IDX[name]] = np.nan
             ratio[:, IDX[name]] = np.nan
     # not applicable; warnings
-    if design.load.c_load_f <= 0:
-        status[:, IDX["cap_load"]] = NA
-    elif lim("max_cap_load_ratio") is None:
-        j = IDX["cap_load"]
+    j = IDX["cap_load"]
+    no_cap = np.broadcast_to(np.asarray(design.load.c_load_f) <= 0, (p,))
+    if lim("max_cap_load_ratio") is None:
         status[:, j] = np.where(status[:, j] == PASS, PASS, WARN)
+    status[no_cap, j] = NA
     biased = ~stage.has_pulldown
     status[biased, IDX["conduction"]] = NA
     if req.conduction == "allowed":
@@ -383,6 +404,40 @@ def evaluate(
     return CheckArrays(value, limit, margin, ratio, status)
 
 
+def put_yield(chk: CheckArrays, rows: np.ndarray, fraction: np.ndarray, req: Requirements) -> None:
+    """The yield check of parts ``rows``: their Monte Carlo yields ``fraction`` against
+    ``min_yield`` (in place; shown, not required, without that limit)."""
+    j = IDX["yield"]
+    chk.value[rows, j] = fraction
+    m, r = _column_margin_ratio(chk.value[rows, j], chk.limit[rows, j], "min", True)
+    if req.limit("min_yield") is None:
+        chk.status[rows, j] = IGNORED
+        return
+    chk.margin[rows, j], chk.ratio[rows, j] = m, r
+    chk.status[rows, j] = np.where(m >= 0, PASS, np.where(np.isnan(m), UNKNOWN, FAIL))
+
+
+def conduction_limit(stage: StageParams, req: Requirements) -> np.ndarray:
+    """The least source-device current the conduction check asks of each part, A:
+    ``min_source_fraction`` of its stage current."""
+    frac = req.limit("min_source_fraction")
+    return (0.0 if frac is None else frac) * stage.stage_current_a
+
+
+def conduction_fails(
+    stage: StageParams, dem_lo: np.ndarray, dem_hi: np.ndarray, req: Requirements
+) -> np.ndarray:
+    """Where the conduction check rejects a class-A/B part whose source device's demand spans
+    ``dem_lo`` .. ``dem_hi`` (A; the held device's least current by
+    :func:`partsel.physics.analysis.held_current`, as the closed form's); never with
+    ``conduction = "allowed"``, nor for a biased stage."""
+    if req.conduction == "allowed":
+        return np.zeros(stage.n, dtype=bool)
+    held, _ = held_current(stage, dem_lo, dem_hi)
+    with np.errstate(invalid="ignore"):
+        return stage.has_pulldown & ~(held >= conduction_limit(stage, req))
+
+
 def _opt(x: float | None) -> float:
     return np.nan if x is None else x
 
@@ -409,7 +464,9 @@ def fix_variant(
     return out
 
 
-def with_fix_resistor(chk: CheckArrays, r_ohm: float, req: Requirements) -> CheckArrays:
+def with_fix_resistor(
+    chk: CheckArrays, r_ohm: float | np.ndarray, req: Requirements
+) -> CheckArrays:
     """``chk``, the checks of parts on the circuit with their fix resistor ``r_ohm`` fitted
     (:func:`evaluate` of that circuit), marked as such: the fix-resistor check holds the value
     against ``min_fix_resistance``, and a conduction check that passes reads ``fixed``."""

@@ -188,6 +188,21 @@ def check_message(r: Ranking, i: int, name: str) -> str:
             return "no fix resistor works: " + (str(fx.reason[i]) or "none found")
         verb = "at least" if st == C.PASS else "below"
         return f"fix resistor {_q(value, 'ohm')} is {verb} the smallest accepted {_q(limit, 'ohm')}"
+    if name == "yield":
+        y = r.yields
+        if y is None or not y.evaluated[i]:
+            return f"{label}: not evaluated (computed for the parts that pass every other check)"
+        from partsel.solver.spread.stats import wilson
+
+        ci = wilson(int(y.passed[i]), y.samples)
+        text = (
+            f"{label} {P.percent(value, 4)} of {y.samples:,} boards (95 % Wilson interval "
+            f"{P.percent(ci.low, 4)} .. {P.percent(ci.high, 4)}; seed {y.seed})"
+        )
+        if st == C.IGNORED:
+            return text + " (no limit set)"
+        cmp = "≥" if st == C.PASS else "<"
+        return text + f" {cmp} {P.percent(limit, 4)}"
     if name in ("lifecycle", "package", "channels"):
         t = r.table
         accepted = r.requirements.choice(c.requirement or "")

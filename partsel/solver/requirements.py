@@ -149,6 +149,11 @@ LIMITS: tuple[LimitDef, ...] = (
              "Largest input voltage noise density, > 0", "30 nV/rtHz", floor_inclusive=False),
     LimitDef("max_bias_current", "current", "max", "bias_current",
              "Largest input bias current, > 0", "100 nA", floor_inclusive=False),
+    LimitDef("min_yield", "dimensionless", "min", "yield",
+             "Least Monte Carlo yield: the fraction of boards (samples of the parts' min / typ "
+             "/ max and the design's tolerances, partsel.solver.spread) meeting every check, "
+             "0 < x <= 1; computed for the parts feasible on the basis", "99.9 %",
+             floor_inclusive=False),
 )  # fmt: skip
 
 LIMIT_BY_KEY: dict[str, LimitDef] = {d.key: d for d in LIMITS}
@@ -214,6 +219,10 @@ OBJECTIVES: tuple[ObjectiveDef, ...] = (
                  "Largest output swing margin (the smaller of the two rails)", 1e-3, 10.0),
     ObjectiveDef("min_margin", "max", "1",
                  "Largest smallest margin ratio over every numeric check", 1.0, 100.0),
+    ObjectiveDef("yield", "max", "1",
+                 "Highest Monte Carlo yield (fraction of boards meeting every check; scored "
+                 "on -log10(yield), so 99 % against 99.9 % counts like 99.9 % against 99.99 %: "
+                 "about the fallout)", 1e-3, 1.0),
 )  # fmt: skip
 
 OBJECTIVE_BY_NAME: dict[str, ObjectiveDef] = {d.name: d for d in OBJECTIVES}
@@ -226,7 +235,24 @@ DEFAULT_OBJECTIVES: tuple[tuple[str, float], ...] = (
 )
 
 #: Keys of the canonical mapping.
-TOP_KEYS: tuple[str, ...] = ("basis", "conduction", "fix_series", "limits", "objectives", "pareto")
+TOP_KEYS: tuple[str, ...] = (
+    "basis",
+    "conduction",
+    "fix_series",
+    "fix_tolerance",
+    "limits",
+    "objectives",
+    "pareto",
+    "yield_samples",
+    "yield_seed",
+)
+
+#: Boards a yield is estimated from unless the design says otherwise (``yield_samples``), and
+#: the seed of their draws (``yield_seed``): fixed, so that every door gives the same yield.
+DEFAULT_YIELD_SAMPLES = 10_000
+DEFAULT_YIELD_SEED = 13
+#: Bounds of ``yield_samples``.
+YIELD_SAMPLES_RANGE = (100, 1_000_000)
 
 
 @dataclass(frozen=True)
@@ -244,6 +270,11 @@ class Requirements:
     )
     objectives: tuple[tuple[str, float], ...] = DEFAULT_OBJECTIVES
     pareto: tuple[str, ...] = ()
+    fix_tolerance: float | None = None
+    """Relative tolerance of the fix resistor (None: the usual tolerance of its series,
+    partsel.physics.eseries.SERIES_TOLERANCE)."""
+    yield_samples: int = DEFAULT_YIELD_SAMPLES
+    yield_seed: int = DEFAULT_YIELD_SEED
     origin: Mapping[str, str] = field(default_factory=dict, compare=False)
     """Where the options came from: ``basis``, ``fix_series``, ``conduction`` and
     ``min_source_fraction`` -> ``"design file"``, ``"override"`` (a command-line option or the
@@ -300,6 +331,9 @@ class Requirements:
             "choices": dict(self.choices),
             "objectives": self.objectives,
             "pareto": self.pareto,
+            "fix_tolerance": self.fix_tolerance,
+            "yield_samples": self.yield_samples,
+            "yield_seed": self.yield_seed,
             "origin": dict(self.origin),
         }
         for key, value in changes.items():
@@ -322,7 +356,26 @@ class Requirements:
             "limits": limits,
             "objectives": dict(self.objectives),
             "pareto": list(self.pareto_objectives),
+            "fix_tolerance": self.fix_tolerance,
+            "yield_samples": self.yield_samples,
+            "yield_seed": self.yield_seed,
         }
+
+    @property
+    def needs_yield(self) -> bool:
+        """The ranking computes a yield: ``min_yield`` is set or ``yield`` has a weight."""
+        return self.limit("min_yield") is not None or any(
+            name == "yield" and w > 0 for name, w in self.objectives
+        )
+
+    @property
+    def fix_tolerance_used(self) -> float:
+        """The fix resistor's relative tolerance: as given, else its series' usual one."""
+        if self.fix_tolerance is not None:
+            return self.fix_tolerance
+        from partsel.physics.eseries import SERIES_TOLERANCE
+
+        return SERIES_TOLERANCE[self.fix_series.upper()]
 
     @classmethod
     def from_mapping(
@@ -378,9 +431,13 @@ class Requirements:
                 ok = v >= d.floor if d.floor_inclusive else v > d.floor
                 if key == "min_source_fraction" and not v < 1.0:
                     ok = False
+                if key == "min_yield" and not v <= 1.0:
+                    ok = False
                 if not ok:
                     rel = ">=" if d.floor_inclusive else ">"
-                    extra = " and < 1" if key == "min_source_fraction" else ""
+                    extra = {"min_source_fraction": " and < 1", "min_yield": " and <= 1"}.get(
+                        key, ""
+                    )
                     bad(f"must be {rel} {d.floor:g}{extra}, got {v:g}", "limits", key)
                     continue
                 limits[key] = v
@@ -436,6 +493,23 @@ class Requirements:
                 if len(set(map(str, raw_p))) != len(raw_p) or not 2 <= len(raw_p) <= 3:
                     bad("expected two or three different objective names", "pareto")
                 pareto = tuple(raw_p)
+        fix_tol = data.get("fix_tolerance")
+        if fix_tol is not None and (
+            isinstance(fix_tol, bool) or not isinstance(fix_tol, int | float)
+            or not 0.0 <= float(fix_tol) < 1.0
+        ):  # fmt: skip
+            bad(f"a relative tolerance from 0 up to below 100 %, got {fix_tol!r}", "fix_tolerance")
+            fix_tol = None
+        samples = data.get("yield_samples", DEFAULT_YIELD_SAMPLES)
+        lo_n, hi_n = YIELD_SAMPLES_RANGE
+        if isinstance(samples, bool) or not isinstance(samples, int) or not lo_n <= samples <= hi_n:
+            bad(f"a whole number of boards from {lo_n} to {hi_n:,}, got {samples!r}",
+                "yield_samples")  # fmt: skip
+            samples = DEFAULT_YIELD_SAMPLES
+        seed = data.get("yield_seed", DEFAULT_YIELD_SEED)
+        if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed < 2**63:
+            bad(f"a whole number >= 0, got {seed!r}", "yield_seed")
+            seed = DEFAULT_YIELD_SEED
         if problems:
             raise InputError(problems=problems)
         origin = {k: "design file" for k in ("basis", "conduction", "fix_series") if k in data}
@@ -449,6 +523,9 @@ class Requirements:
             choices=choices,
             objectives=tuple(objectives),
             pareto=pareto,
+            fix_tolerance=None if fix_tol is None else float(fix_tol),
+            yield_samples=int(samples),
+            yield_seed=int(seed),
             origin=origin,
         )
         if len(req.pareto_objectives) < 2 and not pareto:

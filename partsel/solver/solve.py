@@ -211,6 +211,29 @@ class FixInfo:
 
 
 @dataclass(frozen=True)
+class YieldSummary:
+    """Yields of a ranking: boards passed per part (-1 where not evaluated), of ``samples``
+    boards drawn with ``seed`` (:mod:`partsel.solver.spread`)."""
+
+    passed: np.ndarray
+    samples: int
+    seed: int
+
+    @property
+    def evaluated(self) -> np.ndarray:
+        """(P,) True where a yield was computed."""
+        return self.passed >= 0
+
+    @property
+    def fraction(self) -> np.ndarray:
+        """(P,) the yield ``passed / samples`` (NaN where not evaluated)."""
+        return np.where(self.evaluated, self.passed / self.samples, np.nan)
+
+    def take(self, index: np.ndarray) -> YieldSummary:
+        return YieldSummary(self.passed[np.asarray(index)], self.samples, self.seed)
+
+
+@dataclass(frozen=True)
 class Ranking:
     """Result of :func:`rank` (arrays along the part axis of ``table``)."""
 
@@ -235,6 +258,9 @@ class Ranking:
     fix: FixInfo
     hints: tuple[Hint, ...]
     timing_s: dict[str, float] = field(default_factory=dict)
+    yields: YieldSummary | None = None
+    """The Monte Carlo yields of the parts feasible on the basis, when the requirements ask for
+    one (``min_yield`` or the ``yield`` objective)."""
 
     @property
     def n(self) -> int:
@@ -261,16 +287,22 @@ def _evaluate(
     design: Design,
     req: Requirements,
     levels: C.DesignLevels,
+    *,
+    inputs: dict[str, np.ndarray] | None = None,
+    device_law: np.ndarray | None = None,
 ) -> tuple[C.CheckArrays, np.ndarray, Prediction, ClosedForm]:
     """Every check of parts ``rows`` of ``table`` (``stage``: those parts, in that order) in
     ``design``: the closed form on the requirement's basis and, on the worst-case basis, the
     stage current swept over its corners, each check keeping its worst corner and the crossover
     prediction the corner worst for it. Returns the checks, the corner of each check, the
     prediction and the closed form of the basis's own values. The one evaluation of a circuit:
-    the parts as designed and the parts with the fix fitted both go through it."""
+    the parts as designed, the parts with the fix fitted and the boards of the spread analysis
+    (:mod:`partsel.solver.spread`: ``design`` a batch, ``inputs`` the drawn input parameters,
+    ``device_law`` the rows whose marginal stages are simulated, see
+    :func:`partsel.physics.analysis.predict_closed_form`) all go through it."""
     worst = req.basis == "worst-case"
-    cf = predict_closed_form(stage, design)
-    chk = C.evaluate(table, rows, stage, cf, design, req, levels)
+    cf = predict_closed_form(stage, design, device_law=device_law)
+    chk = C.evaluate(table, rows, stage, cf, design, req, levels, inputs=inputs)
     corner = np.full((rows.size, C.N_CHECKS), 0 if worst else -1, dtype=np.int8)
     pred = Prediction.of(cf, stage.stage_current_a, 0 if worst else -1)
     if worst:
@@ -288,14 +320,23 @@ def _evaluate(
     return chk, corner, pred, cf
 
 
-def with_resistor(design: Design, rail: str, r_ohm: float) -> Design:
+def with_resistor(design: Design, rail: str, r_ohm: float | np.ndarray) -> Design:
     """``design`` with a resistor ``r_ohm`` from the output to ``rail`` ("negative" /
-    "positive") added in parallel with any the design has there: the circuit of a fix."""
+    "positive") added in parallel with any the design has there: the circuit of a fix.
+    ``r_ohm`` may hold one value per row (a batch design, :attr:`Design.rows`; NaN: no
+    resistor added on that row)."""
     ld = design.load
     key = "r_to_neg_ohm" if rail == "negative" else "r_to_pos_ohm"
     have = getattr(ld, key)
-    r = r_ohm if have is None or not np.isfinite(have) else 1.0 / (1.0 / have + 1.0 / r_ohm)
-    return replace(design, load=replace(ld, **{key: float(r)}))
+    if np.ndim(r_ohm) == 0 and np.ndim(have) == 0:
+        r = r_ohm if have is None or not np.isfinite(have) else 1.0 / (1.0 / have + 1.0 / r_ohm)
+        return replace(design, load=replace(ld, **{key: float(r)}))
+    new = np.asarray(r_ohm, dtype=float)
+    own = np.asarray(np.nan if have is None else have, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        both = 1.0 / (1.0 / own + 1.0 / new)
+    r = np.where(np.isfinite(new), np.where(np.isfinite(own), both, new), own)
+    return replace(design, load=replace(ld, **{key: r}))
 
 
 def _fixed_checks(
@@ -412,7 +453,7 @@ def rank(
     with np.errstate(invalid="ignore"):
         needed = stage.has_pulldown & (chk.margin[:, jc] < 0)
     fx_rows = np.flatnonzero(needed)
-    fix = _size_fixes(stage, design, fx_rows, n, req.fix_series, frac, needed)
+    fix = _size_fixes(stage, design, fx_rows, n, req.fix_series, frac, needed, req.fix_tolerance)
     fixed, fixed_corner, fixed_diss = _fixed_checks(
         table, fx_rows, stage, design, req, levels, fix, chk.take(fx_rows), corner[fx_rows]
     )
@@ -436,6 +477,22 @@ def rank(
         corner[apply_rows] = fixed_corner[pos]
         dissipation[apply_rows] = fixed_diss[pos]
     fix = _replace(fix, applied=use_fix & fix.works)
+    t_y = time.perf_counter()
+    yields = None
+    if req.needs_yield:
+        # the Monte Carlo yield of the parts feasible so far, on boards built as the verdict
+        # says (with the fix fitted where it is applied): a rule of its own, after the others
+        from partsel.solver.spread.evaluate import yields_of
+
+        rows_y = np.flatnonzero(feasible)
+        passed = np.full(n, -1, dtype=np.int64)
+        passed[rows_y] = yields_of(table, rows_y, design, req, fix)
+        yields = YieldSummary(passed, req.yield_samples, req.yield_seed)
+        C.put_yield(chk, rows_y, yields.fraction[rows_y], req)
+        low_yield = chk.failing[:, C.IDX["yield"]]
+        feasible = feasible & ~low_yield
+        other_fail = other_fail | low_yield  # (for the hints: no other mode admits them)
+    t_y = time.perf_counter() - t_y
     verdict = np.full(n, "rejected", dtype=object)
     verdict[feasible] = "feasible"
     verdict[feasible & fix.applied] = "feasible-with-fix"
@@ -463,6 +520,7 @@ def rank(
             )
             + sw,
             "min_margin": min_ratio,
+            "yield": v[:, C.IDX["yield"]],
         }
     score, utility = scores(metrics, req.objectives, feasible)
     pnames = req.pareto_objectives
@@ -506,6 +564,7 @@ def rank(
         fix=fix,
         hints=(),
         timing_s={},
+        yields=yields,
     )
     hint_list = (
         make_hints(
@@ -521,7 +580,7 @@ def rank(
     t5 = time.perf_counter()
     object.__setattr__(result, "hints", tuple(hint_list))
     result.timing_s.update(
-        closed_form=t1 - t0, fix=t3 - t1, verdict=t4 - t3, hints=t5 - t4,
+        closed_form=t1 - t0, fix=t3 - t1, verdict=t4 - t3, hints=t5 - t4, yields=t_y,
         total=t5 - t0,
     )  # fmt: skip
     return result
@@ -564,6 +623,7 @@ def _size_fixes(
     series: str,
     margin: float,
     needed: np.ndarray,
+    tolerance: float | None = None,
 ) -> FixInfo:
     """Run size_fix for ``rows`` in chunks; scatter into arrays over all ``n`` parts
     (``thd_with_fix`` is filled by :func:`rank` from the checks with the fix fitted)."""
@@ -580,7 +640,10 @@ def _size_fixes(
     tol = None
     for start in range(0, rows.size, FIX_CHUNK):
         part = rows[start : start + FIX_CHUNK]
-        fr = size_fix(stage.take(part), design, series=series, margin=margin, n_grid=FIX_GRID)
+        fr = size_fix(
+            stage.take(part), design, series=series, tolerance=tolerance, margin=margin,
+            n_grid=FIX_GRID,
+        )  # fmt: skip
         tol = fr.tolerance
         rec = fr.recommended
         sized[part] = True
@@ -611,7 +674,7 @@ def _size_fixes(
     if tol is None:
         from partsel.physics.eseries import SERIES_TOLERANCE
 
-        tol = SERIES_TOLERANCE[series.upper()]
+        tol = SERIES_TOLERANCE[series.upper()] if tolerance is None else tolerance
     return FixInfo(
         needed=needed,
         sized=sized,

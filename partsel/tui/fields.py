@@ -110,6 +110,7 @@ _LIMIT_LABELS: dict[str, str] = {
     "max_offset": "offset ≤",
     "max_noise": "noise density ≤",
     "max_bias_current": "bias current ≤",
+    "min_yield": "yield ≥",
     "lifecycle": "lifecycle in",
     "packages": "package in",
     "channels": "channels in",

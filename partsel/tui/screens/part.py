@@ -19,7 +19,7 @@ if TYPE_CHECKING:
 
 #: Footer groups of the part view's keys.
 STEP = Binding.Group("Next/Previous")
-TABS = Binding.Group("Waveform/Fix/Spectrum/Margins/Stage", compact=True)
+TABS = Binding.Group("Waveform/Fix/Spectrum/Margins/Stage/Spread", compact=True)
 
 
 class PartScreen(Screen[None]):
@@ -43,6 +43,13 @@ class PartScreen(Screen[None]):
             "tab('stage')",
             "Stage data",
             tooltip="The catalogue's output-stage data",
+            group=TABS,
+        ),
+        Binding(
+            "y",
+            "tab('spread')",
+            "Spread",
+            tooltip="Monte Carlo yield, worst corners and histograms",
             group=TABS,
         ),
     ]

@@ -2,7 +2,10 @@
 
 The summary, the margins and the catalogue data come from the ranking at once; the waveforms
 and the spectrum come from the time-domain simulation (:meth:`partsel.api.Session.predict`),
-which the app runs in a worker and hands over with :meth:`PartView.show_simulation`.
+which the app runs in a worker and hands over with :meth:`PartView.show_simulation`. The Spread
+tab runs the Monte Carlo yield and the corner search of the part when it is opened
+(:meth:`partsel.api.Session.spread_yield` and :meth:`~partsel.api.Session.corners`, in a
+worker of its own, kept per design and part).
 """
 
 from __future__ import annotations
@@ -12,8 +15,9 @@ from typing import Any
 import numpy as np
 import yaml
 from rich.text import Text
+from textual import work
 from textual.app import ComposeResult
-from textual.containers import Vertical, VerticalScroll
+from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.widgets import Static, TabbedContent, TabPane
 
 from partsel import present as P
@@ -27,13 +31,16 @@ from partsel.solver.messages import check_message, failing_messages
 from partsel.tui import fmt, theme
 from partsel.tui.rows import RankingView
 from partsel.tui.widgets.margins import MarginBars
-from partsel.tui.widgets.plots import SpectrumPlot, WavePlot
+from partsel.tui.widgets.plots import HistogramPlot, SpectrumPlot, WavePlot
 
 #: The caution in one line, for the part pane of the main screen.
 SHORT_CAUTION = (
     "Macro-model estimates, not a transistor-level model: confirm on the bench or in a full "
     "simulation."
 )
+#: Boards per part in the Spread tab (``partsel yield -n`` for more; the design's
+#: ``yield_samples`` when smaller).
+SPREAD_SAMPLES = 2000
 #: Sections of a catalogue record shown as the part's output-stage data.
 RECORD_SECTIONS = ("output", "dynamics", "supply", "input", "packages", "temperature", "price")
 
@@ -110,6 +117,10 @@ def record_text(record: dict[str, Any] | None) -> Text:
     return out
 
 
+#: Spread analyses of (ranking, part) shown lately, so that a part revisited is not drawn again.
+SPREAD_CACHE: dict[tuple[Any, ...], tuple[Ranking, Any, Any]] = {}
+
+
 class PartView(Vertical):
     """Summary, plots, margins and catalogue data of one part."""
 
@@ -126,6 +137,12 @@ class PartView(Vertical):
                 yield MarginBars(classes="margins")
             with TabPane("Output stage", classes="tab-stage"), VerticalScroll():
                 yield Static("", classes="stage-data")
+            with TabPane("Spread", classes="tab-spread"), Vertical():
+                with VerticalScroll(classes="spread-scroll"):
+                    yield Static("", classes="spread-text")
+                with Horizontal(classes="spread-plots"):
+                    yield HistogramPlot(classes="plot-thd-hist")
+                    yield HistogramPlot(classes="plot-level-hist")
         caution = CAUTION if self.full else SHORT_CAUTION
         yield Static(Text(caution, style="italic"), classes="caution")
 
@@ -134,6 +151,8 @@ class PartView(Vertical):
         super().__init__(id=id)
         self.full = full
         self.part_number: str | None = None
+        self._ranking: Ranking | None = None
+        self._spread_key: tuple[Any, ...] | None = None
 
     def show_empty(self, message: str) -> None:
         """No part to show."""
@@ -144,6 +163,7 @@ class PartView(Vertical):
         self.query_one(SpectrumPlot).show_message(message)
         self.query_one(MarginBars).update("")
         self.query_one(".stage-data", Static).update("")
+        self._spread_message(message)
 
     def show_part(self, r: Ranking, i: int, record: dict[str, Any] | None) -> None:
         """What the ranking knows of part ``i``: summary, margins, catalogue data."""
@@ -151,6 +171,80 @@ class PartView(Vertical):
         self.query_one(".part-head", Static).update(summary_text(r, i))
         self.query_one(MarginBars).show(part_checks(r, i))
         self.query_one(".stage-data", Static).update(record_text(record))
+        self._ranking = r
+        if self._spread_open():
+            self.request_spread()
+        else:
+            self._spread_message(f"{self.part_number}: open this tab to draw its boards")
+
+    # ---- the Spread tab ---------------------------------------------------------------------
+    def _spread_open(self) -> bool:
+        tabs = self.query_one(TabbedContent)
+        pane = tabs.query(".tab-spread").first()
+        return bool(pane.id) and tabs.active == pane.id
+
+    def on_tabbed_content_tab_activated(self, event: TabbedContent.TabActivated) -> None:
+        if event.pane.has_class("tab-spread"):
+            self.request_spread()
+
+    def _spread_message(self, message: str) -> None:
+        self.query_one(".spread-text", Static).update(Text(message, style="dim"))
+        for plot in self.query(HistogramPlot):
+            plot.show_message("")
+
+    def request_spread(self) -> None:
+        """Show the spread of the part shown (computed once per design and part)."""
+        r, pn = self._ranking, self.part_number
+        if r is None or pn is None:
+            return
+        key = (id(r), pn)
+        cached = SPREAD_CACHE.get(key)
+        if cached is not None and cached[0] is r:  # (an id is only unique while r lives)
+            self.show_spread(key, cached[1], cached[2])
+            return
+        self._spread_key = key
+        n = min(SPREAD_SAMPLES, r.requirements.yield_samples)
+        self._spread_message(f"{pn}: drawing {n:,} boards and searching the corners…")
+        self._spread_worker(key, r, pn, n)
+
+    @work(thread=True, exclusive=True, group="spread", exit_on_error=False)
+    def _spread_worker(self, key: tuple[Any, ...], r: Ranking, pn: str, n: int) -> None:
+        session = self.app.session  # type: ignore[attr-defined]
+        try:
+            y = session.spread_yield(r.design, [pn], samples=n, basis=r.requirements.basis)
+            c = session.corners(r.design, pn, basis=r.requirements.basis)
+        except Exception as exc:  # shown in the tab; the UI stays up
+            self.app.call_from_thread(self._spread_message, f"{pn}: spread failed: {exc}")
+            return
+        SPREAD_CACHE[key] = (r, y, c)
+        while len(SPREAD_CACHE) > 16:
+            SPREAD_CACHE.pop(next(iter(SPREAD_CACHE)))
+        self.app.call_from_thread(self.show_spread, key, y, c)
+
+    def show_spread(self, key: tuple[Any, ...], y: Any, c: Any) -> None:
+        """The yield, the worst corners and the histograms of one part."""
+        from partsel.spread_report import corners_text, yield_text
+
+        if self._ranking is None or key != (id(self._ranking), self.part_number):
+            return  # another part is shown by now
+        target = self._ranking.requirements.limit("min_yield")
+        text = Text(yield_text(y, self._ranking.design.name, target).strip() + "\n\n")
+        text.append(corners_text(c, self._ranking.design.name))
+        self.query_one(".spread-text", Static).update(text)
+        p = y.parts[0]
+        thd_kind = "bound" if p.thd_bound else "estimate"
+        self.query_one(".plot-thd-hist", HistogramPlot).draw(
+            100.0 * p.thd, title=f"THD {thd_kind} over {p.samples:,} boards, %",
+            xlabel="THD, %", color=theme.PLOT_PREDICTED,
+        )  # fmt: skip
+        level = self.query_one(".plot-level-hist", HistogramPlot)
+        if p.handover_level.size:
+            level.draw(
+                p.handover_level, title=f"handover level on {100 * p.handover:.3g} % of boards, V",
+                xlabel="V", color=theme.PLOT_MARKER,
+            )  # fmt: skip
+        else:
+            level.show_message("no board hands over")
 
     def show_plot_message(self, message: str) -> None:
         """A message in place of the plots (simulation pending or off)."""

@@ -112,3 +112,28 @@ class SpectrumPlot(_Plot):
         plt.xlabel("harmonic")
         plt.ylabel("dBc")
         self.refresh()
+
+
+class HistogramPlot(_Plot):
+    """A histogram of one figure over the boards of a Monte Carlo yield (the Spread tab)."""
+
+    def draw(self, values: np.ndarray, *, title: str, xlabel: str, color: Color) -> None:
+        """Bars of ``values`` (finite ones) in :data:`HIST_BINS` bins."""
+        x = np.asarray(values, dtype=float)
+        x = x[np.isfinite(x)]
+        if x.size == 0:
+            self.show_message(title)
+            return
+        plt = self.plt
+        plt.clear_data()
+        plt.clear_figure()
+        plt.hist([float(v) for v in x], bins=HIST_BINS, color=color)
+        plt.title(title)
+        self.title_text = title
+        plt.xlabel(xlabel)
+        plt.ylabel("boards")
+        self.refresh()
+
+
+#: Bins of a histogram plot.
+HIST_BINS = 30
