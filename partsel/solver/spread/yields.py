@@ -25,7 +25,7 @@ import numpy as np
 from partsel.physics import eseries
 from partsel.solver import checks as C
 from partsel.solver.requirements import DEFAULT_YIELD_SAMPLES, DEFAULT_YIELD_SEED
-from partsel.solver.spread.evaluate import CHUNK_ROWS, Board, evaluate_rows
+from partsel.solver.spread.evaluate import AMBIENT_KEY, CHUNK_ROWS, Board, ambients, evaluate_rows
 from partsel.solver.spread.model import (
     DISTRIBUTION,
     FIXED,
@@ -91,6 +91,11 @@ class PartYield:
     correlated: list[tuple[str, float]]  #: (parameter, correlation with failure), strongest first
     fixed_params: list[str]  #: catalogue parameters without a known spread
     fix: FixYield | None = None
+    over_temperature: list[str] = field(default_factory=list)
+    """specs given at several ambients (interpolated in the ambient)"""
+    temperature_unknown: list[str] = field(default_factory=list)
+    """specs given at one ambient: their spread over temperature is unknown, not modelled"""
+    ambients_c: list[float] = field(default_factory=list)  #: ambients every board is judged at
     thd: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
     handover_level: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
 
@@ -150,21 +155,83 @@ class _Draws:
         return self._part[p]
 
     def rows(
-        self, pos: np.ndarray, samples: np.ndarray
+        self, pos: np.ndarray, samples: np.ndarray, ambient: float | None = None
     ) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray], np.ndarray, np.ndarray]:
-        """Part values, circuit values, fix resistor values and its variate, of rows."""
+        """Part values (at ``ambient``, degC: the same variates at every ambient), circuit
+        values (the junction judged at ``ambient`` when given), fix resistor values and its
+        variate, of rows."""
         u = np.empty((pos.size, len(STREAM_KEYS)))
         z = np.empty_like(u)
         for p in np.unique(pos):
             sel = pos == p
             pu, pz = self.part(int(p))
             u[sel], z[sel] = pu[samples[sel]], pz[samples[sel]]
-        values = {s.key: s.draw(pos, u[:, self.keys[s.key]], z[:, self.keys[s.key]])
+        values = {s.key: s.draw(pos, u[:, self.keys[s.key]], z[:, self.keys[s.key]], ambient)
                   for s in self.b.parts if s.varies[pos].any()}  # fmt: skip
         circuit = {k: v[samples] for k, v in self.circuit.items()}
+        if ambient is not None and ambient != float(self.b.design.t_ambient_max_c):
+            circuit[AMBIENT_KEY] = np.full(pos.size, float(ambient))
         jf = self.keys["fix_resistor"]
         fix = self.b.fix.spread().draw(pos, u[:, jf], z[:, jf])[:, 0]
         return values, circuit, fix, u[:, jf]
+
+
+@dataclass
+class _Judged:
+    """Boards judged at every ambient of :func:`partsel.solver.spread.evaluate.ambients`:
+    a board passes, meets a check or stays in one mode only if it does at every ambient; its
+    THD and handover level are the largest over them; its drawn values are those at the
+    highest ambient."""
+
+    passed: np.ndarray
+    failing: np.ndarray
+    one_mode: np.ndarray
+    thd: np.ndarray
+    handover: np.ndarray
+    level: np.ndarray
+    values: dict[str, np.ndarray]
+    circuit: dict[str, np.ndarray]
+    fix_r: np.ndarray
+    u_fix: np.ndarray
+
+
+def _judge(
+    draws: _Draws,
+    temps: list[tuple[float, np.ndarray]],
+    pos: np.ndarray,
+    samples: np.ndarray,
+    *,
+    fix_r: np.ndarray | None = None,
+    verdict_only: bool = False,
+) -> _Judged:
+    """Judge rows (``fix_r``: the fix resistor of each row instead of the drawn one)."""
+    b = draws.b
+    out: _Judged | None = None
+    for t, parts in temps:
+        sel = np.flatnonzero(parts[pos])
+        if sel.size == 0:
+            continue
+        values, circuit, fix_d, u_fix = draws.rows(pos[sel], samples[sel], t)
+        r = fix_d if fix_r is None else fix_r[sel]
+        res = evaluate_rows(b, pos[sel], values, circuit, r, verdict_only=verdict_only)
+        cf = res.closed
+        thd = res.checks.value[:, C.IDX["thd"]]
+        level = np.where(cf.handover, cf.handover_out_v, np.nan)
+        if out is None:  # the highest ambient: every row
+            assert sel.size == pos.size
+            out = _Judged(res.passed.copy(), res.checks.failing.copy(),
+                          cf.conduction == "one-mode", thd.copy(), cf.handover.copy(),
+                          level, values, circuit, r, u_fix)  # fmt: skip
+            continue
+        out.passed[sel] &= res.passed
+        out.failing[sel] |= res.checks.failing
+        out.one_mode[sel] &= cf.conduction == "one-mode"
+        with np.errstate(invalid="ignore"):
+            out.thd[sel] = np.fmax(out.thd[sel], thd)
+            out.level[sel] = np.fmax(out.level[sel], level)
+        out.handover[sel] |= cf.handover
+    assert out is not None
+    return out
 
 
 def _percentiles(x: np.ndarray) -> dict[float, float]:
@@ -218,26 +285,25 @@ def part_yields(
             }
             for _ in range(b.n_parts)
         ]
+    temps = ambients(b)
     for pos, samples in _chunks(b.n_parts, n):
-        values, circuit, fix_r, _ = draws.rows(pos, samples)
-        res = evaluate_rows(b, pos, values, circuit, fix_r, verdict_only=not detail)
+        res = _judge(draws, temps, pos, samples, verdict_only=not detail)
+        values, circuit, fix_r = res.values, res.circuit, res.fix_r
         np.add.at(passed, pos, res.passed.astype(np.int64))
         if progress is not None:
             progress(int(pos.size))
         if records is None:
             continue
-        fail = res.checks.failing
-        cf = res.closed
         for p in np.unique(pos):
             sel = pos == p
             s = samples[sel]
             rec = records[int(p)]
             rec["pass"][s] = res.passed[sel]
-            rec["fail_checks"][s] = fail[sel]
-            rec["one_mode"][s] = cf.conduction[sel] == "one-mode"
-            rec["thd"][s] = res.checks.value[sel, C.IDX["thd"]]
-            rec["handover"][s] = cf.handover[sel]
-            rec["level"][s] = np.where(cf.handover[sel], cf.handover_out_v[sel], np.nan)
+            rec["fail_checks"][s] = res.failing[sel]
+            rec["one_mode"][s] = res.one_mode[sel]
+            rec["thd"][s] = res.thd[sel]
+            rec["handover"][s] = res.handover[sel]
+            rec["level"][s] = res.level[sel]
             params = rec["params"]
             for key, v in values.items():
                 if b.spread(key).varies[p]:
@@ -262,7 +328,8 @@ def _fix_search(
     draws = _Draws(b, n, seed)
     pos = np.full(n, p)
     samples = np.arange(n)
-    values, circuit, _, u_fix = draws.rows(pos, samples)
+    temps = ambients(b)
+    _, _, _, u_fix = draws.rows(pos, samples)
     factor = 1.0 + tol * (2.0 * u_fix - 1.0)  # the same draw as the recommended value's
     cands = eseries.preferred_values(series, r_rec / FIX_RANGE, r_rec * FIX_RANGE)[::-1]
     tried: list[tuple[float, float]] = []
@@ -274,10 +341,8 @@ def _fix_search(
             passed = 0
             for s0 in range(0, n, CHUNK_ROWS):
                 sl = slice(s0, min(s0 + CHUNK_ROWS, n))
-                res = evaluate_rows(
-                    b, pos[sl], {k: v[sl] for k, v in values.items()},
-                    {k: v[sl] for k, v in circuit.items()}, r * factor[sl], verdict_only=True,
-                )  # fmt: skip
+                res = _judge(draws, temps, pos[sl], samples[sl], fix_r=r * factor[sl],
+                             verdict_only=True)  # fmt: skip
                 passed += int(res.passed.sum())
             y = passed / n
         past_peak = bool(tried) and r < r_rec and y <= tried[-1][1]
@@ -310,6 +375,7 @@ def analyse(
     passed, records = part_yields(b, n, seed, detail=True, progress=progress)
     assert records is not None
     out = []
+    temps = ambients(b)
     checked = [j for j, c in enumerate(C.CHECKS) if c.sense != "is"]
     for p, rec in enumerate(records):
         k = int(passed[p])
@@ -321,6 +387,7 @@ def analyse(
         fix = None
         if b.fix.fitted[p]:
             fix = _fix_search(b, p, n, seed, series, target, k / n)
+        known, unknown = b.temperature_keys(p)
         out.append(
             PartYield(
                 part_number=b.part_numbers[p],
@@ -338,6 +405,9 @@ def analyse(
                 correlated=_correlations(rec["params"], ~rec["pass"]),
                 fixed_params=[s.key for s in b.parts if s.kind[p] == FIXED],
                 fix=fix,
+                over_temperature=known,
+                temperature_unknown=unknown,
+                ambients_c=[t for t, on in temps if on[p]],
                 thd=rec["thd"],
                 handover_level=rec["level"][np.isfinite(rec["level"])],
             )
