@@ -16,6 +16,7 @@ from partsel.catalogue.columns import (
 from partsel.catalogue.schema import DEFAULT_SPEC_TEMPERATURE_C, TEMPERATURE_POINTS
 from partsel.catalogue.validate import validate_document
 from partsel.errors import InputError
+from partsel.io.textfile import value_at
 from partsel.params import MAX_SWING_POINTS, PARAMS, SIDES, Topology, column
 
 #: Junction temperature limit assumed when a record gives none, degC (common practice).
@@ -38,15 +39,6 @@ _SWING_NAMES = tuple(
     )
     for rail in SWING_RAILS
 )
-
-
-def _get(record: dict[str, Any], path: tuple[str, ...]) -> Any:
-    node: Any = record
-    for name in path:
-        if not isinstance(node, dict) or name not in node:
-            return None
-        node = node[name]
-    return node
 
 
 def _spec_side(spec: Any, side: str) -> float:
@@ -114,11 +106,11 @@ def flatten_canonical(canon: dict[str, Any]) -> dict[str, Any]:
         "currency": price.get("currency"),
         "supply_min_v": canon["supply"]["range"]["min"],
         "supply_max_v": canon["supply"]["range"]["max"],
-        "rail_to_rail_input": bool(_get(canon, ("input", "rail_to_rail")) or False),
-        "min_stable_gain": float(_get(canon, ("dynamics", "min_stable_gain")) or NAN),
+        "rail_to_rail_input": bool(value_at(canon, ("input", "rail_to_rail")) or False),
+        "min_stable_gain": float(value_at(canon, ("dynamics", "min_stable_gain")) or NAN),
     }
     for p, names in _PARAM_NAMES:
-        spec = _get(canon, p.path)
+        spec = value_at(canon, p.path)
         if spec is None and p.key == "dead_band" and topology != Topology.CLASS_B_PULLDOWN:
             spec = _NO_DEAD_BAND  # biased stages: no dead band
         for side, name in zip(SIDES, names, strict=True):

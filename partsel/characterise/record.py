@@ -25,6 +25,7 @@ import numpy as np
 from partsel import present as P
 from partsel.catalogue.schema import FORMAT_NAME
 from partsel.characterise.model_file import file_label
+from partsel.io.textfile import value_at
 from partsel.params import Topology
 
 if TYPE_CHECKING:
@@ -179,15 +180,6 @@ def build_record(
     return rec
 
 
-def _get(rec: dict[str, Any], path: tuple[str, ...]) -> Any:
-    node: Any = rec
-    for p in path:
-        if not isinstance(node, dict) or p not in node:
-            return None
-        node = node[p]
-    return node
-
-
 def merged_record(stored: dict[str, Any], measured: dict[str, Any]) -> dict[str, Any]:
     """``stored`` with every measured field of ``measured`` (:data:`MEASURED_PATHS`) put in;
     a stored part that is not class B loses its dead band when the model's stage is biased.
@@ -195,8 +187,8 @@ def merged_record(stored: dict[str, Any], measured: dict[str, Any]) -> dict[str,
     from partsel.units import parse_quantity
 
     out = copy.deepcopy(stored)
-    rng = _get(out, ("supply", "range"))
-    at = _get(measured, ("supply", "current_per_channel", "at", "supply"))
+    rng = value_at(out, ("supply", "range"))
+    at = value_at(measured, ("supply", "current_per_channel", "at", "supply"))
     if isinstance(rng, dict) and at is not None:
         v = parse_quantity(at, "voltage")
         if v < parse_quantity(rng["min"], "voltage"):
@@ -204,7 +196,7 @@ def merged_record(stored: dict[str, Any], measured: dict[str, Any]) -> dict[str,
         if v > parse_quantity(rng["max"], "voltage"):
             rng["max"] = at
     for path in MEASURED_PATHS:
-        value = _get(measured, path)
+        value = value_at(measured, path)
         node = out
         for p in path[:-1]:
             node = node.setdefault(p, {})

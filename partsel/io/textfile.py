@@ -46,7 +46,7 @@ import json
 import math
 import os
 import re
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from pathlib import Path
 from typing import Any, Literal
 
@@ -727,3 +727,13 @@ _PARSERS: dict[str, Callable[[str, int, int], Any]] = {
     "JSON": _parse_json,
     "TOML": _parse_toml,
 }
+
+
+def value_at(doc: Mapping[str, Any], path: tuple[str, ...]) -> Any:
+    """The value at key ``path`` of a read document, or None where any key is absent."""
+    node: Any = doc
+    for key in path:
+        if not isinstance(node, Mapping) or key not in node:
+            return None
+        node = node[key]
+    return node

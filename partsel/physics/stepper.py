@@ -672,19 +672,7 @@ def run_parallel(
     out: np.ndarray,
     flags: np.ndarray,
 ) -> None:
-    """Simulate every part (rows of ``prm``) and write the recorded periods into ``out``.
-
-    ``out`` has shape (P, 6, n_record * N): output, drive, output current, source, sink and
-    pull-down current. ``flags[p]`` receives (unconverged steps, warm-up periods run, Newton
-    iterations of the steps that converged at the first attempt, why the part was given up:
-    0 it was not, or a GIVE_UP_* code). A part is given up when its state leaves the finite
-    numbers, when more than ``max_bad`` steps of one period fail, or when one period takes
-    more than ITERATION_BUDGET Newton iterations per step on average.
-    Part ``p`` runs in the circuit ``g = grp[p]``: ``c_in[g]`` holds ``v_plus - v_md`` and
-    ``cm_rate[g]`` the common-mode input's slope (V/s) at the end of every step of one period
-    (shape (G, N)); ``v_start``, ``beta``, ``dt``, the rails, ``c_l``, ``r_l``, ``c_c`` and
-    ``v_ref_l`` hold one value per circuit (shape (G,)).
-    """
+    """:func:`run`, with the parts shared among numba's threads (``prange``)."""
     inv_vt = 1.0 / vt
     for p in numba.prange(prm.shape[0]):
         g = grp[p]

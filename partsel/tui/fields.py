@@ -16,6 +16,7 @@ from typing import Any, Literal
 from partsel.design import PERCENT_LIMITS as _PERCENT_LIMITS
 from partsel.design import QUANTITY_FIELDS, design_from_mapping, design_to_mapping
 from partsel.errors import InputError, Problem, json_pointer
+from partsel.io.textfile import value_at
 from partsel.physics.circuit import Design
 from partsel.solver import requirements as req_mod
 
@@ -321,15 +322,6 @@ FIELD_BY_ID: dict[str, FieldSpec] = {f.id: f for f in FIELDS}
 FIELD_BY_PATH: dict[tuple[str, ...], FieldSpec] = {f.path: f for f in FIELDS}
 
 
-def _get(mapping: Mapping[str, Any], path: tuple[str, ...]) -> Any:
-    node: Any = mapping
-    for p in path:
-        if not isinstance(node, Mapping) or p not in node:
-            return None
-        node = node[p]
-    return node
-
-
 def _text(spec: FieldSpec, value: Any) -> str:
     if value is None:
         return ""
@@ -351,7 +343,7 @@ def values_from_design(design: Design) -> dict[str, str]:
     gives none), so that a weight typed into the form never silently drops the others.
     """
     data = design_to_mapping(design)
-    out = {f.id: _text(f, _get(data, f.path)) for f in FIELDS}
+    out = {f.id: _text(f, value_at(data, f.path)) for f in FIELDS}
     req = req_mod.Requirements.from_mapping(design.requirements)
     out[FIELD_BY_PATH[("requirements", "basis")].id] = req.basis
     out[FIELD_BY_PATH[("requirements", "conduction")].id] = req.conduction
