@@ -17,7 +17,7 @@ from partsel.catalogue.schema import DEFAULT_SPEC_TEMPERATURE_C, TEMPERATURE_POI
 from partsel.catalogue.validate import validate_document
 from partsel.errors import InputError
 from partsel.io.textfile import value_at
-from partsel.params import MAX_SWING_POINTS, PARAMS, SIDES, Topology, column
+from partsel.params import MAX_SWING_POINTS, PARAMS, SIDES, TemperatureCurve, Topology, column
 
 #: Junction temperature limit assumed when a record gives none, degC (common practice).
 DEFAULT_JUNCTION_MAX_C = 150.0
@@ -125,11 +125,6 @@ def flatten_canonical(canon: dict[str, Any]) -> dict[str, Any]:
     return row
 
 
-#: One spec at several ambients: ``(temperature_c, min, typ, max)`` per temperature, in
-#: rising temperature order (NaN for a side not given).
-TemperatureCurve = tuple[tuple[float, float, float, float], ...]
-
-
 def temperature_curves(canon: dict[str, Any]) -> dict[str, TemperatureCurve]:
     """The parameters of a canonical part record given at two or more temperatures: its own
     point (at ``at.temperature``, :data:`DEFAULT_SPEC_TEMPERATURE_C` when not given) and its
@@ -137,10 +132,10 @@ def temperature_curves(canon: dict[str, Any]) -> dict[str, TemperatureCurve]:
     temperature are absent)."""
     out: dict[str, TemperatureCurve] = {}
     for p in PARAMS:
-        spec = _get(canon, p.path)
+        spec = value_at(canon, p.path)
         if not isinstance(spec, dict) or not spec.get(TEMPERATURE_POINTS):
             continue
-        own = _get(spec, ("at", "temperature"))
+        own = value_at(spec, ("at", "temperature"))
         own_t = own if isinstance(own, float) else DEFAULT_SPEC_TEMPERATURE_C
         points = [(own_t, *(_spec_side(spec, s) for s in SIDES))]
         points += [(q["temperature"], *(_spec_side(q, s) for s in SIDES))

@@ -536,7 +536,7 @@ def temperature_data(
     engine: Engine, where: sa.ColumnElement[bool] | None = None
 ) -> dict[str, dict[str, Any]]:
     """The specs each part gives at two or more ambient temperatures: casefolded part number ->
-    parameter key -> :data:`partsel.catalogue.normalise.TemperatureCurve` (parts without any
+    parameter key -> :data:`partsel.params.TemperatureCurve` (parts without any
     absent). Read from the stored records (``record_json``): only the records that mention
     the field are parsed, so a catalogue without temperature points costs one filtered query.
     """

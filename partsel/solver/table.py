@@ -16,12 +16,9 @@ from functools import cached_property
 import numpy as np
 import pandas as pd
 
-from partsel.params import PARAM_BY_KEY
+from partsel.params import PARAM_BY_KEY, TemperatureCurve
 from partsel.physics.stage import Basis, StageParams
 
-#: A spec at several ambients: ``(temperature_c, min, typ, max)`` per temperature, rising (the
-#: catalogue layer's :func:`partsel.catalogue.normalise.temperature_curves`).
-TemperatureCurve = tuple[tuple[float, float, float, float], ...]
 #: Casefolded part number -> parameter key -> its temperature curve (specs at one
 #: temperature absent).
 TemperatureData = Mapping[str, Mapping[str, TemperatureCurve]]
