@@ -14,13 +14,16 @@ from partsel.solver.spread.corners import CornerAnalysis
 from partsel.solver.spread.model import SPEC_SIGMAS
 from partsel.solver.spread.yields import YieldAnalysis
 
-CORNERS_FORMAT = "partsel.corners/1"
-YIELD_FORMAT = "partsel.yield/1"
+#: Output formats; /2 added the specs interpolated over temperature and those whose spread over
+#: temperature is unknown (``temperature``), each parameter's ``over_temperature`` and the
+#: ambients each board is judged at (required fields, so a reader of /1 must check).
+CORNERS_FORMAT = "partsel.corners/2"
+YIELD_FORMAT = "partsel.yield/2"
 
 #: The distributions assumed, stated in every output (see partsel.solver.spread.model).
 ASSUMPTIONS: tuple[str, ...] = (
-    f"catalogue spec with min, typ and max: split normal, mode at typ, min and max at "
-    f"±{SPEC_SIGMAS:g}σ on their own side; typ and one limit: normal with that limit at "
+    f"catalogue spec with min, typ and max: split normal, split at typ (its median), min and "
+    f"max at ±{SPEC_SIGMAS:g}σ of their own side; typ and one limit: normal with that limit at "
     f"{SPEC_SIGMAS:g}σ, mirrored; min and max only: uniform; one value only: fixed (no spread "
     "known)",
     "design tolerance: uniform between its ends, or a (split) normal with the ends at kσ when "

@@ -7,11 +7,14 @@ README:
 * **catalogue specs** (every parameter of :data:`partsel.params.PARAMS`, and each rail's swing
   headroom curve as one parameter whose points move together):
 
-  - min, typ and max given: a *split normal* with its mode at typ and min / max at ±3σ on
-    their own side (σ_low = (typ − min) / 3, σ_high = (max − typ) / 3; K. F. Wallis, "The
-    two-piece normal, binormal, or double Gaussian distribution", *Statistical Science* 29,
-    2014): datasheet limits are often near ±3σ of production (design notes section 12;
-    common practice, an assumption). The range is [min, max];
+  - min, typ and max given: a *split normal* split at typ: below typ the lower half of a
+    normal with σ_low = (typ − min) / 3, above it the upper half of one with
+    σ_high = (max − typ) / 3, each half with probability 1/2 (typ is the median, and min and
+    max lie at the same quantiles, Φ(∓3), as in a normal): x = typ + σ_side · z for a
+    standard normal z, so a board keeps its quantile wherever σ_low, σ_high and typ move
+    (with the ambient, below). Datasheet limits are often near ±3σ of production (design
+    notes section 12; common practice, an assumption). When the sides differ the density
+    steps at typ; the range is [min, max];
   - typ and one limit: a normal at typ with that limit at 3σ, the range mirrored about typ;
   - min and max only: *uniform* between them;
   - typ only, or one limit only: no spread is known; the value is fixed at the one given
@@ -252,11 +255,9 @@ class Spread:
         normal ``z`` variates (one per row), at the ambient ``ambient`` (degC, one per row or
         one for all; None: each spec as stated): shape (R, K)."""
         kind, c, s1, s2, lo, hi = self._sides_at(rows, ambient)
-        uu, zz = u[:, None], np.abs(z)[:, None]
-        with np.errstate(invalid="ignore", divide="ignore"):
-            # split normal: the lower half with probability s1 / (s1 + s2) (Wallis 2014)
-            p_low = np.where(s1 + s2 > 0, s1 / (s1 + s2), 0.5)
-            normal = np.where(uu < p_low, c - s1 * zz, c + s2 * zz)
+        uu, zz = u[:, None], z[:, None]
+        # split at typ (the median): each half of its own normal, so x is monotonic in z
+        normal = c + np.where(zz < 0, s1, s2) * zz
         out = np.where(kind == UNIFORM, lo + uu * (hi - lo), np.where(kind == NORMAL, normal, c))
         return np.abs(out) if self.fold else out
 
