@@ -45,10 +45,12 @@ PERCENTILES = (1.0, 5.0, 50.0, 95.0, 99.0)
 TOP_CORRELATED = 3
 #: The fix series' values searched for the largest reaching a target yield: from this factor
 #: above the recommended value down to this factor below it, largest first, at most
-#: FIX_CANDIDATES of them. The search stops at the first value that reaches the target, or
-#: below the recommendation once the yield stops rising (the yield rises as a smaller
-#: resistor keeps more boards in one mode, then falls as it loads the output: an assumption
-#: that holds for the pull-down and the pull-up alike).
+#: FIX_CANDIDATES of them. The yield is taken to rise as a smaller resistor keeps more boards
+#: in one mode, then fall as it loads the output (an assumption that holds for the pull-down
+#: and the pull-up alike; tests/test_spread.py checks the search against every value): where
+#: the recommendation reaches the target, the largest value above it that does is found by
+#: bisection; where it does not, smaller values are tried until one does or the yield stops
+#: rising.
 FIX_RANGE = 2.0
 FIX_CANDIDATES = 40
 #: Random variates each part draws per sample: its catalogue parameters, then its fix resistor
@@ -315,46 +317,72 @@ def part_yields(
     return passed, records
 
 
-def _fix_search(
-    b: Board, p: int, n: int, seed: int, series: str, target: float | None, base_yield: float
-) -> FixYield:
-    """The recommended fix of part ``p`` and the largest value of ``series`` reaching
-    ``target``, on the same boards (the resistor's own variate scales each candidate)."""
-    rail = str(b.fix.rail[p])
-    r_rec = float(b.fix.r_ohm[p])
-    tol = b.fix.tolerance
-    if target is None:
-        return FixYield(rail, r_rec, series, tol, base_yield)
+def fix_yield(b: Board, p: int, n: int, seed: int, r_ohm: float) -> float:
+    """The yield of part ``p`` with the fix resistor ``r_ohm`` (nominal, ohm) fitted instead of
+    the recommended one, on the same ``n`` boards as :func:`part_yields` (the resistor's own
+    variate scales it within the series' tolerance)."""
     draws = _Draws(b, n, seed)
     pos = np.full(n, p)
     samples = np.arange(n)
     temps = ambients(b)
     _, _, _, u_fix = draws.rows(pos, samples)
-    factor = 1.0 + tol * (2.0 * u_fix - 1.0)  # the same draw as the recommended value's
-    cands = eseries.preferred_values(series, r_rec / FIX_RANGE, r_rec * FIX_RANGE)[::-1]
-    tried: list[tuple[float, float]] = []
-    best: tuple[float, float] | None = None
-    for r in cands[:FIX_CANDIDATES]:
-        if r == r_rec:
-            y = base_yield
-        else:
-            passed = 0
-            for s0 in range(0, n, CHUNK_ROWS):
-                sl = slice(s0, min(s0 + CHUNK_ROWS, n))
-                res = _judge(draws, temps, pos[sl], samples[sl], fix_r=r * factor[sl],
-                             verdict_only=True)  # fmt: skip
-                passed += int(res.passed.sum())
-            y = passed / n
-        past_peak = bool(tried) and r < r_rec and y <= tried[-1][1]
-        tried.append((float(r), y))
-        if y >= target:
-            best = (float(r), y)
-            break
-        if past_peak:  # below the recommendation the yield only falls from here
-            break
+    factor = 1.0 + b.fix.tolerance * (2.0 * u_fix - 1.0)  # the same draw as the recommended's
+    passed = 0
+    for s0 in range(0, n, CHUNK_ROWS):
+        sl = slice(s0, min(s0 + CHUNK_ROWS, n))
+        res = _judge(draws, temps, pos[sl], samples[sl], fix_r=r_ohm * factor[sl],
+                     verdict_only=True)  # fmt: skip
+        passed += int(res.passed.sum())
+    return passed / n
+
+
+def _fix_search(
+    b: Board, p: int, n: int, seed: int, series: str, target: float | None, base_yield: float
+) -> FixYield:
+    """The recommended fix of part ``p`` and the largest value of ``series`` reaching
+    ``target``, on the same boards (see :data:`FIX_RANGE` for the shape of the yield assumed:
+    above the recommendation it falls as the resistor grows, so the largest value reaching the
+    target there is found by bisection; below it the values are tried downwards)."""
+    rail = str(b.fix.rail[p])
+    r_rec = float(b.fix.r_ohm[p])
+    tol = b.fix.tolerance
+    if target is None:
+        return FixYield(rail, r_rec, series, tol, base_yield)
+    cands = [float(r) for r in eseries.preferred_values(series, r_rec / FIX_RANGE,
+                                                         r_rec * FIX_RANGE)[::-1]]  # fmt: skip
+    cands = cands[:FIX_CANDIDATES]
+    tried: dict[float, float] = {}
+
+    def y_of(r: float) -> float:
+        if r not in tried:
+            tried[r] = base_yield if r == r_rec else fix_yield(b, p, n, seed, r)
+        return tried[r]
+
+    best: float | None = None
+    above = [r for r in cands if r > r_rec]  # largest first
+    if y_of(r_rec) >= target:
+        lo, hi = 0, len(above)  # the first of `above` reaching the target (len: none does)
+        while lo < hi:
+            mid = (lo + hi) // 2
+            if y_of(above[mid]) >= target:
+                hi = mid
+            else:
+                lo = mid + 1
+        best = above[lo] if lo < len(above) else r_rec
+    else:
+        previous = tried[r_rec]
+        for r in (r for r in cands if r < r_rec):
+            y = y_of(r)
+            if y >= target:
+                best = r
+                break
+            if y <= previous:  # past the peak: below it the yield only falls
+                break
+            previous = y
+    order = tuple(sorted(tried.items(), reverse=True))
     return FixYield(
         rail, r_rec, series, tol, base_yield, target,
-        None if best is None else best[0], None if best is None else best[1], tuple(tried),
+        best, None if best is None else tried[best], order,
     )  # fmt: skip
 
 
