@@ -39,7 +39,7 @@ import numpy as np
 import pandas as pd
 from sqlalchemy.engine import Engine
 
-from partsel.catalogue import open_catalogue, parts_frame
+from partsel.catalogue import open_catalogue, parts_frame, temperature_data
 from partsel.design import load_design
 from partsel.errors import InputError
 from partsel.physics.circuit import Design
@@ -310,6 +310,7 @@ class Session:
         read_only: bool = False,
     ) -> None:
         self._frame: pd.DataFrame | None = None
+        self._temperature: dict[str, Any] = {}
         self._table: PartTable | None = None
         self._engine: Engine | None = None
         self._own_engine = False
@@ -340,6 +341,7 @@ class Session:
             engine = self.engine
             assert engine is not None
             self._frame = parts_frame(engine)
+            self._temperature = temperature_data(engine)
         return self._frame
 
     @property
@@ -347,7 +349,8 @@ class Session:
         """The part table every evaluation uses (built once per catalogue read)."""
         with self._lock:
             if self._table is None:
-                self._table = PartTable(self.frame)
+                # a session over a frame has no stored records: no temperature data
+                self._table = PartTable(self.frame, self._temperature)
             return self._table
 
     def reload(self) -> None:
@@ -412,7 +415,9 @@ class Session:
         rows = self.rows(parts)
         if full_key in self._cache:
             return self._cache[full_key][1]
-        table = PartTable(self.table.frame.iloc[rows].reset_index(drop=True))
+        table = PartTable(
+            self.table.frame.iloc[rows].reset_index(drop=True), self.table.temperature
+        )
         return self._evaluated(
             self._key(design, req, tuple(int(x) for x in rows)), design, req, table, bool(hints)
         )

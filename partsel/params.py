@@ -24,6 +24,11 @@ SIDES: tuple[Side, ...] = ("min", "typ", "max")
 #: Largest number of (current, headroom) points kept per rail.
 MAX_SWING_POINTS = 6
 
+#: One spec at several ambients: ``(temperature_c, min, typ, max)`` per temperature, in rising
+#: temperature order (NaN for a side not given); read from the catalogue's
+#: ``temperature_points`` by :func:`partsel.catalogue.normalise.temperature_curves`.
+TemperatureCurve = tuple[tuple[float, float, float, float], ...]
+
 
 class Topology(StrEnum):
     """Output-stage topology (trade terms)."""

@@ -5,6 +5,7 @@ formatted by :mod:`partsel.present`."""
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from typing import TYPE_CHECKING
 
 from partsel import present as P
@@ -41,6 +42,25 @@ def design_units() -> dict[str, str]:
     return {"/".join(k): SI_UNIT[q.dimension] for k, q in QUANTITY_FIELDS.items()}
 
 
+def _keys(keys: Sequence[str], most: int = 8) -> str:
+    more = f" and {len(keys) - most} more" if len(keys) > most else ""
+    return ", ".join(param_label(k) for k in keys[:most]) + more
+
+
+def temperature_lines(known: Sequence[str], unknown: Sequence[str], indent: str) -> list[str]:
+    """Which specs of a part move with the ambient (interpolated) and which have an unknown
+    spread over temperature."""
+    out = []
+    if known:
+        out.append(f"{indent}interpolated over temperature: {_keys(known)}")
+    if unknown:
+        out.append(
+            f"{indent}spread over temperature unknown (given at one temperature, not "
+            f"modelled): {_keys(unknown)}"
+        )
+    return out
+
+
 def corners_text(a: CornerAnalysis, design_name: str) -> str:
     """The corners of one part for people."""
     from partsel.solver import checks as C
@@ -54,7 +74,9 @@ def corners_text(a: CornerAnalysis, design_name: str) -> str:
         unit = prm.unit or units.get(prm.key, "")
         lo = P.quantity(prm.low, unit) if unit else f"{prm.low:.4g}"
         hi = P.quantity(prm.high, unit) if unit else f"{prm.high:.4g}"
-        lines.append(f"  {param_label(prm.key):<34} {lo} .. {hi}  ({prm.origin})")
+        moves = "; at its own temperature, moves with the ambient" if prm.over_temperature else ""
+        lines.append(f"  {param_label(prm.key):<34} {lo} .. {hi}  ({prm.origin}{moves})")
+    lines += temperature_lines(a.over_temperature, a.temperature_unknown, "  ")
     lines.append("")
     for c in a.corners:
         unit = C.CHECKS[C.IDX[c.check]].unit
@@ -152,6 +174,13 @@ def yield_text(y: YieldAnalysis, design_name: str, target: float | None) -> str:
                     else "none of those tried"
                 )
             lines.append(text)
+        if p.over_temperature:
+            lines.append(
+                "      judged at ambients "
+                + ", ".join(P.quantity(t, "degC") for t in p.ambients_c)
+                + " (passes only if at all)"
+            )
+        lines += temperature_lines(p.over_temperature, p.temperature_unknown, "      ")
         if p.fixed_params:
             lines.append(
                 "      no spread known (fixed at the value given): "

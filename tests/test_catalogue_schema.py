@@ -54,8 +54,13 @@ def test_every_param_is_a_spec_at_its_path() -> None:
         node = part
         for name in p.path:
             node = node["properties"][name]
-        assert node["$ref"] == f"#/$defs/spec_{p.dimension}"
+        # a parameter's spec may list temperature points: its own def, the plain spec plus them
+        assert node["$ref"] == f"#/$defs/param_spec_{p.dimension}"
         assert node.get("x-nonnegative", False) == p.nonnegative
+    defs = build_schema()["$defs"]
+    for d in {p.dimension for p in PARAMS}:
+        plain, param = defs[f"spec_{d}"], defs[f"param_spec_{d}"]
+        assert set(param["properties"]) == {*plain["properties"], "temperature_points"}
 
 
 def test_fixture_files_pass_the_schema() -> None:

@@ -91,30 +91,30 @@ def test_symmetric_normal_spec_is_scipy_norm() -> None:
 
 
 def test_split_normal_spec() -> None:
-    """min / typ / max = 30 / 50 / 80 uA: a split normal (Wallis 2014): mode 50, σ 20/3
-    below and 30/3 above; mean μ + √(2/π) (σ2 - σ1), variance (1 - 2/π)(σ2 - σ1)² + σ1 σ2;
-    distribution function 2 σ1/(σ1 + σ2) Φ((x - μ)/σ1) below the mode and
-    1 - 2 σ2/(σ1 + σ2) (1 - Φ((x - μ)/σ2)) above it (Φ from scipy)."""
+    """min / typ / max = 30 / 50 / 80 uA: split at typ, the lower half of a normal with σ 20/3
+    below and the upper half of one with σ 30/3 above, each with probability 1/2 (the model's
+    rule): an equal mixture of two half-normals (scipy.stats.halfnorm), mean
+    μ + (σ2 - σ1)/√(2π), second moment about μ (σ1² + σ2²)/2, median μ, and min and max at
+    the normal quantiles Φ(∓3)."""
     mu, s1, s2 = 50e-6, 20e-6 / 3, 30e-6 / 3
     s = _spread(NORMAL, mu, s1, s2, 30e-6, 80e-6)
     x = _draw(s, N, 2)
-    mean = mu + math.sqrt(2 / math.pi) * (s2 - s1)
-    sd = math.sqrt((1 - 2 / math.pi) * (s2 - s1) ** 2 + s1 * s2)
-    p_low = s1 / (s1 + s2)
+    lower, upper = stats.halfnorm(scale=s1), stats.halfnorm(scale=s2)
+    mean = mu + 0.5 * (upper.mean() - lower.mean())
+    sd = math.sqrt(0.5 * (s1**2 + s2**2) - (mean - mu) ** 2)
+    assert mean == pytest.approx(mu + (s2 - s1) / math.sqrt(2 * math.pi), rel=1e-12)
 
     def cdf(v: np.ndarray) -> np.ndarray:
         v = np.asarray(v, dtype=float)
-        below = 2 * s1 / (s1 + s2) * stats.norm.cdf((v - mu) / s1)
-        above = 1 - 2 * s2 / (s1 + s2) * stats.norm.sf((v - mu) / s2)
-        return np.where(v < mu, below, above)
+        return np.where(v < mu, 0.5 * lower.sf(mu - v), 0.5 + 0.5 * upper.cdf(v - mu))
 
     def ppf(q: float) -> float:
-        if q < p_low:
-            return mu + s1 * stats.norm.ppf(q * (s1 + s2) / (2 * s1))
-        return mu + s2 * stats.norm.isf((1 - q) * (s1 + s2) / (2 * s2))
+        return mu - lower.isf(2 * q) if q < 0.5 else mu + upper.ppf(2 * q - 1)
 
     _within_sampling_error(x, mean, sd, ppf)
     assert stats.kstest(x, cdf).pvalue > 1e-4
+    p = stats.norm.cdf(-3)
+    assert ppf(p) == pytest.approx(30e-6, rel=1e-9) and ppf(1 - p) == pytest.approx(80e-6)
 
 
 def test_min_max_only_is_uniform() -> None:

@@ -66,6 +66,7 @@ _HOME: dict[str, str] = {
     "part_numbers": "partsel.catalogue.store",
     "parts_frame": "partsel.catalogue.store",
     "restore_part": "partsel.catalogue.store",
+    "temperature_data": "partsel.catalogue.store",
     "CatalogueDocument": "partsel.catalogue.validate",
     "canonical_part": "partsel.catalogue.validate",
     "read_and_validate": "partsel.catalogue.validate",
@@ -132,6 +133,7 @@ if TYPE_CHECKING:
         part_numbers,
         parts_frame,
         restore_part,
+        temperature_data,
     )
     from partsel.catalogue.validate import (
         CatalogueDocument,
@@ -190,6 +192,7 @@ __all__ = [
     "schema_revision",
     "schema_text",
     "swing_points",
+    "temperature_data",
     "validate_document",
     "validate_documents",
 ]

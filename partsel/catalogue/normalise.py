@@ -13,10 +13,11 @@ from partsel.catalogue.columns import (
     swing_current_column,
     swing_headroom_column,
 )
+from partsel.catalogue.schema import DEFAULT_SPEC_TEMPERATURE_C, TEMPERATURE_POINTS
 from partsel.catalogue.validate import validate_document
 from partsel.errors import InputError
 from partsel.io.textfile import value_at
-from partsel.params import MAX_SWING_POINTS, PARAMS, SIDES, Topology, column
+from partsel.params import MAX_SWING_POINTS, PARAMS, SIDES, TemperatureCurve, Topology, column
 
 #: Junction temperature limit assumed when a record gives none, degC (common practice).
 DEFAULT_JUNCTION_MAX_C = 150.0
@@ -122,6 +123,25 @@ def flatten_canonical(canon: dict[str, Any]) -> dict[str, Any]:
             for side, name in zip(SIDES, v_names, strict=True):
                 row[name] = head.get(side, NAN)
     return row
+
+
+def temperature_curves(canon: dict[str, Any]) -> dict[str, TemperatureCurve]:
+    """The parameters of a canonical part record given at two or more temperatures: its own
+    point (at ``at.temperature``, :data:`DEFAULT_SPEC_TEMPERATURE_C` when not given) and its
+    :data:`TEMPERATURE_POINTS`, by :data:`partsel.params.PARAMS` key (parameters given at one
+    temperature are absent)."""
+    out: dict[str, TemperatureCurve] = {}
+    for p in PARAMS:
+        spec = value_at(canon, p.path)
+        if not isinstance(spec, dict) or not spec.get(TEMPERATURE_POINTS):
+            continue
+        own = value_at(spec, ("at", "temperature"))
+        own_t = own if isinstance(own, float) else DEFAULT_SPEC_TEMPERATURE_C
+        points = [(own_t, *(_spec_side(spec, s) for s in SIDES))]
+        points += [(q["temperature"], *(_spec_side(q, s) for s in SIDES))
+                   for q in spec[TEMPERATURE_POINTS]]  # fmt: skip
+        out[p.key] = tuple(sorted(points))  # type: ignore[arg-type]
+    return out
 
 
 def normalise_part(record: dict[str, Any], *, file: str | None = None) -> dict[str, Any]:

@@ -69,11 +69,23 @@ def quantity(
     return node
 
 
-def spec(dimension: str, description: str, *, nonnegative: bool = False) -> Schema:
-    """A field holding a min/typ/max spec of ``dimension``."""
+#: The optional list of a parameter's spec giving it at other ambient temperatures.
+TEMPERATURE_POINTS = "temperature_points"
+#: Most temperature points a spec may list (besides its own).
+MAX_TEMPERATURE_POINTS = 8
+#: Ambient a spec with temperature points is taken at when its ``at`` gives none, degC (the
+#: usual datasheet condition; an assumption stated in DEVELOPERS.md).
+DEFAULT_SPEC_TEMPERATURE_C = 25.0
+
+
+def spec(
+    dimension: str, description: str, *, nonnegative: bool = False, points: bool = False
+) -> Schema:
+    """A field holding a min/typ/max spec of ``dimension`` (``points``: it may list
+    :data:`TEMPERATURE_POINTS`, the spec at other ambient temperatures)."""
     unit = _unit_text(dimension)
     node: Schema = {
-        "$ref": f"#/$defs/spec_{dimension}",
+        "$ref": f"#/$defs/{'param_spec' if points else 'spec'}_{dimension}",
         "description": f"{description} [{unit}]",
         "x-unit": unit,
     }
@@ -109,6 +121,51 @@ def _quantity_def(dimension: str) -> Schema:
         "x-dimension": dimension,
         "x-unit": unit,
     }
+
+
+def _temperature_point_def(dimension: str) -> Schema:
+    unit = _unit_text(dimension)
+    props: dict[str, Schema] = {
+        "temperature": quantity("temperature", "Ambient temperature of these values"),
+        **{
+            side: {
+                "$ref": f"#/$defs/quantity_{dimension}",
+                "description": f"{text} at this temperature [{unit}]",
+                "x-unit": unit,
+            }
+            for side, text in (("min", "Minimum"), ("typ", "Typical"), ("max", "Maximum"))
+        },
+    }
+    return {
+        "description": (
+            f"The spec at another ambient temperature: the temperature and the same sides "
+            f"(min, typ, max) as the spec itself [{unit}]"
+        ),
+        "type": "object",
+        "properties": props,
+        "required": ["temperature"],
+        "additionalProperties": False,
+        "anyOf": [{"required": ["min"]}, {"required": ["typ"]}, {"required": ["max"]}],
+        "x-message": "a temperature point needs at least one of min, typ, max",
+    }
+
+
+def _param_spec_def(dimension: str) -> Schema:
+    """A parameter's spec: a spec that may also list itself at other temperatures."""
+    node = _spec_def(dimension)
+    node["description"] += (
+        f"; optionally '{TEMPERATURE_POINTS}': the same sides at other ambient temperatures "
+        f"(the spec's own temperature is its at.temperature, {DEFAULT_SPEC_TEMPERATURE_C:g} "
+        "degC when not given), interpolated linearly in temperature by the spread analysis"
+    )
+    node["properties"][TEMPERATURE_POINTS] = {
+        "type": "array",
+        "description": "The spec at other ambient temperatures (distinct temperatures)",
+        "items": {"$ref": f"#/$defs/temperature_point_{dimension}"},
+        "minItems": 1,
+        "maxItems": MAX_TEMPERATURE_POINTS,
+    }
+    return node
 
 
 def _spec_def(dimension: str) -> Schema:
@@ -332,13 +389,18 @@ def build_schema() -> Schema:
         node = part
         for name in p.path[:-1]:
             node = node["properties"][name]
-        node["properties"][p.path[-1]] = spec(p.dimension, p.description, nonnegative=p.nonnegative)
+        node["properties"][p.path[-1]] = spec(
+            p.dimension, p.description, nonnegative=p.nonnegative, points=True
+        )
     dims = [d for d in SI_UNIT if d not in ("dimensionless", "price")]
     defs: dict[str, Schema] = {}
     for d in dims:
         defs[f"quantity_{d}"] = _quantity_def(d)
     for d in dims:
         defs[f"spec_{d}"] = _spec_def(d)
+    for d in sorted({p.dimension for p in PARAMS}, key=dims.index):
+        defs[f"param_spec_{d}"] = _param_spec_def(d)
+        defs[f"temperature_point_{d}"] = _temperature_point_def(d)
     defs["conditions"] = _conditions_def()
     defs["swing"] = _swing_def()
     defs["maker"] = _obj(

@@ -532,6 +532,37 @@ def parts_frame(engine: Engine, where: sa.ColumnElement[bool] | None = None) -> 
     return pd.DataFrame({name: data[name] for name in FLAT_COLUMN_NAMES})
 
 
+def temperature_data(
+    engine: Engine, where: sa.ColumnElement[bool] | None = None
+) -> dict[str, dict[str, Any]]:
+    """The specs each part gives at two or more ambient temperatures: casefolded part number ->
+    parameter key -> :data:`partsel.params.TemperatureCurve` (parts without any
+    absent). Read from the stored records (``record_json``): only the records that mention
+    the field are parsed, so a catalogue without temperature points costs one filtered query.
+    """
+    from partsel.catalogue.normalise import temperature_curves
+    from partsel.catalogue.schema import TEMPERATURE_POINTS
+    from partsel.catalogue.validate import canonical_part
+
+    t = part_table
+    stmt = sa.select(t.c.part_key, t.c.record_json).where(
+        t.c.record_json.contains(f'"{TEMPERATURE_POINTS}"')
+    )
+    if where is not None:
+        stmt = stmt.where(where)
+    with engine.connect() as conn:
+        rows = conn.execute(stmt).fetchall()
+    out: dict[str, dict[str, Any]] = {}
+    for key, text in rows:
+        canon, problems = canonical_part(json.loads(text))
+        if problems:  # stored records were checked on load; an invalid one gives no curves
+            continue
+        curves = temperature_curves(canon)
+        if curves:
+            out[str(key)] = curves
+    return out
+
+
 def parts_records(
     engine: Engine, where: sa.ColumnElement[bool] | None = None
 ) -> list[dict[str, Any]]:

@@ -33,7 +33,12 @@ from jsonschema import Draft202012Validator
 from jsonschema.exceptions import ValidationError
 
 from partsel.catalogue.files import find_files, read_document
-from partsel.catalogue.schema import Schema, catalogue_schema
+from partsel.catalogue.schema import (
+    DEFAULT_SPEC_TEMPERATURE_C,
+    TEMPERATURE_POINTS,
+    Schema,
+    catalogue_schema,
+)
 from partsel.errors import InputError, Problem, excerpt, json_pointer
 from partsel.io.partnumber import name_problem
 from partsel.io.suffix import compile_rule
@@ -223,6 +228,17 @@ class _Walker:
                 out[side] = self.walk(props[side], value[side], [*path, side], nonneg)
         if "at" in value:
             out["at"] = self.walk(props["at"], value["at"], [*path, "at"])
+        if not self.ordered(value, out, path):
+            return out
+        points = value.get(TEMPERATURE_POINTS)
+        if TEMPERATURE_POINTS in props and isinstance(points, list):
+            out[TEMPERATURE_POINTS] = self.temperature_points(
+                props, value, out, points, path, nonneg
+            )
+        return out
+
+    def ordered(self, value: dict[str, Any], out: dict[str, Any], path: Path_) -> bool:
+        """min <= typ <= max of a spec (or of one of its temperature points)."""
         present = [s for s in SIDES if s in out]
         for i, lo in enumerate(present):
             for hi in present[i + 1 :]:
@@ -232,8 +248,74 @@ class _Walker:
                         f"({_given(value[hi])}); min <= typ <= max must hold",
                         [*path, lo],
                     )
-                    return out
-        return out
+                    return False
+        return True
+
+    def temperature_points(
+        self,
+        props: Schema,
+        value: dict[str, Any],
+        out: dict[str, Any],
+        points: list[Any],
+        path: Path_,
+        nonneg: bool,
+    ) -> list[dict[str, Any]]:
+        """The spec at other temperatures: each point a temperature and the spec's own sides
+        (each interpolates between temperatures), ordered, at a plausible temperature distinct
+        from the others and from the spec's own (its ``at.temperature``,
+        :data:`DEFAULT_SPEC_TEMPERATURE_C` when not given)."""
+        item = props[TEMPERATURE_POINTS]["items"]
+        base_path = [*path, TEMPERATURE_POINTS]
+        own = out.get("at", {}).get("temperature", DEFAULT_SPEC_TEMPERATURE_C)
+        if not isinstance(own, float):
+            self.problem(
+                f"a spec with {TEMPERATURE_POINTS} needs its own temperature as a value "
+                f"(at.temperature; got {_given(own)})",
+                [*path, "at", "temperature"],
+            )
+            own = math.nan
+        sides = [s for s in SIDES if s in out]
+        seen = {own: "the spec's own temperature"}
+        result = []
+        for k, point in enumerate(points):
+            if not isinstance(point, dict):
+                continue  # the schema reports it
+            here = [*base_path, k]
+            p_out: dict[str, Any] = {}
+            t = point.get("temperature")
+            if t is not None:
+                p_out["temperature"] = self.walk(item["properties"]["temperature"], t,
+                                                 [*here, "temperature"])  # fmt: skip
+            for side in SIDES:
+                if side in point:
+                    p_out[side] = self.walk(item["properties"][side], point[side],
+                                            [*here, side], nonneg)  # fmt: skip
+            result.append(p_out)
+            given = [s for s in SIDES if s in point]
+            if given and given != sides:
+                self.problem(
+                    f"gives {', '.join(given)} but the spec gives {', '.join(sides)}: a "
+                    "temperature point gives the same sides as its spec",
+                    here,
+                )
+            self.ordered(point, p_out, here)
+            temp = p_out.get("temperature")
+            if not isinstance(temp, float) or math.isnan(temp):
+                continue
+            if not is_plausible(temp, "temperature"):
+                warning = plausibility(temp, "temperature")
+                assert warning is not None
+                self.problem(f"{warning.message} (an error for a temperature point: it is "
+                             "interpolated between)", [*here, "temperature"])  # fmt: skip
+            elif temp in seen:
+                self.problem(
+                    f"temperature {_given(point['temperature'])} is given twice (also "
+                    f"{seen[temp]}); each temperature point needs its own temperature",
+                    [*here, "temperature"],
+                )
+            else:
+                seen[temp] = f"point {json_pointer(*here)}"
+        return result
 
 
 def _side(spec: Any, *sides: str) -> float:

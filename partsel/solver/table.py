@@ -10,13 +10,18 @@ reuses it ("warm").
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from functools import cached_property
 
 import numpy as np
 import pandas as pd
 
-from partsel.params import PARAM_BY_KEY
+from partsel.params import PARAM_BY_KEY, TemperatureCurve
 from partsel.physics.stage import Basis, StageParams
+
+#: Casefolded part number -> parameter key -> its temperature curve (specs at one
+#: temperature absent).
+TemperatureData = Mapping[str, Mapping[str, TemperatureCurve]]
 
 #: Corners of the stage current swept on the worst-case basis (see :mod:`partsel.solver.solve`).
 CORNERS: tuple[str, ...] = ("min", "typ", "max")
@@ -57,8 +62,11 @@ def basis_order(key: str, basis: Basis) -> tuple[str, ...]:
 class PartTable:
     """The parts of a catalogue as arrays along one part axis (row order of ``frame``)."""
 
-    def __init__(self, frame: pd.DataFrame) -> None:
+    def __init__(self, frame: pd.DataFrame, temperature: TemperatureData | None = None) -> None:
         self.frame = frame.reset_index(drop=True)
+        #: the specs of each part given at two or more ambients (read by the spread analysis;
+        #: the ranking itself judges every spec at the conditions it is stated at)
+        self.temperature: TemperatureData = temperature or {}
         self._stage: dict[str, StageParams] = {}
         self._param: dict[tuple[str, str], tuple[np.ndarray, np.ndarray]] = {}
 

@@ -26,7 +26,7 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 from bench_solver import synthetic_records
 
-from partsel.catalogue import load_documents, open_catalogue, parts_frame
+from partsel.catalogue import load_documents, open_catalogue, parts_frame, temperature_data
 from partsel.catalogue.validate import validate_documents
 from partsel.design import load_design
 from partsel.solver import PartTable
@@ -49,7 +49,7 @@ def main(n_parts: int, n_samples: int) -> None:
             [("synthetic.json", {"parts": synthetic_records(n_parts, n_parts)})]
         )
         load_documents(engine, docs)
-        table = PartTable(parts_frame(engine))
+        table = PartTable(parts_frame(engine), temperature_data(engine))
         engine.dispose()
         t_setup = time.perf_counter() - t0
     b = board(table, np.arange(table.n), design, req)

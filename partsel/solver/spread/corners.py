@@ -63,6 +63,9 @@ class Param:
     high: float
     nominal_t: float
     unit: str = ""
+    over_temperature: bool = False
+    """A catalogue spec given at several ambients: its range moves with the ambient (``low`` /
+    ``high`` here are at its own temperature) and its place is the fraction of the range there."""
 
 
 @dataclass(frozen=True)
@@ -93,6 +96,8 @@ class CornerAnalysis:
     fixed_failures: tuple[str, ...] = ()
     """Checks that fail whatever the spread: categorical ones (lifecycle, package, channels)
     and those the catalogue lacks the values for."""
+    over_temperature: tuple[str, ...] = ()  #: specs given at several ambients (interpolated)
+    temperature_unknown: tuple[str, ...] = ()  #: specs given at one: spread over T unknown
 
     @property
     def failing(self) -> tuple[Corner, ...]:
@@ -120,7 +125,8 @@ def corner_params(b: Board, p: int) -> tuple[list[Param], list[Spread | None]]:
         if not hi > lo:
             continue
         unit = "V" if s.key in SWING_RAILS else SI_UNIT[PARAM_BY_KEY[s.key].dimension]
-        params.append(Param(s.key, "catalogue", lo, hi, (c - lo) / (hi - lo), unit))
+        params.append(Param(s.key, "catalogue", lo, hi, (c - lo) / (hi - lo), unit,
+                            bool(s.over_temperature[p])))  # fmt: skip
         spreads.append(s)
     for s in b.circuit:
         lo, hi, c = float(s.low[0, 0]), float(s.high[0, 0]), float(s.centre[0, 0])
@@ -151,10 +157,18 @@ def _evaluate(
         part_values: dict[str, np.ndarray] = {}
         circuit: dict[str, np.ndarray] = {}
         fix_r = None
+        # the ambient of each row: the junction's, and where specs move with temperature theirs
+        ambient = np.full(tt.shape[0], float(b.design.t_ambient_max_c))
+        for i, prm in enumerate(params):
+            if prm.origin == "ambient":
+                ambient = prm.low + tt[:, i] * (prm.high - prm.low)
+        for s in b.parts:  # specs without a range that move with the ambient
+            if s.kind[p] == FIXED and s.over_temperature[p]:
+                part_values[s.key] = s.at(pos, np.zeros(pos.size), ambient)
         for i, (prm, s) in enumerate(zip(params, spreads, strict=True)):
             if prm.origin == "catalogue":
                 assert s is not None
-                part_values[prm.key] = s.at(pos, tt[:, i])
+                part_values[prm.key] = s.at(pos, tt[:, i], ambient)
             elif prm.origin == "fix":
                 fix_r = prm.low + tt[:, i] * (prm.high - prm.low)
             else:
@@ -309,4 +323,6 @@ def corners(b: Board, p: int = 0, *, seed: int = 1) -> CornerAnalysis:
         for j in range(C.N_CHECKS)
         if j not in counted and int(base[3][0, j]) in C.FAILING
     )
-    return CornerAnalysis(b.part_numbers[p], tuple(params), tuple(out), evaluations, fixed)
+    known, unknown = b.temperature_keys(p)
+    return CornerAnalysis(b.part_numbers[p], tuple(params), tuple(out), evaluations, fixed,
+                          tuple(known), tuple(unknown))  # fmt: skip

@@ -97,6 +97,25 @@ class Board:
             fix=self.fix.shrunk(factor),
         )
 
+    @property
+    def over_temperature(self) -> np.ndarray:
+        """(P,) True where a part gives some spec at two or more ambient temperatures."""
+        out = np.zeros(self.n_parts, dtype=bool)
+        for s in self.parts:
+            out |= s.over_temperature
+        return out
+
+    def temperature_keys(self, p: int) -> tuple[list[str], list[str]]:
+        """The specs part ``p`` gives (or that have a range) at two or more ambients, and
+        those it gives at one (their spread over temperature unknown), in PART_KEYS order."""
+        known, unknown = [], []
+        for s in self.parts:
+            if s.over_temperature[p]:
+                known.append(s.key)
+            elif np.isfinite(s.centre[p]).any():
+                unknown.append(s.key)
+        return known, unknown
+
     def spread(self, key: str) -> Spread:
         """A spread parameter by key (catalogue, ``"section/key"`` of the design, or
         ``"fix_resistor"``)."""
@@ -106,6 +125,34 @@ class Board:
         if key == "fix_resistor":
             return self.fix.spread()
         raise KeyError(key)
+
+
+#: The design-file key the ambient a board is judged at is set through.
+AMBIENT_KEY = "environment/ambient_max"
+
+
+def ambients(b: Board) -> list[tuple[float, np.ndarray]]:
+    """The ambients every board is judged at, each with the parts (P,) judged there: the
+    design's highest ambient for every part; for parts with temperature data also the lowest
+    and every temperature of their data strictly inside the range (a check monotonic in a
+    piecewise-linear spec is worst at one of them). Highest first."""
+    t_lo, t_hi = float(b.design.t_ambient_min_c), float(b.design.t_ambient_max_c)
+    out = [(t_hi, np.ones(b.n_parts, dtype=bool))]
+    on = b.over_temperature
+    if not on.any() or not t_hi > t_lo:
+        return out
+    inner: dict[float, np.ndarray] = {}
+    for s in b.parts:
+        tc = s.temperature
+        if tc is None:
+            continue
+        for p in np.flatnonzero(tc.given):
+            for t in tc.t[p][np.isfinite(tc.t[p])]:
+                if t_lo < t < t_hi:
+                    inner.setdefault(float(t), np.zeros(b.n_parts, dtype=bool))[p] = True
+    out += [(t, inner[t]) for t in sorted(inner, reverse=True)]
+    out.append((t_lo, on.copy()))
+    return out
 
 
 def board(

@@ -14,13 +14,16 @@ from partsel.solver.spread.corners import CornerAnalysis
 from partsel.solver.spread.model import SPEC_SIGMAS
 from partsel.solver.spread.yields import YieldAnalysis
 
-CORNERS_FORMAT = "partsel.corners/1"
-YIELD_FORMAT = "partsel.yield/1"
+#: Output formats; /2 added the specs interpolated over temperature and those whose spread over
+#: temperature is unknown (``temperature``), each parameter's ``over_temperature`` and the
+#: ambients each board is judged at (required fields, so a reader of /1 must check).
+CORNERS_FORMAT = "partsel.corners/2"
+YIELD_FORMAT = "partsel.yield/2"
 
 #: The distributions assumed, stated in every output (see partsel.solver.spread.model).
 ASSUMPTIONS: tuple[str, ...] = (
-    f"catalogue spec with min, typ and max: split normal, mode at typ, min and max at "
-    f"±{SPEC_SIGMAS:g}σ on their own side; typ and one limit: normal with that limit at "
+    f"catalogue spec with min, typ and max: split normal, split at typ (its median), min and "
+    f"max at ±{SPEC_SIGMAS:g}σ of their own side; typ and one limit: normal with that limit at "
     f"{SPEC_SIGMAS:g}σ, mirrored; min and max only: uniform; one value only: fixed (no spread "
     "known)",
     "design tolerance: uniform between its ends, or a (split) normal with the ends at kσ when "
@@ -29,10 +32,17 @@ ASSUMPTIONS: tuple[str, ...] = (
     "±1 %, or the requirements' fix_tolerance)",
     "parameters independent of each other; each part draws from its own stream, the design's "
     "tolerances from one stream shared by the parts",
-    "temperature: each catalogue spec is taken to hold over the design's ambient range; where a "
-    "spec is stated at one temperature its spread over temperature is unknown and not modelled "
-    "(no temperature coefficient is assumed); the junction temperature is judged at the "
-    "highest ambient",
+    "temperature: a spec given at two or more ambients has its min, typ and max each "
+    "interpolated linearly in the ambient between the temperatures given and held at the end "
+    "values outside them (no slope extrapolated); a part keeps its place in the distribution "
+    "across temperature (the same normal quantile); a spec stated at one temperature is taken "
+    "to hold over the design's ambient range: its spread over temperature is unknown and not "
+    "modelled (no temperature coefficient is assumed; listed per part)",
+    "ambient: not drawn; a board must work over the design's whole ambient range: each board "
+    "is judged at the highest ambient (the junction temperature's worst) and, for a part with "
+    "temperature data, also at the lowest and at each temperature of its data inside the "
+    "range, and passes only if it passes at all of them; the corner search takes the ambient "
+    "between its two ends",
 )
 
 #: Said by every output of the spread analysis.
@@ -74,6 +84,7 @@ def corners_dict(
             "high": p.high,
             "nominal_fraction": _num(p.nominal_t),
             "unit": p.unit or (units or {}).get(p.key) or None,
+            "over_temperature": p.over_temperature,
         }
         for p in a.params
     ]
@@ -104,6 +115,10 @@ def corners_dict(
         "parameters": params,
         "corners": out,
         "fails_whatever_the_spread": list(a.fixed_failures),
+        "temperature": {
+            "interpolated": list(a.over_temperature),
+            "unknown": list(a.temperature_unknown),
+        },
         "evaluations": a.evaluations,
         "method": "monotonicity of each check in each parameter checked numerically (5 probes), "
         "the vertex of the worse ends, a neighbour search flipping one parameter at a time; "
@@ -164,6 +179,11 @@ def yield_dict(y: YieldAnalysis, *, design_name: str = "") -> dict[str, Any]:
                     {"parameter": k, "correlation": _num(r)} for k, r in p.correlated
                 ],
                 "no_spread_known": list(p.fixed_params),
+                "temperature": {
+                    "interpolated": list(p.over_temperature),
+                    "unknown": list(p.temperature_unknown),
+                    "ambients_judged_c": [_num(t) for t in p.ambients_c],
+                },
                 "fix": fix,
             }
         )
@@ -229,8 +249,25 @@ def spread_schema() -> dict[str, Any]:
             "high": {"type": "number", "description": "High end of the range, SI"},
             "nominal_fraction": _n("Where the nominal value lies in the range, 0 .. 1"),
             "unit": {"type": ["string", "null"], "description": "SI unit of low and high"},
+            "over_temperature": {
+                "type": "boolean",
+                "description": "A catalogue spec given at several ambients: low and high are at "
+                "its own temperature, the range moves with the ambient",
+            },
         }
     )
+    temperature = {
+        "interpolated": {
+            **strings,
+            "description": "Specs the part gives at two or more ambients, interpolated "
+            "linearly in the ambient (held at the end values outside the data)",
+        },
+        "unknown": {
+            **strings,
+            "description": "Specs the part gives at one temperature: their spread over "
+            "temperature is unknown and not modelled",
+        },
+    }
     corner = _obj(
         {
             "check": {"enum": checks},
@@ -267,6 +304,7 @@ def spread_schema() -> dict[str, Any]:
             "parameters": {"type": "array", "items": parameter},
             "corners": {"type": "array", "items": corner},
             "fails_whatever_the_spread": strings,
+            "temperature": _obj(temperature),
             "evaluations": {"type": "integer", "minimum": 0},
             "method": text,
             "assumptions": strings,
@@ -320,6 +358,17 @@ def spread_schema() -> dict[str, Any]:
                 ),
             },
             "no_spread_known": strings,
+            "temperature": _obj(
+                {
+                    **temperature,
+                    "ambients_judged_c": {
+                        "type": "array",
+                        "items": {"type": ["number", "null"]},
+                        "description": "Ambients every board is judged at, degC, highest first "
+                        "(a board passes only if it passes at all of them)",
+                    },
+                }
+            ),
             "fix": {"oneOf": [{"type": "null"}, fix]},
         }
     )

@@ -7,30 +7,46 @@ README:
 * **catalogue specs** (every parameter of :data:`partsel.params.PARAMS`, and each rail's swing
   headroom curve as one parameter whose points move together):
 
-  - min, typ and max given: a *split normal* with its mode at typ and min / max at ±3σ on
-    their own side (σ_low = (typ − min) / 3, σ_high = (max − typ) / 3; K. F. Wallis, "The
-    two-piece normal, binormal, or double Gaussian distribution", *Statistical Science* 29,
-    2014): datasheet limits are often near ±3σ of production (design notes section 12;
-    common practice, an assumption). The range is [min, max];
+  - min, typ and max given: a *split normal* split at typ: below typ the lower half of a
+    normal with σ_low = (typ − min) / 3, above it the upper half of one with
+    σ_high = (max − typ) / 3, each half with probability 1/2 (typ is the median, and min and
+    max lie at the same quantiles, Φ(∓3), as in a normal): x = typ + σ_side · z for a
+    standard normal z, so a board keeps its quantile wherever σ_low, σ_high and typ move
+    (with the ambient, below). Datasheet limits are often near ±3σ of production (design
+    notes section 12; common practice, an assumption). When the sides differ the density
+    steps at typ; the range is [min, max];
   - typ and one limit: a normal at typ with that limit at 3σ, the range mirrored about typ;
   - min and max only: *uniform* between them;
   - typ only, or one limit only: no spread is known; the value is fixed at the one given
     (:data:`FIXED`) and the report says so.
 
-  Parameters that cannot be negative are folded at zero (their magnitude is taken), parameters
-  are independent of each other, and a part's spec is taken to hold over the design's ambient
-  range (the catalogue states each spec at one set of conditions, so its spread over temperature
-  is unknown and not modelled: no temperature coefficient is invented; the outputs say so,
-  :data:`partsel.solver.spread.export.ASSUMPTIONS`).
+  Parameters that cannot be negative are folded at zero (their magnitude is taken), and
+  parameters are independent of each other.
+* **temperature**: a spec the catalogue gives at two or more ambient temperatures (its own and
+  its ``temperature_points``; :attr:`partsel.solver.table.PartTable.temperature`) has its min,
+  typ and max each interpolated linearly in the ambient between the given temperatures and
+  held at the end values outside them (:func:`interpolate`: no slope is extrapolated beyond
+  the data, which would invent a temperature coefficient where the catalogue states none);
+  the distribution above is then built from the interpolated min / typ / max at each
+  ambient, and a part keeps its place in it across temperature (the same variates, so the
+  same normal quantile: a part that is low at 25 degC is low when hot). A spec given at one
+  temperature is taken to hold over the design's ambient range: its spread over temperature
+  is unknown and not modelled (no temperature coefficient is invented; the outputs list these
+  specs per part, :data:`partsel.solver.spread.export.ASSUMPTIONS`). The swing headroom
+  curves have no temperature points.
 * **design tolerances** (:attr:`partsel.physics.circuit.Design.tolerances`): uniform between
   the ends of the tolerance or range, or, when written with ``kσ``, a (split) normal with the
   ends at k standard deviations.
 * **the fix resistor** of a part whose verdict uses it: the recommended E-series value with the
   tolerance of its series (:data:`partsel.physics.eseries.SERIES_TOLERANCE`: E24 ±5 %, E96
   ±1 %, or the requirements' ``fix_tolerance``), uniform.
-* **the ambient**: not drawn. A board must work over the whole ambient range; of partsel's
-  checks only the junction temperature depends on the ambient, and it is highest at the
-  highest ambient, so every sample is judged there (the corner search takes both ends).
+* **the ambient**: not drawn. A board must work over the whole ambient range of the design,
+  so each board is judged at every ambient where a check can be worst and passes only if it
+  passes at all of them (:func:`ambients`): the highest ambient (where the junction is
+  hottest), and for a part with temperature data also the lowest ambient and every
+  temperature of its data inside the range (its specs are piecewise linear in the ambient,
+  with their extremes at those temperatures). The corner search takes the ambient as a
+  parameter between the two ends.
 
 Draws are reproducible: each part draws from its own stream, seeded by the seed and its part
 number (so a part's samples do not depend on which other parts are analysed with it), the
@@ -67,6 +83,75 @@ _SIGNED = {p.key for p in PARAMS if not p.nonnegative}
 _DESIGN_STREAM = 0x5EED
 
 
+def interpolate(tp: np.ndarray, vp: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """Piecewise-linear interpolation row by row: the values ``vp`` (R, M) given at the rising
+    temperatures ``tp`` (R, M; NaN-padded at the end, at least one per row) at ``x`` (R,),
+    held at the end values outside the given temperatures."""
+    tp, vp = np.asarray(tp, dtype=float), np.asarray(vp, dtype=float)
+    x = np.asarray(x, dtype=float)
+    r = np.arange(tp.shape[0])
+    n = np.sum(np.isfinite(tp), axis=1)
+    last = np.maximum(n - 1, 0)
+    xc = np.clip(x, tp[:, 0], tp[r, last])
+    with np.errstate(invalid="ignore"):
+        below = np.sum(np.where(np.isfinite(tp), tp <= xc[:, None], False), axis=1)
+    i0 = np.clip(below - 1, 0, np.maximum(n - 2, 0))
+    i1 = np.minimum(i0 + 1, last)
+    t0, t1, v0, v1 = tp[r, i0], tp[r, i1], vp[r, i0], vp[r, i1]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        w = np.where(t1 > t0, (xc - t0) / (t1 - t0), 0.0)
+    return v0 + w * (v1 - v0)
+
+
+@dataclass(frozen=True)
+class TemperatureCurves:
+    """The temperature data of one spread parameter of P parts: temperatures ``t`` (P, M),
+    rising and NaN-padded, and the spec's ``lo`` / ``typ`` / ``hi`` there (P, M; NaN where a
+    side is not given). A part without data has no finite temperature."""
+
+    t: np.ndarray
+    lo: np.ndarray
+    typ: np.ndarray
+    hi: np.ndarray
+
+    @property
+    def given(self) -> np.ndarray:
+        """(P,) True where the part gives the spec at two or more temperatures."""
+        return np.sum(np.isfinite(self.t), axis=1) >= 2
+
+    def take(self, index: np.ndarray) -> TemperatureCurves:
+        i = np.asarray(index)
+        return TemperatureCurves(self.t[i], self.lo[i], self.typ[i], self.hi[i])
+
+    def shrunk(self, factor: float) -> TemperatureCurves:
+        """Each side narrowed about typ by ``factor`` at every temperature (where typ is not
+        given, about the middle of min and max)."""
+        k = float(factor)
+        c = np.where(np.isnan(self.typ), 0.5 * (self.lo + self.hi), self.typ)
+        return TemperatureCurves(self.t, c + k * (self.lo - c), self.typ, c + k * (self.hi - c))
+
+    def at(self, rows: np.ndarray, x: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """min, typ, max of rows ``rows`` at the ambients ``x`` (R,), shape (R, 1) each."""
+        tp = self.t[rows]
+        return tuple(interpolate(tp, v[rows], x)[:, None] for v in (self.lo, self.typ, self.hi))  # type: ignore[return-value]
+
+
+def temperature_curves(
+    temperature: Any, part_keys: Sequence[str], key: str
+) -> TemperatureCurves | None:
+    """The curves of parameter ``key`` of parts ``part_keys`` (casefolded part numbers) from a
+    :data:`partsel.solver.table.TemperatureData` mapping; None when no part has any."""
+    curves = [temperature.get(pk, {}).get(key) for pk in part_keys]
+    if not any(curves):
+        return None
+    m = max(len(c) for c in curves if c)
+    arr = np.full((4, len(curves), m), np.nan)
+    for p, c in enumerate(curves):
+        if c:
+            arr[:, p, : len(c)] = np.asarray(c, dtype=float).T
+    return TemperatureCurves(arr[0], arr[1], arr[2], arr[3])
+
+
 @dataclass(frozen=True)
 class Spread:
     """One spread parameter of P parts (or of the design: P = 1); arrays of shape (P, K), K
@@ -87,6 +172,7 @@ class Spread:
     fold: bool = False
     origin: str = "catalogue"  #: "catalogue", "design", "fix"
     sigmas: np.ndarray | None = None  #: (P,) at how many σ the ends lie (normal), else NaN
+    temperature: TemperatureCurves | None = None  #: the spec at several ambients, if given
 
     @property
     def n(self) -> int:
@@ -94,9 +180,35 @@ class Spread:
         return int(self.kind.shape[0])
 
     @property
+    def over_temperature(self) -> np.ndarray:
+        """(P,) True where the spec is given at two or more ambient temperatures."""
+        if self.temperature is None:
+            return np.zeros(self.n, dtype=bool)
+        return self.temperature.given
+
+    @property
     def varies(self) -> np.ndarray:
-        """(P,) True where the parameter has a spread."""
-        return self.kind != FIXED
+        """(P,) True where the parameter has a spread or moves with the ambient."""
+        return (self.kind != FIXED) | self.over_temperature
+
+    def _sides_at(
+        self, rows: np.ndarray, ambient: np.ndarray | float | None
+    ) -> tuple[np.ndarray, ...]:
+        """kind (R, 1), centre, σ_low, σ_high, low, high (R, K) of rows at ``ambient`` (R,):
+        interpolated where the part gives temperature data, else as stated."""
+        out = (self.kind[rows][:, None], self.centre[rows], self.sigma_low[rows],
+               self.sigma_high[rows], self.low[rows], self.high[rows])  # fmt: skip
+        tc = self.temperature
+        if tc is None or ambient is None:
+            return out
+        on = tc.given[rows]
+        if not on.any():
+            return out
+        x = np.broadcast_to(np.asarray(ambient, dtype=float), rows.shape)
+        lo, typ, hi = tc.at(rows, x)
+        kind_k, centre, s1, s2, e_lo, e_hi = _spec_spread(self.key, lo, typ, hi, self.fold)
+        new = (kind_k.astype(np.int8), centre, s1, s2, e_lo, e_hi)
+        return tuple(np.where(on[:, None], n, o) for n, o in zip(new, out, strict=True))
 
     def take(self, index: np.ndarray) -> Spread:
         """The parameter of some parts."""
@@ -112,42 +224,52 @@ class Spread:
             self.fold,
             self.origin,
             None if self.sigmas is None else self.sigmas[idx],
+            None if self.temperature is None else self.temperature.take(idx),
         )
 
     def shrunk(self, factor: float) -> Spread:
         """The same distribution narrowed about its centre by ``factor`` (0: no spread left)."""
         c, k = self.centre, float(factor)
+        tc = None if self.temperature is None else self.temperature.shrunk(k)
         return Spread(self.key, self.kind, c, self.sigma_low * k, self.sigma_high * k,
                       c + k * (self.low - c), c + k * (self.high - c), self.fold, self.origin,
-                      self.sigmas)  # fmt: skip
+                      self.sigmas, tc)  # fmt: skip
 
     def fixed(self) -> Spread:
-        """The parameter without spread (every part at its centre)."""
+        """The parameter without spread (every part at its centre; a spec with temperature
+        data keeps its typical value's movement with the ambient)."""
         c = self.centre
         zero = np.zeros_like(c)
+        tc = None if self.temperature is None else self.temperature.shrunk(0.0)
         return Spread(self.key, np.zeros_like(self.kind), c, zero, zero, c, c, self.fold,
-                      self.origin)  # fmt: skip
+                      self.origin, None, tc)  # fmt: skip
 
-    def draw(self, rows: np.ndarray, u: np.ndarray, z: np.ndarray) -> np.ndarray:
+    def draw(
+        self,
+        rows: np.ndarray,
+        u: np.ndarray,
+        z: np.ndarray,
+        ambient: np.ndarray | float | None = None,
+    ) -> np.ndarray:
         """Values of rows ``rows`` (indices into the parts) from uniform ``u`` and standard
-        normal ``z`` variates (one per row): shape (R, K)."""
-        kind = self.kind[rows][:, None]
-        lo, hi = self.low[rows], self.high[rows]
-        c, s1, s2 = self.centre[rows], self.sigma_low[rows], self.sigma_high[rows]
-        uu, zz = u[:, None], np.abs(z)[:, None]
-        with np.errstate(invalid="ignore", divide="ignore"):
-            # split normal: the lower half with probability s1 / (s1 + s2) (Wallis 2014)
-            p_low = np.where(s1 + s2 > 0, s1 / (s1 + s2), 0.5)
-            normal = np.where(uu < p_low, c - s1 * zz, c + s2 * zz)
+        normal ``z`` variates (one per row), at the ambient ``ambient`` (degC, one per row or
+        one for all; None: each spec as stated): shape (R, K)."""
+        kind, c, s1, s2, lo, hi = self._sides_at(rows, ambient)
+        uu, zz = u[:, None], z[:, None]
+        # split at typ (the median): each half of its own normal, so x is monotonic in z
+        normal = c + np.where(zz < 0, s1, s2) * zz
         out = np.where(kind == UNIFORM, lo + uu * (hi - lo), np.where(kind == NORMAL, normal, c))
         return np.abs(out) if self.fold else out
 
-    def at(self, rows: np.ndarray, t: np.ndarray) -> np.ndarray:
-        """Values at the fractions ``t`` of the range (0: low end, 1: high end; one per row),
-        shape (R, K); a fixed parameter keeps its value."""
-        lo, hi = self.low[rows], self.high[rows]
+    def at(
+        self, rows: np.ndarray, t: np.ndarray, ambient: np.ndarray | float | None = None
+    ) -> np.ndarray:
+        """Values at the fractions ``t`` of the range (0: low end, 1: high end; one per row) at
+        the ambient ``ambient`` (as :meth:`draw`), shape (R, K); a fixed parameter keeps its
+        value (at that ambient)."""
+        kind, c, _, _, lo, hi = self._sides_at(rows, ambient)
         tt = np.asarray(t, dtype=float)[:, None]
-        out = np.where(self.varies[rows][:, None], lo + tt * (hi - lo), self.centre[rows])
+        out = np.where(kind != FIXED, lo + tt * (hi - lo), c)
         return np.abs(out) if self.fold else out
 
 
@@ -186,8 +308,9 @@ def _spec_spread(
 
 def part_spreads(table: PartTable, rows: np.ndarray) -> list[Spread]:
     """The catalogue spread parameters of parts ``rows`` of ``table`` (see the module
-    docstring), in :data:`PART_KEYS` order."""
+    docstring), in :data:`PART_KEYS` order, with their temperature data where given."""
     idx = np.asarray(rows, dtype=int)
+    keys = [str(k) for k in table.part_key[idx]]
     out: list[Spread] = []
     for key in PART_KEYS:
         if key in SWING_RAILS:
@@ -210,7 +333,8 @@ def part_spreads(table: PartTable, rows: np.ndarray) -> list[Spread]:
         kind = kind_k[np.arange(idx.size), first].astype(np.int8)
         kind = np.where(given.any(axis=1), kind, FIXED).astype(np.int8)
         sig = np.where(kind == NORMAL, SPEC_SIGMAS, np.nan)
-        out.append(Spread(key, kind, centre, s1, s2, e_lo, e_hi, fold, "catalogue", sig))
+        tc = None if key in SWING_RAILS else temperature_curves(table.temperature, keys, key)
+        out.append(Spread(key, kind, centre, s1, s2, e_lo, e_hi, fold, "catalogue", sig, tc))
     return out
 
 

@@ -25,7 +25,7 @@ import numpy as np
 from partsel.physics import eseries
 from partsel.solver import checks as C
 from partsel.solver.requirements import DEFAULT_YIELD_SAMPLES, DEFAULT_YIELD_SEED
-from partsel.solver.spread.evaluate import CHUNK_ROWS, Board, evaluate_rows
+from partsel.solver.spread.evaluate import AMBIENT_KEY, CHUNK_ROWS, Board, ambients, evaluate_rows
 from partsel.solver.spread.model import (
     DISTRIBUTION,
     FIXED,
@@ -45,10 +45,12 @@ PERCENTILES = (1.0, 5.0, 50.0, 95.0, 99.0)
 TOP_CORRELATED = 3
 #: The fix series' values searched for the largest reaching a target yield: from this factor
 #: above the recommended value down to this factor below it, largest first, at most
-#: FIX_CANDIDATES of them. The search stops at the first value that reaches the target, or
-#: below the recommendation once the yield stops rising (the yield rises as a smaller
-#: resistor keeps more boards in one mode, then falls as it loads the output: an assumption
-#: that holds for the pull-down and the pull-up alike).
+#: FIX_CANDIDATES of them. The yield is taken to rise as a smaller resistor keeps more boards
+#: in one mode, then fall as it loads the output (an assumption that holds for the pull-down
+#: and the pull-up alike; tests/test_spread.py checks the search against every value): where
+#: the recommendation reaches the target, the largest value above it that does is found by
+#: bisection; where it does not, smaller values are tried until one does or the yield stops
+#: rising.
 FIX_RANGE = 2.0
 FIX_CANDIDATES = 40
 #: Random variates each part draws per sample: its catalogue parameters, then its fix resistor
@@ -91,6 +93,11 @@ class PartYield:
     correlated: list[tuple[str, float]]  #: (parameter, correlation with failure), strongest first
     fixed_params: list[str]  #: catalogue parameters without a known spread
     fix: FixYield | None = None
+    over_temperature: list[str] = field(default_factory=list)
+    """specs given at several ambients (interpolated in the ambient)"""
+    temperature_unknown: list[str] = field(default_factory=list)
+    """specs given at one ambient: their spread over temperature is unknown, not modelled"""
+    ambients_c: list[float] = field(default_factory=list)  #: ambients every board is judged at
     thd: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
     handover_level: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
 
@@ -150,21 +157,83 @@ class _Draws:
         return self._part[p]
 
     def rows(
-        self, pos: np.ndarray, samples: np.ndarray
+        self, pos: np.ndarray, samples: np.ndarray, ambient: float | None = None
     ) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray], np.ndarray, np.ndarray]:
-        """Part values, circuit values, fix resistor values and its variate, of rows."""
+        """Part values (at ``ambient``, degC: the same variates at every ambient), circuit
+        values (the junction judged at ``ambient`` when given), fix resistor values and its
+        variate, of rows."""
         u = np.empty((pos.size, len(STREAM_KEYS)))
         z = np.empty_like(u)
         for p in np.unique(pos):
             sel = pos == p
             pu, pz = self.part(int(p))
             u[sel], z[sel] = pu[samples[sel]], pz[samples[sel]]
-        values = {s.key: s.draw(pos, u[:, self.keys[s.key]], z[:, self.keys[s.key]])
+        values = {s.key: s.draw(pos, u[:, self.keys[s.key]], z[:, self.keys[s.key]], ambient)
                   for s in self.b.parts if s.varies[pos].any()}  # fmt: skip
         circuit = {k: v[samples] for k, v in self.circuit.items()}
+        if ambient is not None and ambient != float(self.b.design.t_ambient_max_c):
+            circuit[AMBIENT_KEY] = np.full(pos.size, float(ambient))
         jf = self.keys["fix_resistor"]
         fix = self.b.fix.spread().draw(pos, u[:, jf], z[:, jf])[:, 0]
         return values, circuit, fix, u[:, jf]
+
+
+@dataclass
+class _Judged:
+    """Boards judged at every ambient of :func:`partsel.solver.spread.evaluate.ambients`:
+    a board passes, meets a check or stays in one mode only if it does at every ambient; its
+    THD and handover level are the largest over them; its drawn values are those at the
+    highest ambient."""
+
+    passed: np.ndarray
+    failing: np.ndarray
+    one_mode: np.ndarray
+    thd: np.ndarray
+    handover: np.ndarray
+    level: np.ndarray
+    values: dict[str, np.ndarray]
+    circuit: dict[str, np.ndarray]
+    fix_r: np.ndarray
+    u_fix: np.ndarray
+
+
+def _judge(
+    draws: _Draws,
+    temps: list[tuple[float, np.ndarray]],
+    pos: np.ndarray,
+    samples: np.ndarray,
+    *,
+    fix_r: np.ndarray | None = None,
+    verdict_only: bool = False,
+) -> _Judged:
+    """Judge rows (``fix_r``: the fix resistor of each row instead of the drawn one)."""
+    b = draws.b
+    out: _Judged | None = None
+    for t, parts in temps:
+        sel = np.flatnonzero(parts[pos])
+        if sel.size == 0:
+            continue
+        values, circuit, fix_d, u_fix = draws.rows(pos[sel], samples[sel], t)
+        r = fix_d if fix_r is None else fix_r[sel]
+        res = evaluate_rows(b, pos[sel], values, circuit, r, verdict_only=verdict_only)
+        cf = res.closed
+        thd = res.checks.value[:, C.IDX["thd"]]
+        level = np.where(cf.handover, cf.handover_out_v, np.nan)
+        if out is None:  # the highest ambient: every row
+            assert sel.size == pos.size
+            out = _Judged(res.passed.copy(), res.checks.failing.copy(),
+                          cf.conduction == "one-mode", thd.copy(), cf.handover.copy(),
+                          level, values, circuit, r, u_fix)  # fmt: skip
+            continue
+        out.passed[sel] &= res.passed
+        out.failing[sel] |= res.checks.failing
+        out.one_mode[sel] &= cf.conduction == "one-mode"
+        with np.errstate(invalid="ignore"):
+            out.thd[sel] = np.fmax(out.thd[sel], thd)
+            out.level[sel] = np.fmax(out.level[sel], level)
+        out.handover[sel] |= cf.handover
+    assert out is not None
+    return out
 
 
 def _percentiles(x: np.ndarray) -> dict[float, float]:
@@ -218,26 +287,25 @@ def part_yields(
             }
             for _ in range(b.n_parts)
         ]
+    temps = ambients(b)
     for pos, samples in _chunks(b.n_parts, n):
-        values, circuit, fix_r, _ = draws.rows(pos, samples)
-        res = evaluate_rows(b, pos, values, circuit, fix_r, verdict_only=not detail)
+        res = _judge(draws, temps, pos, samples, verdict_only=not detail)
+        values, circuit, fix_r = res.values, res.circuit, res.fix_r
         np.add.at(passed, pos, res.passed.astype(np.int64))
         if progress is not None:
             progress(int(pos.size))
         if records is None:
             continue
-        fail = res.checks.failing
-        cf = res.closed
         for p in np.unique(pos):
             sel = pos == p
             s = samples[sel]
             rec = records[int(p)]
             rec["pass"][s] = res.passed[sel]
-            rec["fail_checks"][s] = fail[sel]
-            rec["one_mode"][s] = cf.conduction[sel] == "one-mode"
-            rec["thd"][s] = res.checks.value[sel, C.IDX["thd"]]
-            rec["handover"][s] = cf.handover[sel]
-            rec["level"][s] = np.where(cf.handover[sel], cf.handover_out_v[sel], np.nan)
+            rec["fail_checks"][s] = res.failing[sel]
+            rec["one_mode"][s] = res.one_mode[sel]
+            rec["thd"][s] = res.thd[sel]
+            rec["handover"][s] = res.handover[sel]
+            rec["level"][s] = res.level[sel]
             params = rec["params"]
             for key, v in values.items():
                 if b.spread(key).varies[p]:
@@ -249,47 +317,72 @@ def part_yields(
     return passed, records
 
 
+def fix_yield(b: Board, p: int, n: int, seed: int, r_ohm: float) -> float:
+    """The yield of part ``p`` with the fix resistor ``r_ohm`` (nominal, ohm) fitted instead of
+    the recommended one, on the same ``n`` boards as :func:`part_yields` (the resistor's own
+    variate scales it within the series' tolerance)."""
+    draws = _Draws(b, n, seed)
+    pos = np.full(n, p)
+    samples = np.arange(n)
+    temps = ambients(b)
+    _, _, _, u_fix = draws.rows(pos, samples)
+    factor = 1.0 + b.fix.tolerance * (2.0 * u_fix - 1.0)  # the same draw as the recommended's
+    passed = 0
+    for s0 in range(0, n, CHUNK_ROWS):
+        sl = slice(s0, min(s0 + CHUNK_ROWS, n))
+        res = _judge(draws, temps, pos[sl], samples[sl], fix_r=r_ohm * factor[sl],
+                     verdict_only=True)  # fmt: skip
+        passed += int(res.passed.sum())
+    return passed / n
+
+
 def _fix_search(
     b: Board, p: int, n: int, seed: int, series: str, target: float | None, base_yield: float
 ) -> FixYield:
     """The recommended fix of part ``p`` and the largest value of ``series`` reaching
-    ``target``, on the same boards (the resistor's own variate scales each candidate)."""
+    ``target``, on the same boards (see :data:`FIX_RANGE` for the shape of the yield assumed:
+    above the recommendation it falls as the resistor grows, so the largest value reaching the
+    target there is found by bisection; below it the values are tried downwards)."""
     rail = str(b.fix.rail[p])
     r_rec = float(b.fix.r_ohm[p])
     tol = b.fix.tolerance
     if target is None:
         return FixYield(rail, r_rec, series, tol, base_yield)
-    draws = _Draws(b, n, seed)
-    pos = np.full(n, p)
-    samples = np.arange(n)
-    values, circuit, _, u_fix = draws.rows(pos, samples)
-    factor = 1.0 + tol * (2.0 * u_fix - 1.0)  # the same draw as the recommended value's
-    cands = eseries.preferred_values(series, r_rec / FIX_RANGE, r_rec * FIX_RANGE)[::-1]
-    tried: list[tuple[float, float]] = []
-    best: tuple[float, float] | None = None
-    for r in cands[:FIX_CANDIDATES]:
-        if r == r_rec:
-            y = base_yield
-        else:
-            passed = 0
-            for s0 in range(0, n, CHUNK_ROWS):
-                sl = slice(s0, min(s0 + CHUNK_ROWS, n))
-                res = evaluate_rows(
-                    b, pos[sl], {k: v[sl] for k, v in values.items()},
-                    {k: v[sl] for k, v in circuit.items()}, r * factor[sl], verdict_only=True,
-                )  # fmt: skip
-                passed += int(res.passed.sum())
-            y = passed / n
-        past_peak = bool(tried) and r < r_rec and y <= tried[-1][1]
-        tried.append((float(r), y))
-        if y >= target:
-            best = (float(r), y)
-            break
-        if past_peak:  # below the recommendation the yield only falls from here
-            break
+    cands = [float(r) for r in eseries.preferred_values(series, r_rec / FIX_RANGE,
+                                                         r_rec * FIX_RANGE)[::-1]]  # fmt: skip
+    cands = cands[:FIX_CANDIDATES]
+    tried: dict[float, float] = {}
+
+    def y_of(r: float) -> float:
+        if r not in tried:
+            tried[r] = base_yield if r == r_rec else fix_yield(b, p, n, seed, r)
+        return tried[r]
+
+    best: float | None = None
+    above = [r for r in cands if r > r_rec]  # largest first
+    if y_of(r_rec) >= target:
+        lo, hi = 0, len(above)  # the first of `above` reaching the target (len: none does)
+        while lo < hi:
+            mid = (lo + hi) // 2
+            if y_of(above[mid]) >= target:
+                hi = mid
+            else:
+                lo = mid + 1
+        best = above[lo] if lo < len(above) else r_rec
+    else:
+        previous = tried[r_rec]
+        for r in (r for r in cands if r < r_rec):
+            y = y_of(r)
+            if y >= target:
+                best = r
+                break
+            if y <= previous:  # past the peak: below it the yield only falls
+                break
+            previous = y
+    order = tuple(sorted(tried.items(), reverse=True))
     return FixYield(
         rail, r_rec, series, tol, base_yield, target,
-        None if best is None else best[0], None if best is None else best[1], tuple(tried),
+        best, None if best is None else tried[best], order,
     )  # fmt: skip
 
 
@@ -310,6 +403,7 @@ def analyse(
     passed, records = part_yields(b, n, seed, detail=True, progress=progress)
     assert records is not None
     out = []
+    temps = ambients(b)
     checked = [j for j, c in enumerate(C.CHECKS) if c.sense != "is"]
     for p, rec in enumerate(records):
         k = int(passed[p])
@@ -321,6 +415,7 @@ def analyse(
         fix = None
         if b.fix.fitted[p]:
             fix = _fix_search(b, p, n, seed, series, target, k / n)
+        known, unknown = b.temperature_keys(p)
         out.append(
             PartYield(
                 part_number=b.part_numbers[p],
@@ -338,6 +433,9 @@ def analyse(
                 correlated=_correlations(rec["params"], ~rec["pass"]),
                 fixed_params=[s.key for s in b.parts if s.kind[p] == FIXED],
                 fix=fix,
+                over_temperature=known,
+                temperature_unknown=unknown,
+                ambients_c=[t for t, on in temps if on[p]],
                 thd=rec["thd"],
                 handover_level=rec["level"][np.isfinite(rec["level"])],
             )
