@@ -314,24 +314,27 @@ def _glitch_thd_exact(
     amplitudes of one such pulse per period follow from the Fourier integrals of a ramp and an
     exponential; the edges are added in power (their phase relation is left out: for the two
     opposite pulses of a sine it changes the sum by about 1 %, and leaving it out keeps the
-    estimate monotonic in every part parameter). The sine's own harmonics are zero, so these
+    estimate monotonic in every part parameter). The arrays broadcast against each other
+    (the result has their broadcast shape). The sine's own harmonics are zero, so these
     are the distortion. Truncating at ``H`` as :func:`partsel.physics.spectrum.thd` does keeps
     both on one definition (a short glitch
     spreads its energy far above the 40th harmonic).
     """
-    n = edges[0][0].size if edges else 0
-    if amp <= 0 or n == 0:
-        return np.zeros(n)
-    wk = np.arange(2, n_harmonics + 1, dtype=float)[None, :] * omega
-    power = np.zeros(n)
+    shape = np.broadcast_shapes(*(np.shape(a) for e in edges for a in e)) if edges else (0,)
+    if amp <= 0 or math.prod(shape) == 0:
+        return np.zeros(shape)
+    wk = np.arange(2, n_harmonics + 1, dtype=float) * omega  # the harmonic axis is the last
+    power = np.zeros(shape)
     for slope, tau, t_rec in edges:
-        tau_c = tau[:, None]
+        tau_c = np.asarray(tau)[..., None]
         ramp = _ramp_transform(wk, tau_c)
-        t_rec_c = t_rec[:, None]
+        t_rec_c = np.asarray(t_rec)[..., None]
         tail = tau_c * t_rec_c * np.exp(-1j * wk * tau_c) / (1.0 + 1j * wk * t_rec_c)
-        # One-sided amplitude a_k = (2 / T) |integral|, with 1 / T = omega / (2 pi).
-        a_k = slope[:, None] * np.abs(ramp + tail) * (omega / np.pi)
-        power += np.sum(a_k**2, axis=1)
+        # One-sided amplitude a_k = (2 / T) |integral|, with 1 / T = omega / (2 pi); summed in
+        # power, |integral|^2 without the square root
+        z = ramp + tail
+        gain = (np.asarray(slope) * (omega / np.pi)) ** 2
+        power = power + gain * np.sum(z.real**2 + z.imag**2, axis=-1)
     return np.sqrt(power) / amp
 
 
@@ -345,11 +348,10 @@ def _pulse_table(n_harmonics: int) -> np.ndarray:
     ``rho = t_rec / tau`` (0 to 1), shape (601, 41)."""
     u = np.exp(np.linspace(np.log(_U_LO), np.log(_U_HI), _N_U))[:, None]
     rho = np.linspace(0.0, 1.0, _N_RHO)[None, :]
-    uu, rr = np.broadcast_arrays(u, rho)
-    one = np.ones(uu.size)
-    # omega = 1, slope = pi: the exact routine then returns sqrt(S) / amp with amp = 1
-    thd = _glitch_thd_exact(1.0, 1.0, [(np.pi * one, uu.ravel(), (uu * rr).ravel())], n_harmonics)
-    return np.log(np.maximum(thd, 1e-300) ** 2).reshape(uu.shape)
+    # omega = 1, slope = pi: the exact routine then returns sqrt(S) / amp with amp = 1; tau
+    # has shape (601, 1), so the parts of the pulse that do not depend on rho are computed once
+    thd = _glitch_thd_exact(1.0, 1.0, [(np.array(np.pi), u, u * rho)], n_harmonics)
+    return np.log(np.maximum(thd, 1e-300) ** 2)
 
 
 def _glitch_thd(
