@@ -1,0 +1,26 @@
+"""Shared checks of the spread tests."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from partsel.solver import checks as C
+from partsel.solver.spread.corners import CornerAnalysis
+
+
+def assert_corners_match(result: CornerAnalysis, margins: np.ndarray) -> int:
+    """Every corner of ``result`` against the brute-force ``margins`` (rows: the points tried,
+    columns: the checks): a corner found at a vertex has the worst margin of them all (to
+    1e-9 relative), a sampled one a margin at least as low. Returns how many were sampled."""
+    sampled = 0
+    for c in result.corners:
+        j = C.IDX[c.check]
+        worst = float(np.nanmin(margins[:, j]))
+        tol = 1e-9 * max(1.0, abs(worst))
+        if c.method == "vertex":
+            assert c.margin == pytest.approx(worst, rel=1e-9, abs=tol), c.check
+        else:
+            sampled += 1
+            assert c.margin <= worst + tol, c.check
+    return sampled
