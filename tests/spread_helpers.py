@@ -24,3 +24,12 @@ def assert_corners_match(result: CornerAnalysis, margins: np.ndarray) -> int:
             sampled += 1
             assert c.margin <= worst + tol, c.check
     return sampled
+
+
+def near_a_limit(result: CornerAnalysis, rel: float = 1e-4) -> bool:
+    """Whether some check's worst corner lies within ``rel`` (relative) of its limit, where a
+    narrowed spread may still straddle it (a margin of exactly 0 is a limit met exactly, e.g.
+    a rated ambient, and does not count)."""
+    return any(
+        0 < abs(c.margin) <= rel * max(abs(c.value), abs(c.limit), 1e-30) for c in result.corners
+    )

@@ -24,7 +24,7 @@ import yaml
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy import stats
-from spread_helpers import assert_corners_match
+from spread_helpers import assert_corners_match, near_a_limit
 from typer.testing import CliRunner
 
 from partsel.catalogue import load_paths, open_catalogue, parts_frame, temperature_data
@@ -215,10 +215,7 @@ def test_yield_converges_to_the_corner_verdict_over_temperature(
     decided = 0
     for p in range(len(WITH_POINTS)):
         ca = corners(b, p)
-        near = any(
-            0 < abs(c.margin) <= 1e-4 * max(abs(c.value), abs(c.limit), 1e-30) for c in ca.corners
-        )
-        if near:
+        if near_a_limit(ca):
             continue
         decided += 1
         assert passed[p] == (100 if ca.passes else 0), b.part_numbers[p]

@@ -317,23 +317,33 @@ def part_yields(
     return passed, records
 
 
-def fix_yield(b: Board, p: int, n: int, seed: int, r_ohm: float) -> float:
-    """The yield of part ``p`` with the fix resistor ``r_ohm`` (nominal, ohm) fitted instead of
-    the recommended one, on the same ``n`` boards as :func:`part_yields` (the resistor's own
-    variate scales it within the series' tolerance)."""
+def _fix_yields(b: Board, p: int, n: int, seed: int) -> Callable[[float], float]:
+    """The yield of part ``p`` as a function of the nominal fix resistor (ohm), on the same
+    ``n`` boards as :func:`part_yields` (drawn once here, for every value asked; the
+    resistor's own variate scales each value within the series' tolerance)."""
     draws = _Draws(b, n, seed)
     pos = np.full(n, p)
     samples = np.arange(n)
     temps = ambients(b)
     _, _, _, u_fix = draws.rows(pos, samples)
     factor = 1.0 + b.fix.tolerance * (2.0 * u_fix - 1.0)  # the same draw as the recommended's
-    passed = 0
-    for s0 in range(0, n, CHUNK_ROWS):
-        sl = slice(s0, min(s0 + CHUNK_ROWS, n))
-        res = _judge(draws, temps, pos[sl], samples[sl], fix_r=r_ohm * factor[sl],
-                     verdict_only=True)  # fmt: skip
-        passed += int(res.passed.sum())
-    return passed / n
+
+    def yield_of(r_ohm: float) -> float:
+        passed = 0
+        for s0 in range(0, n, CHUNK_ROWS):
+            sl = slice(s0, min(s0 + CHUNK_ROWS, n))
+            res = _judge(draws, temps, pos[sl], samples[sl], fix_r=r_ohm * factor[sl],
+                         verdict_only=True)  # fmt: skip
+            passed += int(res.passed.sum())
+        return passed / n
+
+    return yield_of
+
+
+def fix_yield(b: Board, p: int, n: int, seed: int, r_ohm: float) -> float:
+    """The yield of part ``p`` with the fix resistor ``r_ohm`` (nominal, ohm) fitted instead of
+    the recommended one, on the same ``n`` boards as :func:`part_yields`."""
+    return _fix_yields(b, p, n, seed)(r_ohm)
 
 
 def _fix_search(
@@ -352,10 +362,11 @@ def _fix_search(
                                                          r_rec * FIX_RANGE)[::-1]]  # fmt: skip
     cands = cands[:FIX_CANDIDATES]
     tried: dict[float, float] = {}
+    yield_with = _fix_yields(b, p, n, seed)
 
     def y_of(r: float) -> float:
         if r not in tried:
-            tried[r] = base_yield if r == r_rec else fix_yield(b, p, n, seed, r)
+            tried[r] = base_yield if r == r_rec else yield_with(r)
         return tried[r]
 
     best: float | None = None
