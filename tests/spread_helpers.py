@@ -6,7 +6,9 @@ import numpy as np
 import pytest
 
 from partsel.solver import checks as C
+from partsel.solver.spread import corners, part_yields
 from partsel.solver.spread.corners import CornerAnalysis
+from partsel.solver.spread.evaluate import Board
 
 
 def assert_corners_match(result: CornerAnalysis, margins: np.ndarray) -> int:
@@ -33,3 +35,18 @@ def near_a_limit(result: CornerAnalysis, rel: float = 1e-4) -> bool:
     return any(
         0 < abs(c.margin) <= rel * max(abs(c.value), abs(c.limit), 1e-30) for c in result.corners
     )
+
+
+def assert_yield_is_corner_verdict(b: Board, parts: range, n: int, seed: int) -> int:
+    """Monte Carlo over ``n`` boards of each part of ``parts`` (indices into ``b``) yields 100 %
+    where its worst corner passes and 0 % where it fails, leaving out parts with a corner
+    :func:`near_a_limit`. Returns how many parts were decided."""
+    passed, _ = part_yields(b, n, seed=seed, detail=False)
+    decided = 0
+    for p in parts:
+        ca = corners(b, p)
+        if near_a_limit(ca):
+            continue
+        decided += 1
+        assert passed[p] == (n if ca.passes else 0), b.part_numbers[p]
+    return decided
