@@ -151,6 +151,17 @@ def err_console() -> Console:
     return Console(stderr=True, highlight=False)
 
 
+def compile_notice() -> None:
+    """Tell a person at a terminal why the first simulation on this machine takes long (numba
+    compiles the stepper once: 9 to 12 s in ``tests/bench/bench_physics.py``, longer on a busy
+    machine); nothing in pipes."""
+    if err_console().is_terminal:
+        message(
+            "first simulation on this machine: compiling partsel's simulation engine "
+            "(once per machine; this takes a while)"
+        )
+
+
 #: Width of tables written to a file or a pipe when ``COLUMNS`` does not say otherwise.
 PIPE_WIDTH = 120
 

@@ -22,7 +22,8 @@ from partsel.cli import (
     spread_cmds,
     vet_cmds,
 )
-from partsel.cli.common import RUNNING, AppState, ExitCode
+from partsel.cli.common import RUNNING, AppState, ExitCode, compile_notice
+from partsel.physics.stepper_layout import COMPILE_LISTENERS
 
 app = typer.Typer(
     name="partsel",
@@ -77,6 +78,8 @@ def main(
 ) -> None:
     """Choose op-amps for single-supply designs."""
     RUNNING["command"] = ctx.invoked_subcommand
+    if compile_notice not in COMPILE_LISTENERS:
+        COMPILE_LISTENERS.append(compile_notice)
     st = AppState(db_url=db, read_only=read_only, user=user)
     ctx.obj = st
     ctx.call_on_close(st.close)

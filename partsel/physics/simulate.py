@@ -327,6 +327,7 @@ def simulate(
     flags = np.zeros((p, 4), dtype=np.int64)
     pos_h, pos_i, neg_h, neg_i = _curves(stage)
     grp = np.arange(p, dtype=np.int64) if batch else np.zeros(p, dtype=np.int64)
+    _st.before_stepper_import()
     from partsel.physics import stepper  # numba: loaded when a simulation runs, not before
 
     runner = stepper.run_parallel if p >= PARALLEL_PARTS else stepper.run

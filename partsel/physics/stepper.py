@@ -38,10 +38,10 @@ import os
 import sys
 import time
 
-import platformdirs
+from partsel.physics.stepper_layout import cache_dir
 
 if not os.environ.get("NUMBA_CACHE_DIR"):
-    os.environ["NUMBA_CACHE_DIR"] = os.path.join(platformdirs.user_cache_dir("partsel"), "numba")
+    os.environ["NUMBA_CACHE_DIR"] = str(cache_dir())
 
 import numba
 import numpy as np

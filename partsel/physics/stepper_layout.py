@@ -7,6 +7,11 @@ layout here lets the closed form and the deck writer run without loading numba.
 
 from __future__ import annotations
 
+import os
+import sys
+from collections.abc import Callable
+from pathlib import Path
+
 # Column order of the per-part parameter matrix (see simulate.part_matrix).
 (
     P_TOPO,
@@ -60,3 +65,36 @@ MAX_BAD_SHARE = 0.5
 ITERATION_BUDGET = 40
 #: Why a part was given up (``flags[:, 3]`` of the stepper).
 GIVE_UP_NON_FINITE, GIVE_UP_UNCONVERGED, GIVE_UP_WORK = 1, 2, 3
+
+
+def cache_dir() -> Path:
+    """Folder of the stepper's numba cache: ``NUMBA_CACHE_DIR`` where set, else the sub-folder
+    ``numba`` of the user cache folder (``platformdirs.user_cache_dir("partsel")``)."""
+    given = os.environ.get("NUMBA_CACHE_DIR")
+    if given:
+        return Path(given)
+    import platformdirs
+
+    return Path(platformdirs.user_cache_dir("partsel")) / "numba"
+
+
+def compiled_cache_present() -> bool:
+    """True where this interpreter's compiled stepper is in :func:`cache_dir` (numba's index
+    file of ``stepper.run``, one sub-folder per source folder). False: the first simulation of
+    this process compiles it (seconds to a minute, once per machine)."""
+    tag = f"py{sys.version_info.major}{sys.version_info.minor}"
+    return any(cache_dir().glob(f"*/stepper.run-*.{tag}.nbi"))
+
+
+#: Called (no arguments) just before a simulation compiles the stepper because
+#: :func:`compiled_cache_present` is False; the command line registers one that tells the user.
+COMPILE_LISTENERS: list[Callable[[], None]] = []
+
+
+def before_stepper_import() -> None:
+    """Tell :data:`COMPILE_LISTENERS` when loading the stepper will compile it (once a
+    process, and only while the stepper is not loaded yet)."""
+    if "partsel.physics.stepper" in sys.modules or compiled_cache_present():
+        return
+    for listener in COMPILE_LISTENERS:
+        listener()
