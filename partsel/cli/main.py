@@ -25,6 +25,8 @@ from partsel.cli import (
 from partsel.cli.common import RUNNING, AppState, ExitCode, compile_notice
 from partsel.physics.stepper_layout import COMPILE_LISTENERS
 
+COMPILE_LISTENERS.append(compile_notice)  # once, when the command line is loaded
+
 app = typer.Typer(
     name="partsel",
     help="Choose op-amps for single-supply designs: catalogue, prediction and ranking.",
@@ -78,8 +80,6 @@ def main(
 ) -> None:
     """Choose op-amps for single-supply designs."""
     RUNNING["command"] = ctx.invoked_subcommand
-    if compile_notice not in COMPILE_LISTENERS:
-        COMPILE_LISTENERS.append(compile_notice)
     st = AppState(db_url=db, read_only=read_only, user=user)
     ctx.obj = st
     ctx.call_on_close(st.close)

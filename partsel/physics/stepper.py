@@ -40,8 +40,7 @@ import time
 
 from partsel.physics.stepper_layout import cache_dir
 
-if not os.environ.get("NUMBA_CACHE_DIR"):
-    os.environ["NUMBA_CACHE_DIR"] = str(cache_dir())
+os.environ["NUMBA_CACHE_DIR"] = str(cache_dir())  # the given folder, or partsel's default
 
 import numba
 import numpy as np
