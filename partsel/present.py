@@ -36,6 +36,13 @@ PREFIXES: tuple[tuple[float, str], ...] = (
 
 MISSING = "—"
 
+#: Said (command line and terminal UI) before the first simulation on a machine compiles the
+#: stepper (numba, once per machine: 9 to 12 s in tests/bench/bench_physics.py).
+COMPILE_NOTICE = (
+    "first simulation on this machine: compiling partsel's simulation engine "
+    "(once per machine; this takes a while)"
+)
+
 
 def finite(value: Any) -> bool:
     """True for a finite real number (False for None, NaN, text)."""

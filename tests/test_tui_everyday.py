@@ -690,3 +690,33 @@ def test_new_design_mapping_matches_reader(tui_engine: Any, tmp_path: Path) -> N
         assert made == design_from_mapping(data)
 
     drive(app, scenario)
+
+
+def _notices(app: Any) -> list[str]:
+    return [n.message for n in app._notifications]
+
+
+def test_first_compile_is_announced(tui_engine: Any, tmp_path: Path) -> None:
+    """Before a simulation compiles the stepper (numba, once per machine) the UI says so in the
+    command line's words (``present.COMPILE_NOTICE``): heard before the app is up, it is shown
+    when it mounts; heard later in a worker thread, at once; the listener goes with the app."""
+    import threading
+
+    from partsel.physics import stepper_layout
+
+    app = make_app(tui_engine, tmp_path)
+    assert app._heard_compile in stepper_layout.COMPILE_LISTENERS
+    app._heard_compile()  # what stepper_layout.before_stepper_import calls on a cold cache
+
+    async def scenario(pilot: Any) -> None:
+        await settle(pilot)
+        assert _notices(app).count(P.COMPILE_NOTICE) == 1
+        app.clear_notifications()
+        worker = threading.Thread(target=app._heard_compile)
+        worker.start()
+        worker.join()
+        await settle(pilot)
+        assert _notices(app) == [P.COMPILE_NOTICE]
+
+    drive(app, scenario)
+    assert app._heard_compile not in stepper_layout.COMPILE_LISTENERS

@@ -23,6 +23,7 @@ from rich.console import Console
 from rich.table import Table
 
 from partsel.errors import InputError, Problem
+from partsel.present import COMPILE_NOTICE
 
 if TYPE_CHECKING:
     from sqlalchemy.engine import Engine
@@ -156,10 +157,7 @@ def compile_notice() -> None:
     compiles the stepper once: 9 to 12 s in ``tests/bench/bench_physics.py``, longer on a busy
     machine); nothing in pipes."""
     if err_console().is_terminal:
-        message(
-            "first simulation on this machine: compiling partsel's simulation engine "
-            "(once per machine; this takes a while)"
-        )
+        message(COMPILE_NOTICE)
 
 
 #: Width of tables written to a file or a pipe when ``COLUMNS`` does not say otherwise.

@@ -33,6 +33,8 @@ from partsel.catalogue import find_sample_catalogue, get_part
 from partsel.design import design_from_mapping, load_design
 from partsel.errors import InputError
 from partsel.physics.circuit import Design
+from partsel.physics.stepper_layout import COMPILE_LISTENERS
+from partsel.present import COMPILE_NOTICE
 from partsel.solver import PartTable, Ranking
 from partsel.solver.export import ranking_dict, ranking_frame
 from partsel.tui.rows import RankingView
@@ -129,6 +131,11 @@ class PartselApp(App[None]):
         self.work_dir = work_dir or Path.cwd()
         self.user = user
         self.initial_design = self._first_design(design)
+        # the compile notice: heard in any thread, shown once the app is mounted
+        self._compile_lock = threading.Lock()
+        self._compile_heard = False
+        self._notices_on = False
+        COMPILE_LISTENERS.append(self._heard_compile)
         threading.Thread(target=self._prefetch, name="partsel-prefetch", daemon=True).start()
         self.design: Design | None = None
         self.design_gen = 0
@@ -170,6 +177,27 @@ class PartselApp(App[None]):
     def on_mount(self) -> None:
         self.register_theme(PARTSEL_THEME)
         self.theme = PARTSEL_THEME.name
+        with self._compile_lock:
+            self._notices_on = True
+            heard = self._compile_heard
+        if heard:
+            self._show_compile_notice()
+
+    def on_unmount(self) -> None:
+        if self._heard_compile in COMPILE_LISTENERS:
+            COMPILE_LISTENERS.remove(self._heard_compile)
+
+    def _heard_compile(self) -> None:
+        """A simulation is about to compile the stepper (any thread): say so, now if the app is
+        up, else when it mounts."""
+        with self._compile_lock:
+            self._compile_heard = True
+            now = self._notices_on
+        if now:
+            self._show_compile_notice()
+
+    def _show_compile_notice(self) -> None:
+        self.notify(COMPILE_NOTICE, title="please wait", timeout=20, markup=False)
 
     def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
         """The actions list: partsel's own actions with a key on the current screen, plus the
