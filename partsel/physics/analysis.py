@@ -677,27 +677,78 @@ def _device_law_thd(
     return sim.thd_f, sim.residual_peak_v
 
 
-def _window(a: int, b: int, n: int, pad: int = 3, most: int = 24) -> np.ndarray:
-    """Grid indices from ``a`` to ``b`` the short way round a period, padded, at most ``most``."""
-    d = (b - a) % n
-    if d > n // 2:
-        a, d = b, n - d
-    idx = (a - pad + np.arange(d + 2 * pad + 1)) % n
-    if idx.size > most:
-        idx = idx[np.linspace(0, idx.size - 1, most).round().astype(int)]
-    return idx
+#: Points at which the swing check reads the headroom curves between the output's peak and the
+#: current's peak, and the padding on each side (a fraction of a period): the tightest instant
+#: lies between the two peaks, so the check costs O(P) whatever the catalogue's size.
+WINDOW_POINTS = 24
+WINDOW_PAD = 3.0 / GRID
 
 
-def _windows(a: np.ndarray, b: np.ndarray, n: int, pad: int = 3, most: int = 24) -> np.ndarray:
-    """:func:`_window` of every row of a batch, shape (N, most): the same indices, repeated
-    where a window is shorter (a repeat changes no minimum over it)."""
-    d = (b - a) % n
-    flip = d > n // 2
-    start = np.where(flip, b, a) - pad
-    length = np.where(flip, n - d, d) + 2 * pad + 1
-    frac = np.linspace(0.0, 1.0, most)[None, :]
-    offs = np.round(frac * (np.minimum(length, n) - 1)[:, None]).astype(int)
-    return (start[:, None] + offs) % n
+def _peak_window(theta_a: np.ndarray, theta_b: np.ndarray) -> np.ndarray:
+    """Phases (rad) from ``theta_a`` to ``theta_b`` the short way round a period, padded by
+    :data:`WINDOW_PAD` of a period at both ends: :data:`WINDOW_POINTS` evenly spaced points and
+    the two ends themselves (the peaks); shape ``theta_a.shape + (WINDOW_POINTS + 2,)``."""
+    two_pi = 2.0 * np.pi
+    d = np.mod(np.asarray(theta_b, dtype=float) - theta_a, two_pi)
+    flip = d > np.pi
+    pad = WINDOW_PAD * two_pi
+    start = np.where(flip, theta_b, theta_a) - pad
+    length = np.where(flip, two_pi - d, d) + 2.0 * pad
+    frac = np.linspace(0.0, 1.0, WINDOW_POINTS)
+    even = np.asarray(start)[..., None] + np.asarray(length)[..., None] * frac
+    ends = np.broadcast_arrays(np.asarray(theta_a, dtype=float), np.asarray(theta_b, dtype=float))
+    return np.concatenate([even, np.stack(ends, axis=-1)], axis=-1)
+
+
+def _arc_integrals(p1: np.ndarray, p2: np.ndarray) -> tuple[np.ndarray, ...]:
+    """Integrals over ``p1 .. p2`` (rad) of 1, sin, cos, sin**2 and sin cos."""
+    s1, s2, c1, c2 = np.sin(p1), np.sin(p2), np.cos(p1), np.cos(p2)
+    length = p2 - p1
+    return (
+        length,
+        c1 - c2,
+        s2 - s1,
+        0.5 * length - 0.5 * (s2 * c2 - s1 * c1),
+        0.5 * (s2 * s2 - s1 * s1),
+    )
+
+
+def conduction_means(
+    i0: np.ndarray,
+    i_sin: np.ndarray,
+    i_cos: np.ndarray,
+    v0: np.ndarray,
+    a: np.ndarray,
+    v_pos: np.ndarray,
+    v_neg: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """Exact means over one period of the sourced current ``max(i, 0)`` (A) and of the power the
+    output devices dissipate, ``max(i, 0) (V+ - v) + max(-i, 0) (v - V-)`` (W), for the output
+    current ``i = I0 + b_s sin(theta) + b_c cos(theta)`` and the output ``v = V0 + a sin(theta)``
+    (the ideal waveform in steady state). With ``i = I0 + B sin(psi)``, ``psi = theta + phi``,
+    the source device conducts on ``-alpha < psi < pi + alpha``, ``sin(alpha) = I0 / B``; the
+    integrands are sums of 1, sin, cos, sin**2 and sin cos on each arc (no grid)."""
+    b = np.hypot(i_sin, i_cos)
+    phi = np.arctan2(i_cos, i_sin)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        alpha = np.where(b > 0, np.arcsin(np.clip(i0 / np.where(b > 0, b, 1.0), -1.0, 1.0)), 0.0)
+    # the full period where the current keeps one sign (b = 0, or |I0| >= B)
+    always_src = (b <= np.abs(i0)) & (i0 >= 0)
+    always_snk = (b <= np.abs(i0)) & (i0 < 0)
+    alpha = np.where(always_src, 0.5 * np.pi, np.where(always_snk, -0.5 * np.pi, alpha))
+    p1, p2 = -alpha, np.pi + alpha  # the source device's arc; the sink's runs on to 2 pi - alpha
+    cp, sp = np.cos(phi), np.sin(phi)
+
+    def integral(lo, hi, k, p, q):  # integral of (I0 + B sin)(k + p sin + q cos)
+        length, s1, c1, s2, sc = _arc_integrals(lo, hi)
+        return i0 * k * length + i0 * p * s1 + i0 * q * c1 + b * k * s1 + b * p * s2 + b * q * sc
+
+    # v = V0 + a sin(psi - phi) = V0 + a cos(phi) sin(psi) - a sin(phi) cos(psi)
+    src_current = integral(p1, p2, 1.0, 0.0, 0.0)
+    src_power = integral(p1, p2, v_pos - v0, -a * cp, a * sp)
+    snk_power = -integral(p2, 2.0 * np.pi - alpha, v0 - v_neg, a * cp, -a * sp)
+    inv = 1.0 / (2.0 * np.pi)
+    return src_current * inv, (src_power + snk_power) * inv
 
 
 def _class_a_clip(design: Design, i_bias: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -1035,23 +1086,22 @@ def predict_closed_form(
         glitch[clipped] = depth_a
         thd_est[clipped] = thd_a
 
-    # --- currents and swing over the ideal waveform ----------------------------------------
-    t, v, i = ideal_grid(design)
-    head_pos = col(vpos) - v
-    head_neg = v - col(vneg)
-    # The tightest instant lies between the output peak and the current peak: evaluate the
-    # headroom curves only there (keeps the cost O(P) for large catalogues).
-    n_grid = v.shape[-1]
-    if batch:
-        ip = _windows(np.argmin(head_pos, axis=1), np.argmax(i, axis=1), n_grid)
-        ineg = _windows(np.argmin(head_neg, axis=1), np.argmin(i, axis=1), n_grid)
-        i_p, h_p = np.take_along_axis(i, ip, axis=1), np.take_along_axis(head_pos, ip, axis=1)
-        i_n, h_n = np.take_along_axis(i, ineg, axis=1), np.take_along_axis(head_neg, ineg, axis=1)
-    else:
-        ip = _window(np.argmin(head_pos), np.argmax(i), n_grid)
-        ineg = _window(np.argmin(head_neg), np.argmin(i), n_grid)
-        i_p, h_p = i[ip][None, :], head_pos[ip][None, :]
-        i_n, h_n = i[ineg][None, :], head_neg[ineg][None, :]
+    # --- currents and swing at the instants that matter (no grid) ----------------------------
+    # i = I0 + b_s sin(theta) + b_c cos(theta), v = V0 + a sin(theta) (theta = omega t)
+    i_sin, i_cos = np.real(y) * a, np.imag(y) * a
+    phi_i = np.arctan2(i_cos, i_sin)
+    top = np.where(np.asarray(a) >= 0, 0.5 * np.pi, 1.5 * np.pi)
+    win_p = _peak_window(top, 0.5 * np.pi - phi_i)  # output top .. current peak
+    win_n = _peak_window(top + np.pi, 1.5 * np.pi - phi_i)  # output bottom .. current trough
+
+    def at(theta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:  # (current, output) there
+        sin_t = np.sin(theta)
+        cur = col(i0) + col(i_sin) * sin_t + col(i_cos) * np.cos(theta)
+        return np.atleast_2d(cur), np.atleast_2d(col(v0) + col(a) * sin_t)
+
+    i_p, v_p = at(win_p)
+    i_n, v_n = at(win_n)
+    h_p, h_n = col(vpos) - v_p, v_n - col(vneg)
     # The pull-down current adds to the source current: its pessimistic side here is the high one.
     i_hi = stage.stage_current_high_a
     src_p = np.maximum(i_p + np.where(pulldown, i_hi, 0.0)[:, None], 0.0)
@@ -1080,9 +1130,14 @@ def predict_closed_form(
         bound = np.where(clipping & np.isfinite(bound), bound + thd_clip, bound)
 
     # --- input common mode -------------------------------------------------------------------
-    vplus = design.v_plus(t)
-    cm_low = vplus.min(axis=-1) - (vneg + stage.cm_headroom_neg_v)
-    cm_high = (vpos - stage.cm_headroom_pos_v) - vplus.max(axis=-1)
+    # the non-inverting input follows the source (non-inverting) or sits at the reference
+    if design.closed_loop.configuration == "non-inverting":
+        vp_lo = design.signal.bias_v - np.abs(design.signal.amplitude_v)
+        vp_hi = design.signal.bias_v + np.abs(design.signal.amplitude_v)
+    else:
+        vp_lo = vp_hi = design.reference_v
+    cm_low = vp_lo - (vneg + stage.cm_headroom_neg_v)
+    cm_high = (vpos - stage.cm_headroom_pos_v) - vp_hi
 
     # --- dynamics ---------------------------------------------------------------------------
     slew_req = amp * w
@@ -1109,20 +1164,20 @@ def predict_closed_form(
     # --- power -------------------------------------------------------------------------------
     chans = np.maximum(stage.channels, design.channels_used)
     used = float(design.channels_used)
-    src_load = np.maximum(i, 0.0)
-    snk_load = np.maximum(-i, 0.0)
+    src_mean, p_devices = conduction_means(i0, i_sin, i_cos, v0, a, vpos, vneg)
     # from the positive rail: the quiescent current, what the source device delivers, and what
-    # a resistor from V+ to the output (a pull-up) draws straight from the rail (per row of a
-    # batch: NaN where a row has none)
+    # a resistor from V+ to the output (a pull-up) draws straight from the rail (its mean over
+    # the sine is (V+ - V0) / R_up; per row of a batch: NaN where a row has none)
     r_up = design.load.r_to_pos_ohm
     if r_up is None:
         i_up = 0.0
     else:
         r_up_a = np.asarray(r_up, dtype=float)
-        i_up = np.where(np.isfinite(r_up_a), np.mean((col(vpos) - v) / col(r_up_a), axis=-1), 0.0)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            i_up = np.where(np.isfinite(r_up_a), (vpos - v0) / r_up_a, 0.0)
         i_up = float(i_up) if np.ndim(i_up) == 0 else i_up
-    i_supply = stage.supply_current_a * chans + used * (src_load.mean(axis=-1) + i_up)
-    p_out_stage = used * np.mean(src_load * (col(vpos) - v) + snk_load * (v - col(vneg)), axis=-1)
+    i_supply = stage.supply_current_a * chans + used * (src_mean + i_up)
+    p_out_stage = used * p_devices
     p_diss = stage.supply_current_a * chans * total + p_out_stage
     t_j = design.t_ambient_max_c + p_diss * stage.theta_ja_k_per_w
 

@@ -295,10 +295,18 @@ class PartselApp(App[None]):
             view = RankingView(r)
         except Exception as exc:  # an unexpected failure must not take the UI down
             if not worker.is_cancelled:
-                self.call_from_thread(self.notify, f"ranking failed: {exc}", severity="error")
+                self.call_from_thread(self._rank_failed, exc)
             return
         if not worker.is_cancelled:
             self.call_from_thread(self._ranked, r, view, gen, t0)
+
+    def _rank_failed(self, exc: Exception) -> None:
+        self.notify(f"ranking failed: {exc}", severity="error", markup=False)
+        from partsel.tui.screens.main import MainScreen
+
+        for screen in self.screen_stack:
+            if isinstance(screen, MainScreen):
+                screen.ranking_failed()
 
     def _ranked(self, r: Ranking, view: RankingView, gen: int, t0: float) -> None:
         if gen != self.design_gen or r.table is not self.table:

@@ -33,7 +33,7 @@ if TYPE_CHECKING:
 
 
 #: Seconds after the screen's mount at which the design form is mounted even when no ranking
-#: has arrived (it is mounted as soon as the first ranking is drawn).
+#: has arrived (it is mounted as soon as the first ranking is drawn, or has failed).
 FORM_AFTER_S = 1.0
 
 
@@ -283,6 +283,11 @@ class MainScreen(Screen[None]):
     @on(RankingPane.PartHighlighted)
     def _part_highlighted(self, event: RankingPane.PartHighlighted) -> None:
         self.show_part(event.part_number)
+
+    def ranking_failed(self) -> None:
+        """The ranking failed (the app has said why): the form comes up to correct the design."""
+        if not self.form_mounted:
+            self.call_after_refresh(self._mount_form)
 
     def show_ranking(self, view: RankingView) -> None:
         """A new ranking from the app."""
