@@ -11,7 +11,9 @@ References named beside each check:
   integration of the drive-node speed with scipy;
 * the flat step during a handover at ``V_bias - I_pd R_L``: common practice (design notes
   section 3);
-* the THD of a sine clipped on one side: its Fourier series, integrated with scipy.
+* the THD of a sine clipped on one side: its Fourier series, integrated with scipy;
+* the period means of the sourced current and of the output devices' dissipation
+  (``conduction_means``): the rectified integrands integrated numerically with scipy.
 """
 
 from __future__ import annotations
@@ -29,7 +31,7 @@ from physics_helpers import DEFAULT_SWING, DEFAULT_TYP, line_design, make_stage,
 from scipy.integrate import quad
 from scipy.optimize import brentq
 
-from partsel.physics.analysis import predict_closed_form
+from partsel.physics.analysis import conduction_means, predict_closed_form
 from partsel.physics.circuit import Design
 from partsel.physics.stage import StageParams
 
@@ -557,3 +559,43 @@ def test_one_mode_thd_with_a_pull_up_uses_the_sink_device() -> None:
     r_pos = np.array([np.nan, 1.5e3])  # 2.5 V / 1.5 kohm = 1.67 mA pulled in at the bias
     got = one_mode_thd(stage, d, r_to_pos_ohm=r_pos)
     assert np.isnan(got[0]) and 0 < got[1] < 1e-3
+
+
+# ------------------------------------------------------------------ power means without a grid
+
+
+@settings(max_examples=60, deadline=None)
+@given(
+    i0=st.floats(-2e-3, 2e-3),
+    i_sin=st.floats(-3e-3, 3e-3),
+    i_cos=st.floats(-3e-3, 3e-3),
+    v0=st.floats(0.5, 4.5),
+    a=st.floats(-2.0, 2.0),
+)
+def test_conduction_means_against_numerical_integration(
+    i0: float, i_sin: float, i_cos: float, v0: float, a: float
+) -> None:
+    """Means over a period of max(i, 0) and of max(i, 0)(V+ - v) + max(-i, 0)(v - V-), for
+    i = I0 + b_s sin + b_c cos and v = V0 + a sin (5 V single supply), against scipy's quad of
+    the rectified integrands (breakpoints at the current's zeros)."""
+    vp, vn = 5.0, 0.0
+
+    def cur(t: float) -> float:
+        return i0 + i_sin * math.sin(t) + i_cos * math.cos(t)
+
+    def power(t: float) -> float:
+        v = v0 + a * math.sin(t)
+        i = cur(t)
+        return max(i, 0.0) * (vp - v) + max(-i, 0.0) * (v - vn)
+
+    b = math.hypot(i_sin, i_cos)
+    zeros = []
+    if b > abs(i0):  # i = I0 + B sin(t + phi) = 0
+        phi = math.atan2(i_cos, i_sin)
+        al = math.asin(-i0 / b)
+        zeros = sorted({(al - phi) % (2 * math.pi), (math.pi - al - phi) % (2 * math.pi)})
+    src_ref = quad(lambda t: max(cur(t), 0.0), 0.0, 2 * math.pi, points=zeros or None)[0]
+    pwr_ref = quad(power, 0.0, 2 * math.pi, points=zeros or None)[0]
+    src, pwr = conduction_means(i0, i_sin, i_cos, v0, a, vp, vn)
+    assert float(src) == pytest.approx(src_ref / (2 * math.pi), rel=1e-7, abs=1e-12)
+    assert float(pwr) == pytest.approx(pwr_ref / (2 * math.pi), rel=1e-7, abs=1e-12)
