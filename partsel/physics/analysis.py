@@ -851,6 +851,21 @@ def _class_a_clip(design: Design, i_bias: np.ndarray) -> tuple[np.ndarray, np.nd
     return flat, depth, np.nan_to_num(thd_f, nan=0.0)
 
 
+def output_extremes(design: Design) -> tuple[np.ndarray, np.ndarray]:
+    """Lowest and highest level of the ideal output, V (one value, or (N,) for a batch)."""
+    amp = np.abs(design.signal_gain * design.signal.amplitude_v)
+    return design.out_bias_v - amp, design.out_bias_v + amp
+
+
+def input_extremes(design: Design) -> tuple[np.ndarray, np.ndarray]:
+    """Lowest and highest level of the non-inverting input, V: it follows the source in a
+    non-inverting stage and sits at the reference in an inverting one."""
+    if design.closed_loop.configuration == "non-inverting":
+        amp = np.abs(design.signal.amplitude_v)
+        return design.signal.bias_v - amp, design.signal.bias_v + amp
+    return design.reference_v, design.reference_v
+
+
 def ideal_grid(design: Design, n: int = GRID) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """One period of the ideal waveform: times (s), output (V) and output current (A); shape
     (n,), or (N, n) for a batch design (:attr:`Design.rows`; the times (n,) while every row has
@@ -1168,12 +1183,7 @@ def predict_closed_form(
         bound = np.where(clipping & np.isfinite(bound), bound + thd_clip, bound)
 
     # --- input common mode -------------------------------------------------------------------
-    # the non-inverting input follows the source (non-inverting) or sits at the reference
-    if design.closed_loop.configuration == "non-inverting":
-        vp_lo = design.signal.bias_v - np.abs(design.signal.amplitude_v)
-        vp_hi = design.signal.bias_v + np.abs(design.signal.amplitude_v)
-    else:
-        vp_lo = vp_hi = design.reference_v
+    vp_lo, vp_hi = input_extremes(design)
     cm_low = vp_lo - (vneg + stage.cm_headroom_neg_v)
     cm_high = (vpos - stage.cm_headroom_pos_v) - vp_hi
 

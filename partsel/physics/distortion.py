@@ -38,8 +38,10 @@ def log_cos_coefficients(c: np.ndarray, n_harmonics: int = DEFAULT_HARMONICS) ->
         r = c / (1.0 + np.sqrt(1.0 - c * c))
     n = _orders(n_harmonics)
     sign = np.where(n % 2 == 0, -1.0, 1.0)
+    # r^2 .. r^H by running products (signed; no pow)
+    r_pow = np.cumprod(np.broadcast_to(r, (r.shape[0], n_harmonics)), axis=1)[:, 1:]
     with np.errstate(invalid="ignore", over="ignore"):
-        out = 2.0 * sign * np.sign(r) ** n * np.abs(r) ** n / n
+        out = 2.0 * sign * r_pow / n
     return np.where(np.abs(c) < 1.0, out, np.nan)
 
 

@@ -373,16 +373,19 @@ class StageParams:
 
 
 def pwl(x: np.ndarray, xp: np.ndarray, fp: np.ndarray) -> np.ndarray:
-    """Piecewise-linear interpolation per part, see :func:`pwl_with_slope`."""
-    return pwl_with_slope(x, xp, fp)[0]
+    """Piecewise-linear interpolation per part, see :func:`pwl_with_slope` (values only)."""
+    return pwl_with_slope(x, xp, fp, slopes=False)[0]
 
 
-def pwl_with_slope(x: np.ndarray, xp: np.ndarray, fp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def pwl_with_slope(
+    x: np.ndarray, xp: np.ndarray, fp: np.ndarray, *, slopes: bool = True
+) -> tuple[np.ndarray, np.ndarray]:
     """Piecewise-linear interpolation per part with linear extrapolation at both ends.
 
     ``xp``/``fp`` have shape (P, K), increasing along K, NaN-padded at the end (at least one
     point; a single point gives a constant). ``x`` has shape (P,) or (P, T). Parts with no
-    points give NaN. Returns the values and the local slopes.
+    points give NaN. Returns the values and the local slopes (with ``slopes=False`` the
+    first segment's slope only, for callers that use the values alone).
     """
     x = np.asarray(x, dtype=float)
     squeeze = x.ndim == 1
@@ -400,7 +403,8 @@ def pwl_with_slope(x: np.ndarray, xp: np.ndarray, fp: np.ndarray) -> tuple[np.nd
         m = seg_ok[:, k, None] & (xx >= xp[:, k, None])
         sk = seg_slope[:, k, None]
         out = np.where(m, fp[:, k, None] + sk * (xx - xp[:, k, None]), out)
-        slope = np.where(m, sk, slope)
+        if slopes:
+            slope = np.where(m, sk, slope)
     if squeeze:
         return out[:, 0], slope[:, 0]
     return out, slope

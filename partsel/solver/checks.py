@@ -24,7 +24,12 @@ from typing import Any, Literal
 
 import numpy as np
 
-from partsel.physics.analysis import ClosedForm, held_current, ideal_grid
+from partsel.physics.analysis import (
+    ClosedForm,
+    held_current,
+    input_extremes,
+    output_extremes,
+)
 from partsel.physics.circuit import Design
 from partsel.physics.stage import StageParams
 from partsel.solver.requirements import Requirements
@@ -246,12 +251,11 @@ class DesignLevels:
 
     @classmethod
     def of(cls, design: Design) -> DesignLevels:
-        t, v, _ = ideal_grid(design)
-        vp = design.v_plus(t)
+        (v_lo, v_hi), (vp_lo, vp_hi) = output_extremes(design), input_extremes(design)
+        ends = (v_hi, v_lo, vp_hi, vp_lo)
         if design.rows is not None:
-            ends = (v.max(axis=-1), v.min(axis=-1), vp.max(axis=-1), vp.min(axis=-1))
-            return cls(*(np.broadcast_to(x, (design.rows,)) for x in ends))
-        return cls(float(v.max()), float(v.min()), float(vp.max()), float(vp.min()))
+            return cls(*(np.broadcast_to(np.asarray(x, dtype=float), (design.rows,)) for x in ends))
+        return cls(*(float(x) for x in ends))
 
 
 def packages_needed(table_channels: np.ndarray, used: int) -> np.ndarray:
