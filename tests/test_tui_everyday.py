@@ -709,13 +709,13 @@ def test_first_compile_is_announced(tui_engine: Any, tmp_path: Path) -> None:
     app._heard_compile()  # what stepper_layout.before_stepper_import calls on a cold cache
 
     async def scenario(pilot: Any) -> None:
-        await settle(pilot)
+        await pilot.pause()
         assert _notices(app).count(P.COMPILE_NOTICE) == 1
         app.clear_notifications()
         worker = threading.Thread(target=app._heard_compile)
         worker.start()
         worker.join()
-        await settle(pilot)
+        await pilot.pause()
         assert _notices(app) == [P.COMPILE_NOTICE]
 
     drive(app, scenario)

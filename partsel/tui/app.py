@@ -177,27 +177,26 @@ class PartselApp(App[None]):
     def on_mount(self) -> None:
         self.register_theme(PARTSEL_THEME)
         self.theme = PARTSEL_THEME.name
-        with self._compile_lock:
-            self._notices_on = True
-            heard = self._compile_heard
-        if heard:
-            self._show_compile_notice()
+        self._compile_news(mounted=True)
 
     def on_unmount(self) -> None:
         if self._heard_compile in COMPILE_LISTENERS:
             COMPILE_LISTENERS.remove(self._heard_compile)
 
     def _heard_compile(self) -> None:
-        """A simulation is about to compile the stepper (any thread): say so, now if the app is
-        up, else when it mounts."""
-        with self._compile_lock:
-            self._compile_heard = True
-            now = self._notices_on
-        if now:
-            self._show_compile_notice()
+        """A simulation is about to compile the stepper (called in any thread)."""
+        self._compile_news(heard=True)
 
-    def _show_compile_notice(self) -> None:
-        self.notify(COMPILE_NOTICE, title="please wait", timeout=20, markup=False)
+    def _compile_news(self, *, heard: bool = False, mounted: bool = False) -> None:
+        """Note a compile heard and/or the app mounted; say so once both hold (now, if the
+        compile comes after the mount; at the mount, if it came before)."""
+        with self._compile_lock:
+            self._compile_heard |= heard
+            self._notices_on |= mounted
+            show = self._compile_heard and self._notices_on
+        if show:
+            # shown for a minute: the compile takes 10 s to a minute (bench_physics.py)
+            self.notify(COMPILE_NOTICE, title="please wait", timeout=60, markup=False)
 
     def get_system_commands(self, screen: Screen) -> Iterable[SystemCommand]:
         """The actions list: partsel's own actions with a key on the current screen, plus the
