@@ -56,6 +56,7 @@ from circuits.characterise import (
     Measured,
     Wave,
     characterise,
+    open_loop_gbw,
     run_all,
 )
 from physics_helpers import thd_f
@@ -227,6 +228,25 @@ def test_measured_like_a_datasheet(measured: dict[str, Measured]) -> None:
             heads = [h for _, h in curve]
             assert heads == sorted(heads)
     assert ab.stage_current_a == pytest.approx(40e-6, rel=0.2)
+
+
+def test_output_stage_divides_the_loop_gain_with_the_load(
+    measured: dict[str, Measured], tmp_path: Path
+) -> None:
+    """The open-loop GBW into 2 kohm and 600 ohm (ngspice AC analysis) follows from the
+    datasheet figure at 10 kohm and the source follower's small-signal resistance in partsel's
+    device law, ``r_out = V_S / I_pd`` (V_S = 2 V_T, the Darlington): ``GBW(R) = GBW_int R /
+    (R + r_out)``, within 3 % (measured 0.871 / 0.635 / 0.359 MHz; the divider gives 0.633 and
+    0.353 MHz). A datasheet's GBW is a loaded figure."""
+    b = measured[CLASS_B.name]
+    part = b.part()
+    r_out = float(part.device_scale_v[0] / part.stage_current_a[0])
+    assert 900 < r_out < 1200  # about 1 kohm at 50 uA
+    gbw_int = b.gbw_hz * (10e3 + r_out) / 10e3
+    for r_load in (2e3, 600.0):
+        got = open_loop_gbw(CLASS_B, tmp_path / f"gbw-{r_load:.0f}", r_load)
+        assert got == pytest.approx(gbw_int * r_load / (r_load + r_out), rel=0.03), r_load
+        assert got < 0.75 * b.gbw_hz  # far below the 10 kohm figure
 
 
 def _crossover(results: dict[str, list[Result]]) -> list[Result]:

@@ -136,15 +136,21 @@ def _deck(c: Circuit, body: str, analysis: str, vectors: str, pins: tuple[str, .
     )
 
 
-def _gbw(c: Circuit, work: Path) -> float:
+def open_loop_gbw(c: Circuit, work: Path, r_load_ohm: float = 10e3) -> float:
+    """``|A(10 kHz)| x 10 kHz`` open loop (DC feedback through 1 GH), ``r_load_ohm`` to
+    mid-supply, Hz: the datasheet's GBW at 10 kohm, and the loaded figure at other loads."""
     body = (
         f"Vin inp 0 DC {MID_V} AC 1\nX1 inp inn out vp 0 {c.name}\nLfb out inn 1e9\n"
-        f"Cg inn 0 1\nRL out lref 10k\nVlr lref 0 {MID_V}\n"
+        f"Cg inn 0 1\nRL out lref {r_load_ohm!r}\nVlr lref 0 {MID_V}\n"
     )
     cols = run_ngspice_columns(_deck(c, body, "ac dec 20 1k 100k", "vdb(out)"), work)
     f = cols["frequency"]
     k = int(np.argmin(np.abs(f - 10e3)))
     return float(10 ** (cols["vdb(out)"][k] / 20) * f[k])
+
+
+def _gbw(c: Circuit, work: Path) -> float:
+    return open_loop_gbw(c, work)
 
 
 def _slew(c: Circuit, work: Path, lo: float = 1.5, hi: float = 3.5) -> tuple[float, float]:
