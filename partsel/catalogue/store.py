@@ -26,7 +26,6 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal
 
 import sqlalchemy as sa
-import yaml
 from sqlalchemy.engine import Connection, Engine
 
 from partsel.catalogue.columns import (
@@ -47,14 +46,14 @@ from partsel.catalogue.history import (
     read_history,
     record_changes,
 )
-from partsel.catalogue.normalise import flatten_canonical
 from partsel.catalogue.schema import FORMAT_NAME
 from partsel.catalogue.tables import history_table, maker_table, part_table
-from partsel.catalogue.validate import CatalogueDocument, read_and_validate, validate_documents
 from partsel.errors import InputError, Problem
 
 if TYPE_CHECKING:
     import pandas as pd
+
+    from partsel.catalogue.validate import CatalogueDocument
 
 ExportFormat = Literal["yaml", "json"]
 
@@ -147,6 +146,8 @@ def _pack_floats(values: list[float]) -> bytes:
 
 def _table_row(part: dict[str, Any], canon: dict[str, Any]) -> dict[str, Any]:
     """The stored columns of one part (flat columns with NaN as NULL, packed floats, record)."""
+    from partsel.catalogue.normalise import flatten_canonical  # (lazy: not for reads)
+
     flat = flatten_canonical(canon)
     row = {k: (None if v != v else v) for k, v in flat.items()}  # NaN -> NULL
     row["float_block"] = _pack_floats([flat[n] for n in FLOAT_COLUMN_NAMES])
@@ -308,6 +309,8 @@ def load_paths(
     Raises InputError listing every problem of every file; nothing is stored then.
     ``progress(1)`` is called as each file has been read.
     """
+    from partsel.catalogue.validate import read_and_validate  # (lazy: not for reads)
+
     docs = read_and_validate(paths, progress=progress)
     return load_documents(engine, docs, dry_run=dry_run, user=user)
 
@@ -413,6 +416,8 @@ def _record_problems(exc: InputError, label: str) -> InputError:
 
 
 def _validated_record(record: dict[str, Any], label: str) -> CatalogueDocument:
+    from partsel.catalogue.validate import validate_documents
+
     try:
         (doc,) = validate_documents([(label, {"parts": [record]})])
     except InputError as exc:
@@ -662,6 +667,8 @@ def export_catalogue(
         if fmt == "json":
             text = json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
         else:
+            import yaml
+
             text = yaml.safe_dump(doc, sort_keys=False, allow_unicode=True, width=100)
         path.write_text(text, encoding="utf-8")
         written.append(path)
