@@ -167,17 +167,18 @@ class ClosedForm:
     and THD figures describe a limited output, not a crossover."""
 
 
-def _psi(u: np.ndarray) -> np.ndarray:
-    """``u - (1 - exp(-u))``, accurate for small ``u``."""
+def _psi(u: np.ndarray, em1: np.ndarray | None = None) -> np.ndarray:
+    """``u - (1 - exp(-u))``, accurate for small ``u`` (``em1``: ``expm1(-u)`` if at hand)."""
     with np.errstate(over="ignore"):
-        exact = u + np.expm1(-u)
+        exact = u + (np.expm1(-u) if em1 is None else em1)
     return np.where(u < 1e-2, u * u * (0.5 - u / 6.0 + u * u / 24.0), exact)
 
 
-def _phi(u: np.ndarray) -> np.ndarray:
-    """``u**2 / 2 - u + 1 - exp(-u)`` (the integral of :func:`_psi`), accurate for small ``u``."""
+def _phi(u: np.ndarray, em1: np.ndarray | None = None) -> np.ndarray:
+    """``u**2 / 2 - u + 1 - exp(-u)`` (the integral of :func:`_psi`), accurate for small ``u``
+    (``em1``: ``expm1(-u)`` if at hand)."""
     with np.errstate(over="ignore"):
-        exact = 0.5 * u * u - u - np.expm1(-u)
+        exact = 0.5 * u * u - u - (np.expm1(-u) if em1 is None else em1)
     return np.where(u < 1e-2, u**3 * (1.0 / 6.0 - u / 24.0 + u * u / 120.0), exact)
 
 
@@ -258,10 +259,12 @@ def _rc_crossing_roots(
         # load terms at u = t / tau_l: phi(u) tau^2 (displacement), psi(u) tau (deviation),
         # (1 - exp(-u)) (slope of the deviation), with their small-u series; tau = 0: t^2/2, t, 1
         u = t / tl
+        with np.errstate(over="ignore"):
+            em1 = np.expm1(-u)  # once for the three terms
         return (
-            np.where(rc, _phi(u) * tl * tl, 0.5 * t * t),
-            np.where(rc, _psi(u) * tl, t),
-            np.where(rc, -np.expm1(-u), 1.0),
+            np.where(rc, _phi(u, em1) * tl * tl, 0.5 * t * t),
+            np.where(rc, _psi(u, em1) * tl, t),
+            np.where(rc, -em1, 1.0),
         )
 
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
