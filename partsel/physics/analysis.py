@@ -771,7 +771,7 @@ def conduction_means(
     integrands are sums of 1, sin, cos, sin**2 and sin cos on each arc (no grid)."""
     b = np.hypot(i_sin, i_cos)
     phi = np.arctan2(i_cos, i_sin)
-    with np.errstate(divide="ignore", invalid="ignore"):
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):  # (b may be subnormal)
         alpha = np.where(b > 0, np.arcsin(np.clip(i0 / np.where(b > 0, b, 1.0), -1.0, 1.0)), 0.0)
     # the full period where the current keeps one sign (b = 0, or |I0| >= B)
     always_src = (b <= np.abs(i0)) & (i0 >= 0)
