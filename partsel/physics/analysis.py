@@ -196,11 +196,11 @@ def _displacement(t: np.ndarray, s: np.ndarray, c: np.ndarray, tau_l: np.ndarray
     return rc + c * t**3 / 6.0
 
 
-#: Newton steps of :func:`_rc_crossing_roots`: from a bound within 14 % of the root the iterates
+#: Newton steps of :func:`_crossing_roots`: from a bound within 14 % of the root the iterates
 #: fall monotonically onto it; 5 steps agree with a 16-step bisection and 3 Newton steps within
 #: 1e-11 (relative) on 200,000 random crossings (dead band, slope, steepening, load time
 #: constant, loop and slew rate each over 3 to 5 decades).
-RC_NEWTON_STEPS = 5
+CROSSING_NEWTON_STEPS = 5
 
 
 def _cubic_root_bound(k: np.ndarray) -> np.ndarray:
@@ -218,7 +218,7 @@ def _cubic_root_bound(k: np.ndarray) -> np.ndarray:
     return np.where(disc >= 0, one, three)
 
 
-def _rc_crossing_roots(
+def _crossing_roots(
     dv: np.ndarray,
     s: np.ndarray,
     c: np.ndarray,
@@ -227,8 +227,8 @@ def _rc_crossing_roots(
     sr: np.ndarray,
     t_max: np.ndarray,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """The two times of :func:`_crossing` for loads with a time constant ``tau_l`` (s; 0
-    allowed per element): ``t_lin`` where ``k * _displacement = dv`` (the drive, unlimited, has
+    """The two times of :func:`_crossing` for every load (``tau_l``: its time constant, s; 0
+    for a resistive load): ``t_lin`` where ``k * _displacement = dv`` (the drive, unlimited, has
     crossed the dead band) and ``t1`` where ``k * _deviation = sr`` (the drive reaches the slew
     rate; searched below ``t_lin``), both within ``t_max``.
 
@@ -268,14 +268,14 @@ def _rc_crossing_roots(
         )
 
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        for _ in range(RC_NEWTON_STEPS):
+        for _ in range(CROSSING_NEWTON_STEPS):
             disp, dev, _ = parts(t_lin)
             f = k * (s * disp + c * t_lin**3 / 6.0) - dv
             df = k * (s * dev + 0.5 * c * t_lin * t_lin)
             step = np.where(df > 0, f / df, 0.0)
             t_lin = np.clip(t_lin - np.where(np.isfinite(step), step, 0.0), 0.0, t_max)
         t1 = np.minimum(t1, t_lin)
-        for _ in range(RC_NEWTON_STEPS):
+        for _ in range(CROSSING_NEWTON_STEPS):
             _, dev, slope = parts(t1)
             f = k * (s * dev + 0.5 * c * t1 * t1) - sr
             df = k * (s * slope + c * t1)
@@ -320,7 +320,7 @@ def _crossing(
         dv, si, ci, tli, ki, sr = dead_band_v[i], s[i], c[i], tl[i], k[i], slew[i]
         hi = np.broadcast_to(np.asarray(t_max, dtype=float), (n,))[i].copy()
         reach = ki * _displacement(hi, si, ci, tli)  # drive moved by t_max, no slew limit
-        t_lin, t1 = _rc_crossing_roots(dv, si, ci, tli, ki, sr, hi)
+        t_lin, t1 = _crossing_roots(dv, si, ci, tli, ki, sr, hi)
         fast = ki * _deviation(t_lin, si, ci, tli) > sr
         with np.errstate(invalid="ignore"):
             t_slew = t1 + (dv - ki * _displacement(t1, si, ci, tli)) / sr
@@ -854,19 +854,22 @@ def _class_a_clip(design: Design, i_bias: np.ndarray) -> tuple[np.ndarray, np.nd
     return flat, depth, np.nan_to_num(thd_f, nan=0.0)
 
 
+def _quarter_times(design: Design) -> np.ndarray:
+    """The instants of the sine's two peaks (a quarter and three quarters of a period), s;
+    (2,) or (N, 2) for a batch."""
+    return np.array([0.25, 0.75]) / col(design.signal.frequency_hz)
+
+
 def output_extremes(design: Design) -> tuple[np.ndarray, np.ndarray]:
     """Lowest and highest level of the ideal output, V (one value, or (N,) for a batch)."""
-    amp = np.abs(design.signal_gain * design.signal.amplitude_v)
-    return design.out_bias_v - amp, design.out_bias_v + amp
+    v = design.v_ideal(_quarter_times(design))
+    return v.min(axis=-1), v.max(axis=-1)
 
 
 def input_extremes(design: Design) -> tuple[np.ndarray, np.ndarray]:
-    """Lowest and highest level of the non-inverting input, V: it follows the source in a
-    non-inverting stage and sits at the reference in an inverting one."""
-    if design.closed_loop.configuration == "non-inverting":
-        amp = np.abs(design.signal.amplitude_v)
-        return design.signal.bias_v - amp, design.signal.bias_v + amp
-    return design.reference_v, design.reference_v
+    """Lowest and highest level of the non-inverting input (:meth:`Design.v_plus`), V."""
+    v = design.v_plus(_quarter_times(design))
+    return v.min(axis=-1), v.max(axis=-1)
 
 
 def ideal_grid(design: Design, n: int = GRID) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -1143,21 +1146,14 @@ def predict_closed_form(
         thd_est[clipped] = thd_a
 
     # --- currents and swing at the instants that matter (no grid) ----------------------------
-    # i = I0 + b_s sin(theta) + b_c cos(theta), v = V0 + a sin(theta) (theta = omega t)
-    i_sin, i_cos = np.real(y) * a, np.imag(y) * a
-    phi_i = np.arctan2(i_cos, i_sin)
+    # the output peaks at theta = pi/2 (a > 0), the current i = I0 + B sin(theta + phi) at
+    # pi/2 - phi; the ideal waveform read at the window's instants
     top = np.where(np.asarray(a) >= 0, 0.5 * np.pi, 1.5 * np.pi)
-    win_p = _peak_window(top, 0.5 * np.pi - phi_i)  # output top .. current peak
-    win_n = _peak_window(top + np.pi, 1.5 * np.pi - phi_i)  # output bottom .. current trough
-
-    def at(theta: np.ndarray) -> tuple[np.ndarray, np.ndarray]:  # (current, output) there
-        sin_t = np.sin(theta)
-        cur = col(i0) + col(i_sin) * sin_t + col(i_cos) * np.cos(theta)
-        return np.atleast_2d(cur), np.atleast_2d(col(v0) + col(a) * sin_t)
-
-    i_p, v_p = at(win_p)
-    i_n, v_n = at(win_n)
-    h_p, h_n = col(vpos) - v_p, v_n - col(vneg)
+    t_p = _peak_window(top, 0.5 * np.pi - phi) / col(w)  # output top .. current peak
+    t_n = _peak_window(top + np.pi, 1.5 * np.pi - phi) / col(w)  # bottom .. current trough
+    i_p, i_n = (np.atleast_2d(ideal_current(design, tt)) for tt in (t_p, t_n))
+    h_p = col(vpos) - np.atleast_2d(design.v_ideal(t_p))
+    h_n = np.atleast_2d(design.v_ideal(t_n)) - col(vneg)
     # The pull-down current adds to the source current: its pessimistic side here is the high one.
     i_hi = stage.stage_current_high_a
     src_p = np.maximum(i_p + np.where(pulldown, i_hi, 0.0)[:, None], 0.0)
@@ -1215,7 +1211,8 @@ def predict_closed_form(
     # --- power -------------------------------------------------------------------------------
     chans = np.maximum(stage.channels, design.channels_used)
     used = float(design.channels_used)
-    src_mean, p_devices = conduction_means(i0, i_sin, i_cos, v0, a, vpos, vneg)
+    # i = I0 + b_s sin(theta) + b_c cos(theta), as loading.ideal_current
+    src_mean, p_devices = conduction_means(i0, np.real(y) * a, np.imag(y) * a, v0, a, vpos, vneg)
     # from the positive rail: the quiescent current, what the source device delivers, and what
     # a resistor from V+ to the output (a pull-up) draws straight from the rail (its mean over
     # the sine is (V+ - V0) / R_up; per row of a batch: NaN where a row has none)

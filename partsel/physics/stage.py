@@ -374,19 +374,25 @@ class StageParams:
 
 def pwl(x: np.ndarray, xp: np.ndarray, fp: np.ndarray) -> np.ndarray:
     """Piecewise-linear interpolation per part, see :func:`pwl_with_slope` (values only)."""
-    return pwl_with_slope(x, xp, fp, slopes=False)[0]
+    return _pwl(x, xp, fp, False)[0]
 
 
-def pwl_with_slope(
-    x: np.ndarray, xp: np.ndarray, fp: np.ndarray, *, slopes: bool = True
-) -> tuple[np.ndarray, np.ndarray]:
+def pwl_with_slope(x: np.ndarray, xp: np.ndarray, fp: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Piecewise-linear interpolation per part with linear extrapolation at both ends.
 
     ``xp``/``fp`` have shape (P, K), increasing along K, NaN-padded at the end (at least one
     point; a single point gives a constant). ``x`` has shape (P,) or (P, T). Parts with no
-    points give NaN. Returns the values and the local slopes (with ``slopes=False`` the
-    first segment's slope only, for callers that use the values alone).
+    points give NaN. Returns the values and the local slopes.
     """
+    out, slope = _pwl(x, xp, fp, True)
+    assert slope is not None
+    return out, slope
+
+
+def _pwl(
+    x: np.ndarray, xp: np.ndarray, fp: np.ndarray, slopes: bool
+) -> tuple[np.ndarray, np.ndarray | None]:
+    """:func:`pwl_with_slope`; the slopes only where ``slopes`` (else None)."""
     x = np.asarray(x, dtype=float)
     squeeze = x.ndim == 1
     xx = x[:, None] if squeeze else x
@@ -396,15 +402,15 @@ def pwl_with_slope(
     seg_ok = ~np.isnan(dx)
     s0 = np.where(seg_ok[:, 0], seg_slope[:, 0], 0.0)[:, None]
     out = fp[:, :1] + s0 * (xx - xp[:, :1])
-    slope = np.broadcast_to(s0, out.shape)
+    slope = np.broadcast_to(s0, out.shape) if slopes else None
     for k in range(1, xp.shape[1] - 1):
         if not seg_ok[:, k].any():
             break
         m = seg_ok[:, k, None] & (xx >= xp[:, k, None])
         sk = seg_slope[:, k, None]
         out = np.where(m, fp[:, k, None] + sk * (xx - xp[:, k, None]), out)
-        if slopes:
+        if slope is not None:
             slope = np.where(m, sk, slope)
     if squeeze:
-        return out[:, 0], slope[:, 0]
+        return out[:, 0], None if slope is None else slope[:, 0]
     return out, slope

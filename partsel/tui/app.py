@@ -299,24 +299,24 @@ class PartselApp(App[None]):
         if not worker.is_cancelled:
             self.call_from_thread(self._ranked, r, view, gen, t0)
 
-    def _rank_failed(self, exc: Exception) -> None:
-        self.notify(f"ranking failed: {exc}", severity="error", markup=False)
+    def _main_screens(self) -> list[Any]:
+        """The main screens on the stack (the ones that show the ranking)."""
         from partsel.tui.screens.main import MainScreen
 
-        for screen in self.screen_stack:
-            if isinstance(screen, MainScreen):
-                screen.ranking_failed()
+        return [s for s in self.screen_stack if isinstance(s, MainScreen)]
+
+    def _rank_failed(self, exc: Exception) -> None:
+        self.notify(f"ranking failed: {exc}", severity="error", markup=False)
+        for screen in self._main_screens():
+            screen.ranking_failed()
 
     def _ranked(self, r: Ranking, view: RankingView, gen: int, t0: float) -> None:
         if gen != self.design_gen or r.table is not self.table:
             return  # a newer design or catalogue is on its way
         self.ranking = r
         self.view = view
-        from partsel.tui.screens.main import MainScreen
-
-        for screen in self.screen_stack:
-            if isinstance(screen, MainScreen):
-                screen.show_ranking(view)
+        for screen in self._main_screens():
+            screen.show_ranking(view)
         self.rank_count += 1
         self.last_latency_s = time.perf_counter() - t0
 

@@ -149,10 +149,6 @@ def open_loop_gbw(c: Circuit, work: Path, r_load_ohm: float = 10e3) -> float:
     return float(10 ** (cols["vdb(out)"][k] / 20) * f[k])
 
 
-def _gbw(c: Circuit, work: Path) -> float:
-    return open_loop_gbw(c, work)
-
-
 def _slew(c: Circuit, work: Path, lo: float = 1.5, hi: float = 3.5) -> tuple[float, float]:
     """Rising and falling slew rate of the follower stepped from ``lo`` to ``hi`` and back."""
     body = (
@@ -249,7 +245,7 @@ def characterise(c: Circuit, work: Path) -> Measured:
     rise, fall = _slew(c, work / "slew")
     return Measured(
         circuit=c,
-        gbw_hz=_gbw(c, work / "gbw"),
+        gbw_hz=open_loop_gbw(c, work / "gbw"),
         slew_rise_v_per_s=rise,
         slew_fall_v_per_s=fall,
         stage_current_a=i_stage,
